@@ -52,6 +52,10 @@ impl CellAreas {
     pub fn method(&self) -> &AreaMethod {
         todo!()
     }
+    /// One sentence naming the method, for the report.
+    pub fn describe(&self) -> String {
+        todo!()
+    }
     /// Areas of the cells of `row`, m2.
     pub fn row(&mut self, _row: usize) -> Result<RowAreas> {
         todo!()

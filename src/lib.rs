@@ -1,16 +1,31 @@
 //! areal: from a continuous suitability raster and occurrence records to a species range:
 //! an omission-based threshold, the accessible area M, range classes, connected patches
-//! and their true areas on the WGS84 ellipsoid.
+//! and their true areas on the ellipsoid.
 //!
-//! The pipeline stages are modules of their own; this file is the public surface.
+//! Stages (each a module with its own contract and tests):
+//! [`records`] read and reproject records; [`threshold`](omission_threshold) pick T;
+//! [`access`] rasterise M; [`area`] true cell areas; [`patches`] streaming labelling;
+//! the pipeline ([`compute_range`], [`run_range`]) ties them in one pass over the raster.
 #![deny(missing_docs)]
 
 pub mod access;
 pub mod area;
 mod error;
 mod grid;
+mod output;
 pub mod patches;
+mod pipeline;
+pub mod raster_io;
 pub mod records;
+mod report;
+mod threshold;
 
 pub use error::{Error, Result};
 pub use grid::GridSpec;
+pub use output::{OutputDir, OUTPUT_NAMES};
+pub use pipeline::{compute_range, run_range, MemorySink, RangeOptions, RangeResult, RowSink};
+pub use report::{
+    AccessReport, AreaReport, CellReport, ExcludedRecord, InputsReport, PatchReport, PatchRow, RecordRow,
+    RecordsReport, Summary, ThresholdReport, CAUTIONS,
+};
+pub use threshold::{omission_threshold, Threshold, ThresholdSpec};

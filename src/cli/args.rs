@@ -1,0 +1,102 @@
+//! clap definitions: syntax only. Values are checked by the library's constructors.
+
+use areal::access::AccessSpec;
+use areal::patches::Connectivity;
+use areal::records::RecordOptions;
+use areal::{RangeOptions, ThresholdSpec};
+use clap::{ArgGroup, Parser, Subcommand};
+use std::path::PathBuf;
+
+/// areal: turn a suitability raster and occurrence records into a species range.
+#[derive(Parser, Debug)]
+#[command(name = "areal", version, about, long_about = None)]
+pub(crate) struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+pub(crate) enum Command {
+    /// Threshold the suitability raster, restrict it to the accessible area M, label
+    /// patches and measure them in true area.
+    Range(RangeArgs),
+}
+
+#[derive(clap::Args, Debug)]
+#[command(group(ArgGroup::new("rule").required(true).args(["omission", "threshold"])))]
+pub(crate) struct RangeArgs {
+    /// Continuous (or 0/1) suitability raster, any single-band GDAL raster with a CRS.
+    #[arg(long, value_name = "FILE")]
+    pub suitability: PathBuf,
+    /// Occurrence records: CSV (Darwin Core or lon/lat columns) or a GDAL point layer.
+    #[arg(long, value_name = "FILE")]
+    pub records: PathBuf,
+    /// Tolerated omission E in percent (0 <= E < 100): drop the floor(n*E/100) lowest record values.
+    #[arg(long, value_name = "E", allow_negative_numbers = true)]
+    pub omission: Option<f64>,
+    /// A fixed suitability threshold instead of the omission rule.
+    #[arg(long, value_name = "V", allow_negative_numbers = true)]
+    pub threshold: Option<f64>,
+    /// Accessible area M as a polygon file (any GDAL vector format).
+    #[arg(long, value_name = "FILE")]
+    pub accessible: Option<PathBuf>,
+    /// M as the cells within D km (geodesic) of any record.
+    #[arg(long, value_name = "D", allow_negative_numbers = true)]
+    pub buffer_km: Option<f64>,
+    /// M as the convex hull of the records buffered by D km (geodesic).
+    #[arg(long, value_name = "D", allow_negative_numbers = true)]
+    pub hull_buffer_km: Option<f64>,
+    /// Patch connectivity: 8 (queen, default) or 4 (rook).
+    #[arg(long, value_name = "8|4", default_value = "8", value_parser = ["8", "4"])]
+    pub connectivity: String,
+    /// Output folder (created; replaced only with --overwrite).
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Replace an existing output folder written by areal.
+    #[arg(long)]
+    pub overwrite: bool,
+    /// Count every record in the threshold rule (default: one value per occupied cell).
+    #[arg(long)]
+    pub keep_duplicates: bool,
+    /// Column holding record longitudes (or x).
+    #[arg(long, value_name = "NAME")]
+    pub lon_col: Option<String>,
+    /// Column holding record latitudes (or y).
+    #[arg(long, value_name = "NAME")]
+    pub lat_col: Option<String>,
+    /// CRS of CSV record coordinates.
+    #[arg(long, value_name = "CRS", default_value = "EPSG:4326")]
+    pub records_crs: String,
+    /// Layer of a multi-layer records file.
+    #[arg(long, value_name = "NAME")]
+    pub records_layer: Option<String>,
+    /// Print summary.json on stdout instead of the readable summary.
+    #[arg(long)]
+    pub json: bool,
+}
+
+impl RangeArgs {
+    pub(crate) fn to_options(&self) -> areal::Result<RangeOptions> {
+        let threshold = match (self.omission, self.threshold) {
+            (Some(e), None) => ThresholdSpec::omission(e)?,
+            (None, Some(v)) => ThresholdSpec::fixed(v)?,
+            _ => unreachable!("clap requires exactly one of --omission and --threshold"),
+        };
+        Ok(RangeOptions {
+            threshold,
+            access: AccessSpec {
+                polygon: self.accessible.clone(),
+                buffer_km: self.buffer_km,
+                hull_buffer_km: self.hull_buffer_km,
+            },
+            connectivity: if self.connectivity == "4" { Connectivity::Four } else { Connectivity::Eight },
+            keep_duplicates: self.keep_duplicates,
+            records: RecordOptions {
+                lon_col: self.lon_col.clone(),
+                lat_col: self.lat_col.clone(),
+                crs: self.records_crs.clone(),
+                layer: self.records_layer.clone(),
+            },
+        })
+    }
+}

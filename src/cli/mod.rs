@@ -1,0 +1,37 @@
+//! Command-line front end. Parsing lives in `args`; this file dispatches and prints.
+//!
+//! Exit codes: 0 success; 2 usage or option error; 3 bad input (files, records, CRS);
+//! 4 output error (folder exists, not writable); 101 would be a panic (a bug).
+
+mod args;
+
+use args::{Cli, Command};
+use clap::Parser;
+use std::process::ExitCode;
+
+pub(crate) fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match run(cli) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("areal: error: {e}");
+            ExitCode::from(e.exit_code())
+        }
+    }
+}
+
+fn run(cli: Cli) -> areal::Result<()> {
+    match cli.command {
+        Command::Range(a) => {
+            let opts = a.to_options()?;
+            let result = areal::run_range(&a.suitability, &a.records, &opts, &a.out, a.overwrite)?;
+            if a.json {
+                println!("{}", serde_json::to_string_pretty(&result.summary).expect("summary serialises"));
+            } else {
+                print!("{}", result.summary.to_text());
+                println!("  outputs         {}", a.out.display());
+            }
+            Ok(())
+        }
+    }
+}

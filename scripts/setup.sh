@@ -1,0 +1,15 @@
+#!/usr/bin/env bash
+# Installs what areal needs on a fresh Debian machine (run as root): GDAL with its
+# development files and pkg-config. Safe to run again; it installs only what is missing.
+set -euo pipefail
+need=()
+for pkg in libgdal-dev pkg-config gdal-bin; do
+  dpkg-query -W -f='${Status}' "$pkg" 2>/dev/null | grep -q "install ok installed" || need+=("$pkg")
+done
+if [ ${#need[@]} -gt 0 ]; then
+  echo "setup: installing ${need[*]}" >&2
+  export DEBIAN_FRONTEND=noninteractive
+  apt-get update -qq
+  apt-get install -y -qq "${need[@]}" >/dev/null
+fi
+command -v cargo >/dev/null || { echo "setup: cargo not found; install the Rust toolchain (rustup) first" >&2; exit 1; }

@@ -1,0 +1,75 @@
+//! Helpers for end-to-end tests: write small rasters and record files into a temp folder,
+//! run the real `areal` binary.
+#![allow(dead_code)]
+
+use gdal::raster::{Buffer, RasterCreationOptions};
+use gdal::spatial_ref::SpatialRef;
+use gdal::{Dataset, DriverManager};
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+/// Write a float32 GeoTIFF. `crs`: an EPSG code, or None for no CRS.
+pub fn write_raster(path: &Path, w: usize, h: usize, gt: [f64; 6], epsg: Option<u32>, nodata: Option<f64>, values: &[f32]) {
+    assert_eq!(values.len(), w * h);
+    let opts = RasterCreationOptions::from_iter(["COMPRESS=DEFLATE"]);
+    let mut ds = DriverManager::get_driver_by_name("GTiff")
+        .unwrap()
+        .create_with_band_type_with_options::<f32, _>(path, w, h, 1, &opts)
+        .unwrap();
+    ds.set_geo_transform(&gt).unwrap();
+    if let Some(code) = epsg {
+        ds.set_spatial_ref(&SpatialRef::from_epsg(code).unwrap()).unwrap();
+    }
+    let mut band = ds.rasterband(1).unwrap();
+    if let Some(nd) = nodata {
+        band.set_no_data_value(Some(nd)).unwrap();
+    }
+    band.write((0, 0), (w, h), &mut Buffer::new((w, h), values.to_vec())).unwrap();
+    drop(band);
+    ds.close().unwrap();
+}
+
+/// The areal binary built by cargo for these tests.
+pub fn areal() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_areal"))
+}
+
+/// Run areal with args; returns the output.
+pub fn run(args: &[&str]) -> Output {
+    areal().args(args).output().expect("areal runs")
+}
+
+/// The repository's demo-data folder.
+pub fn demo(name: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data").join(name)
+}
+
+/// Read a whole uint8 band.
+pub fn read_u8(path: &Path) -> (usize, usize, Vec<u8>) {
+    let ds = Dataset::open(path).unwrap();
+    let band = ds.rasterband(1).unwrap();
+    let (w, h) = band.size();
+    let buf = band.read_as::<u8>((0, 0), (w, h), (w, h), None).unwrap();
+    (w, h, buf.data().to_vec())
+}
+
+/// Parse a CSV file into header and rows of strings.
+pub fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
+    let mut r = csv::Reader::from_path(path).unwrap();
+    let header = r.headers().unwrap().iter().map(String::from).collect();
+    let rows = r.records().map(|rec| rec.unwrap().iter().map(String::from).collect()).collect();
+    (header, rows)
+}
+
+/// Column index by name.
+pub fn col(header: &[String], name: &str) -> usize {
+    header.iter().position(|h| h == name).unwrap_or_else(|| panic!("column {name} missing in {header:?}"))
+}
+
+pub fn stderr(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+pub fn json(path: &Path) -> serde_json::Value {
+    serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap()
+}

@@ -234,7 +234,7 @@ pub(super) fn read(path: &Path, opts: &super::RecordOptions) -> Result<RawRecord
     };
     if opts.layer.is_some() {
         out.warnings.push(format!(
-            "{}: --layer ignored for a delimited text file",
+            "{}: --records-layer ignored for a delimited text file",
             path.display()
         ));
     }

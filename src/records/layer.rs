@@ -1,6 +1,6 @@
 //! Records from a GDAL vector layer (GeoJSON, GeoPackage, Shapefile, ...).
 //!
-//! - The layer is `--layer` or the first one. Geometries must be Point or MultiPoint (Z/M
+//! - The layer is `--records-layer` or the first one. Geometries must be Point or MultiPoint (Z/M
 //!   allowed, ignored); a MultiPoint gives one record per point.
 //! - Null or empty geometries are skipped with a warning; any other geometry type is an
 //!   error naming the feature.
@@ -34,7 +34,7 @@ pub(super) fn read(path: &Path, opts: &super::RecordOptions) -> Result<RawRecord
     let names: Vec<String> = ds.layers().map(|l| l.name()).collect();
     let mut layer = match &opts.layer {
         Some(name) => ds.layer_by_name(name).map_err(|_| Error::InvalidOption {
-            option: "--layer",
+            option: "--records-layer",
             reason: format!(
                 "no layer '{name}' in {}; layers found: {}",
                 path.display(),

@@ -261,7 +261,7 @@ fn non_point_layer_is_refused_naming_the_feature() {
         matches!(
             e,
             Error::InvalidOption {
-                option: "--layer",
+                option: "--records-layer",
                 ..
             }
         ),

@@ -348,16 +348,16 @@ impl AccessMask {
             return Ok(());
         }
         self.row_lonlat(row);
-        for c in 0..w {
-            if !out[c] {
+        for (c, o) in out.iter_mut().enumerate() {
+            if !*o {
                 continue;
             }
             let (lon, lat) = (self.lon[c], self.lat[c]);
             if let Some(b) = &self.buffer {
-                out[c] = b.contains(lon, lat);
+                *o = b.contains(lon, lat);
             }
-            if let (true, Some(h)) = (out[c], &self.hull) {
-                out[c] = h.hull.contains(lat, lon)
+            if let (true, Some(h)) = (*o, &self.hull) {
+                *o = h.hull.contains(lat, lon)
                     || h.edge.as_ref().is_some_and(|e| e.contains(lon, lat));
             }
         }

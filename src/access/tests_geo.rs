@@ -271,3 +271,30 @@ fn hull_wider_than_a_hemisphere_is_refused() {
     let e = AccessMask::build(&g, &hull(10.0), &recs).err().unwrap();
     assert!(e.to_string().contains("hemisphere"), "{e}");
 }
+
+#[test]
+fn hull_interior_matches_spherical_trigonometry() {
+    // Hull of (0,0), (10,0), (0,10): sides on the equator, the meridian 0 and the great
+    // circle through (10E, 0) and (0, 10N). By Napier's rules that circle has
+    // tan φ = sin(10° - λ) / cos 10° (node at 10E, inclination i with tan i = 1/cos 10°;
+    // derived by hand). Inside: λ > 0, φ > 0 and below the circle.
+    let recs = [(0.0, 0.0), (10.0, 0.0), (0.0, 10.0)];
+    let g = GridSpec::lonlat(130, 130, -0.5, 12.5, 0.1);
+    let mut m = AccessMask::build(&g, &hull(0.0), &recs).unwrap();
+    let got = rows(&mut m, &g);
+    let mut n_in = 0;
+    for (r, cells) in got.iter().enumerate() {
+        for (c, &v) in cells.iter().enumerate() {
+            let (lon, lat) = (g.col_centre_x(c), g.row_centre_y(r));
+            let t = (10.0 - lon).to_radians().sin() / 10f64.to_radians().cos();
+            let margin = lat.to_radians().tan() - t;
+            if margin.abs() < 1e-9 || lon.abs() < 1e-9 || lat.abs() < 1e-9 {
+                continue;
+            }
+            let want = lon > 0.0 && lat > 0.0 && margin < 0.0;
+            assert_eq!(v, want, "row {r} col {c} ({lon}, {lat})");
+            n_in += want as usize;
+        }
+    }
+    assert!(n_in > 4000, "{n_in}");
+}

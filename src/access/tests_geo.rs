@@ -298,3 +298,76 @@ fn hull_interior_matches_spherical_trigonometry() {
     }
     assert!(n_in > 4000, "{n_in}");
 }
+
+/// A grid in EPSG:3857 with `n x n` cells of `cell` metres, north-west corner (x0, y0).
+fn mercator_grid(n: usize, x0: f64, y0: f64, cell: f64) -> (GridSpec, CoordTransform) {
+    let mut merc = SpatialRef::from_epsg(3857).unwrap();
+    merc.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
+    let mut wgs = SpatialRef::from_epsg(4326).unwrap();
+    wgs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
+    let g = GridSpec {
+        width: n,
+        height: n,
+        geo_transform: [x0, cell, 0.0, y0, 0.0, -cell],
+        crs_wkt: merc.to_wkt().unwrap(),
+        geographic: false,
+    };
+    (g, CoordTransform::new(&merc, &wgs).unwrap())
+}
+
+#[test]
+fn hull_and_polygon_on_projected_grid() {
+    // EPSG:3857 x = R·λ (EPSG Guidance Note 7-2), so x = R·λ in radians.
+    let r = 6_378_137.0f64;
+    let (g, ct) = mercator_grid(100, -r * 1f64.to_radians(), 1_400_000.0, 15_000.0);
+    // Same triangle and hand-derived great-circle side as hull_interior_matches_spherical_trigonometry.
+    let recs = [(0.0, 0.0), (10.0, 0.0), (0.0, 10.0)];
+    let mut m = AccessMask::build(&g, &hull(0.0), &recs).unwrap();
+    let got = rows(&mut m, &g);
+    let mut n_in = 0;
+    for (row, cells) in got.iter().enumerate() {
+        let mut lon: Vec<f64> = (0..g.width).map(|c| g.col_centre_x(c)).collect();
+        let mut lat = vec![g.row_centre_y(row); g.width];
+        ct.transform_coords(&mut lon, &mut lat, &mut []).unwrap();
+        for (c, &v) in cells.iter().enumerate() {
+            let t = (10.0 - lon[c]).to_radians().sin() / 10f64.to_radians().cos();
+            let margin = lat[c].to_radians().tan() - t;
+            if margin.abs() < 1e-9 || lon[c].abs() < 1e-9 || lat[c].abs() < 1e-9 {
+                continue;
+            }
+            let want = lon[c] > 0.0 && lat[c] > 0.0 && margin < 0.0;
+            assert_eq!(v, want, "row {row} col {c}");
+            n_in += want as usize;
+        }
+    }
+    assert!(n_in > 1000, "{n_in}");
+
+    // A lon/lat polygon (GeoJSON, EPSG:4326) on the Mercator grid: the square lon 2..8,
+    // lat 1..7 is the rectangle x in R·(2°..8°), y in R·ln tan(π/4 + φ/2) for φ = 1°..7°.
+    let dir = tempfile::TempDir::new().unwrap();
+    let p = super::tests::geojson(
+        &dir,
+        "sq.geojson",
+        &[r#"{"type":"Polygon","coordinates":[[[2,1],[8,1],[8,7],[2,7],[2,1]]]}"#],
+    );
+    let spec = AccessSpec {
+        polygon: Some(p),
+        ..Default::default()
+    };
+    let mut m = AccessMask::build(&g, &spec, &[]).unwrap();
+    let y = |lat: f64| {
+        r * (std::f64::consts::FRAC_PI_4 + lat.to_radians() / 2.0)
+            .tan()
+            .ln()
+    };
+    let x = |lon: f64| r * lon.to_radians();
+    let nx = (0..g.width)
+        .filter(|&c| (x(2.0)..x(8.0)).contains(&g.col_centre_x(c)))
+        .count();
+    let ny = (0..g.height)
+        .filter(|&rw| (y(1.0)..y(7.0)).contains(&g.row_centre_y(rw)))
+        .count();
+    let n = rows(&mut m, &g).iter().flatten().filter(|&&b| b).count();
+    assert_eq!(n, nx * ny);
+    assert!(nx * ny > 100);
+}

@@ -181,6 +181,7 @@ pub fn compute_range(
 
     let lonlat: Vec<(f64, f64)> = set.records.iter().map(|r| (r.lon, r.lat)).collect();
     let mut access = AccessMask::build(&grid, &opts.access, &lonlat)?;
+    warnings.extend(access.warnings().iter().cloned());
     let mut areas = CellAreas::new(&grid)?;
 
     let mut totals =

@@ -18,7 +18,12 @@ pub struct RecordOptions {
 
 impl Default for RecordOptions {
     fn default() -> Self {
-        RecordOptions { lon_col: None, lat_col: None, crs: "EPSG:4326".into(), layer: None }
+        RecordOptions {
+            lon_col: None,
+            lat_col: None,
+            crs: "EPSG:4326".into(),
+            layer: None,
+        }
     }
 }
 
@@ -53,6 +58,10 @@ pub struct RecordSet {
 }
 
 /// Read records from a CSV or a GDAL point layer, reproject them to `raster_crs_wkt`.
-pub fn read_records(_path: &Path, _opts: &RecordOptions, _raster_crs_wkt: &str) -> Result<RecordSet> {
+pub fn read_records(
+    _path: &Path,
+    _opts: &RecordOptions,
+    _raster_crs_wkt: &str,
+) -> Result<RecordSet> {
     todo!()
 }

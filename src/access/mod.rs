@@ -21,7 +21,11 @@ pub struct AccessMask {
 
 impl AccessMask {
     /// Build M for `grid` from the spec; `records` are WGS84 (lon, lat) degrees.
-    pub fn build(_grid: &GridSpec, _spec: &AccessSpec, _records: &[(f64, f64)]) -> Result<AccessMask> {
+    pub fn build(
+        _grid: &GridSpec,
+        _spec: &AccessSpec,
+        _records: &[(f64, f64)],
+    ) -> Result<AccessMask> {
         todo!()
     }
     /// Whether M is the whole raster (no M option given).

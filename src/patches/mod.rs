@@ -53,7 +53,13 @@ impl PatchLabeler {
     }
     /// Push the classes of `row` (0 unsuitable, 1, 2 patch classes, 255 nodata), its cell areas,
     /// and the record counts in that row as (col, count) pairs.
-    pub fn push_row(&mut self, _row: usize, _classes: &[u8], _areas: &RowAreas, _records: &[(usize, u64)]) {
+    pub fn push_row(
+        &mut self,
+        _row: usize,
+        _classes: &[u8],
+        _areas: &RowAreas,
+        _records: &[(usize, u64)],
+    ) {
         todo!()
     }
     /// All patches, sorted by id.

@@ -41,13 +41,10 @@ fn gl_cell_area(geod: &Geodesic, lat1: f64, lat2: f64, dlon: f64, n: usize) -> f
     (4.0 * poly(2 * n) - poly(n)) / 3.0
 }
 
-/// WKT of a CRS definition (EPSG:n, ESRI:n or a PROJ string): WKT1 when GDAL can write it,
-/// WKT2 otherwise (GDAL 3.6 has no WKT1 for Equal Earth).
+/// WKT2 of a CRS definition (EPSG:n, ESRI:n or a PROJ string). WKT2 because GDAL 3.6 has no
+/// WKT1 for Equal Earth, and WKT1 drops the "(Spherical)" of EPSG methods 9834 and 1027.
 fn wkt_of(def: &str) -> String {
     let srs = SpatialRef::from_definition(def).unwrap();
-    if let Ok(w) = srs.to_wkt() {
-        return w;
-    }
     let opts: gdal::cpl::CslStringList = ["FORMAT=WKT2_2019"].into_iter().collect();
     let mut p: *mut std::ffi::c_char = std::ptr::null_mut();
     // SAFETY: valid handle; GDAL allocates the string, freed with VSIFree below.
@@ -267,4 +264,214 @@ fn bad_geographic_grids_are_refused() {
     assert!(matches!(CellAreas::new(&mismatch), Err(Error::Crs { .. })));
     let g = GridSpec::lonlat(2, 2, 0.0, 1.0, 1.0);
     assert!(CellAreas::new(&g).unwrap().row(2).is_err());
+}
+
+// ---------------------------------------------------------------- projected CRSs
+
+const LAEA_45_10: &str =
+    "+proj=laea +lat_0=45 +lon_0=10 +x_0=0 +y_0=0 +datum=WGS84 +units=m +no_defs";
+
+#[test]
+fn method_detection_for_known_crss() {
+    // CHECKS.md §6: 6933 CEA, 3035 LAEA, 8857 Equal Earth, LAEA strings are ellipsoidal
+    // equal-area in PROJ; ESRI:54009 Mollweide is spherical-only (not equal-area on WGS 84);
+    // EPSG:3857 is conformal. Spherical figures: CEA R=6371228 (EASE-Grid v1, CHECKS.md §6) and
+    // Mollweide on a sphere are equal-area on that sphere (PROJ's spherical formulas, from memory).
+    let equal_area = [
+        ("EPSG:6933", "Lambert Cylindrical Equal Area"),
+        ("EPSG:3035", "Lambert Azimuthal Equal Area"),
+        ("EPSG:8857", "Equal Earth"),
+        (LAEA_45_10, "Lambert Azimuthal Equal Area"),
+        (
+            "+proj=aea +lat_1=20 +lat_2=60 +ellps=GRS80",
+            "Albers Equal Area",
+        ),
+        ("+proj=sinu +datum=WGS84", "Sinusoidal"),
+        (
+            "+proj=cea +lat_ts=30 +R=6371228",
+            "Lambert Cylindrical Equal Area (Spherical)",
+        ),
+        ("+proj=moll +R=6371000", "Mollweide"),
+    ];
+    for (def, name) in equal_area {
+        let g = projected_grid(def, 2, 2, 0.0, 1e5, 1000.0);
+        let mut ca = CellAreas::new(&g).unwrap();
+        assert_eq!(
+            ca.method(),
+            &AreaMethod::EqualAreaProjection {
+                projection: name.into()
+            },
+            "{def}"
+        );
+        assert_eq!(ca.row(1).unwrap(), RowAreas::Uniform(1e6), "{def}");
+    }
+    let corners = [
+        ("ESRI:54009", "Mollweide"),
+        ("EPSG:3857", "Popular Visualisation Pseudo Mercator"),
+        // LAEA (Spherical), EPSG method 1027, on the Clarke 1866 ellipsoid.
+        ("EPSG:9311", "Lambert Azimuthal Equal Area (Spherical)"),
+    ];
+    for (def, name) in corners {
+        let g = projected_grid(def, 2, 2, 0.0, 1e5, 1000.0);
+        let ca = CellAreas::new(&g).unwrap();
+        assert_eq!(
+            ca.method(),
+            &AreaMethod::ProjectedCorners {
+                projection: name.into()
+            },
+            "{def}"
+        );
+        assert!(ca.describe().contains("not equal-area"));
+    }
+}
+
+#[test]
+fn laea_square_is_uniform_and_corners_agree() {
+    // 100 km square in LAEA(45N, 10E) as 10 x 10 cells of 10 km (CHECKS.md §6).
+    let g = projected_grid(LAEA_45_10, 10, 10, -50_000.0, 50_000.0, 10_000.0);
+    let mut ea = CellAreas::new(&g).unwrap();
+    assert_eq!(ea.row(4).unwrap(), RowAreas::Uniform(1e8));
+    assert!(ea.describe().contains("Lambert Azimuthal Equal Area"));
+    // The corner method on the same grid must give the planar areas back, since LAEA is
+    // equal-area on WGS 84 (CHECKS.md §6 [REF]: 10 000.000 005 km² for the square with 1000
+    // points per edge, 10 000.003 077 km² with 10).
+    let mut co = CellAreas::new_projected_corners(&g).unwrap();
+    let cells = all_rows(&mut co, 10, 10);
+    let worst = cells.iter().map(|a| rel(*a, 1e8)).fold(0.0, f64::max);
+    assert!(worst < 3e-8, "worst cell {worst}");
+    let total = fsum(cells);
+    // 50 segments per side of the square: CHECKS.md's 3.07e-5/n² gives 1.2e-8.
+    assert!(rel(total, 1e10) < 2e-8, "{total}");
+    // The same grid with its CRS as WKT1 (GDAL's default export) is detected the same way.
+    let mut g1 = g.clone();
+    g1.crs_wkt = SpatialRef::from_proj4(LAEA_45_10)
+        .unwrap()
+        .to_wkt()
+        .unwrap();
+    assert_eq!(CellAreas::new(&g1).unwrap().method(), ea.method());
+}
+
+#[test]
+fn laea_corners_transform_to_the_checks_lonlat() {
+    // CHECKS.md §6 [REF]: corners of the 100 km square in LAEA(45N, 10E).
+    let g = projected_grid(LAEA_45_10, 1, 1, -50_000.0, 50_000.0, 100_000.0);
+    let srs = SpatialRef::from_wkt(&g.crs_wkt).unwrap();
+    let c = corners::Corners::new(&g, &srs, &Ellipsoid::WGS84).unwrap();
+    let mut x = [-50_000.0, 50_000.0, 50_000.0, -50_000.0];
+    let mut y = [-50_000.0, -50_000.0, 50_000.0, 50_000.0];
+    let ok = c.to_lonlat(&mut x, &mut y);
+    let want = [
+        (9.3707744512, 44.5483289527),
+        (10.6292255488, 44.5483289527),
+        (10.6391404787, 45.4481297914),
+        (9.3608595213, 45.4481297914),
+    ];
+    for i in 0..4 {
+        assert!(ok[i]);
+        assert!(
+            (x[i] - want[i].0).abs() < 1e-9 && (y[i] - want[i].1).abs() < 1e-9,
+            "{i}"
+        );
+    }
+}
+
+/// Geodetic latitude of Web Mercator northing y: φ = 2·atan(exp(y/a)) − π/2 (spherical Mercator
+/// inverse, Snyder 1987 eq. 7-4, from memory; EPSG:3857 applies it to WGS 84 latitudes).
+fn merc_lat(y: f64) -> f64 {
+    (2.0 * (y / 6_378_137.0).exp().atan() - std::f64::consts::FRAC_PI_2).to_degrees()
+}
+
+#[test]
+fn web_mercator_cells_match_geographiclib() {
+    // Web Mercator cell edges are parallels and meridians, so a cell is a lon/lat cell whose
+    // area GeographicLib gives (densified parallels, CHECKS.md §2 route GL-dens).
+    let geod = Geodesic::wgs84();
+    let (_, y45) = forward("EPSG:3857", 0.0, 45.0);
+    for cell in [1_000.0, 10_000.0, 100_000.0] {
+        let g = projected_grid("EPSG:3857", 3, 2, 500_000.0, y45 + cell, cell);
+        let mut ca = CellAreas::new(&g).unwrap();
+        for r in 0..2 {
+            let row = ca.row(r).unwrap();
+            let (top, bottom) = g.row_edges_y(r);
+            let dlon = (cell / 6_378_137.0).to_degrees();
+            let want = gl_cell_area(&geod, merc_lat(bottom), merc_lat(top), dlon, 200);
+            for c in 0..3 {
+                let e = rel(row.get(c), want);
+                assert!(e < 2e-8, "cell {cell} m, row {r} col {c}: rel err {e}");
+            }
+            // Known scale: Mercator's areal scale is sec²φ on the sphere R = a, and at 45°
+            // M·N/a² = 1 + O(e⁴), so area ≈ nominal·cos²φ (common practice, no source).
+            let phi = merc_lat(g.row_centre_y(r)).to_radians();
+            assert!(rel(row.get(0), cell * cell * phi.cos().powi(2)) < 1e-3);
+        }
+    }
+}
+
+#[test]
+fn cylindrical_equal_area_corners_match_q() {
+    // EPSG:6933 (CEA on WGS 84, CHECKS.md §6): cells are lon/lat cells and equal-area, so the
+    // corner method must give both the nominal area and the closed form (CHECKS.md §2: the CEA
+    // route agrees with the closed form to 1e-14).
+    let (_, y60) = forward("EPSG:6933", 0.0, 60.0);
+    let g = projected_grid("EPSG:6933", 2, 2, 0.0, y60, 25_000.0);
+    assert!(matches!(
+        CellAreas::new(&g).unwrap().method(),
+        AreaMethod::EqualAreaProjection { .. }
+    ));
+    let mut co = CellAreas::new_projected_corners(&g).unwrap();
+    for a in all_rows(&mut co, 2, 2) {
+        // Design target of the corner method: about 1e-8 (measured 1.2e-8 here).
+        assert!(rel(a, 25_000.0 * 25_000.0) < 3e-8, "{a}");
+    }
+}
+
+#[test]
+fn mollweide_on_wgs84_is_measured_not_trusted() {
+    // CHECKS.md §6 [REF]: for a 1° cell at 45–46°N, ESRI:54009 projected/true = 0.999894. A block
+    // of 5 km cells around 45.5°N (±0.05°) sees the same ratio to ~1e-5 (the ratio changes by
+    // about 2.2e-4 per degree between 45° and 60°, same table).
+    let (_, y_mid) = forward("ESRI:54009", 0.0, 45.5);
+    let cell = 5_000.0;
+    let g = projected_grid("ESRI:54009", 2, 2, 0.0, y_mid + cell, cell);
+    let mut ca = CellAreas::new(&g).unwrap();
+    let total = fsum(all_rows(&mut ca, 2, 2));
+    let ratio = 4.0 * cell * cell / total;
+    assert!((ratio - 0.999894).abs() < 2e-5, "ratio {ratio}");
+    // The nominal area would be wrong by more than the 1e-4 this detects.
+    assert!((ratio - 1.0).abs() > 5e-5);
+}
+
+#[test]
+fn mollweide_world_corners_outside_the_globe() {
+    // A world Mollweide grid: its corner cells lie outside the projection's ellipse
+    // (x range ±18 040 km at the equator, from the same PROJ). The strict row() refuses them
+    // with a CRS error naming the cell; row_allow_outside() gives NaN there and areas elsewhere.
+    let g = projected_grid(
+        "ESRI:54009",
+        36,
+        18,
+        -18_040_000.0,
+        9_020_000.0,
+        1_002_222.0,
+    );
+    let mut ca = CellAreas::new(&g).unwrap();
+    match ca.row(0) {
+        Err(Error::Crs { reason, .. }) => assert!(reason.contains("row 0, column 0"), "{reason}"),
+        other => panic!("expected a CRS error, got {other:?}"),
+    }
+    let row = ca.row_allow_outside(9).unwrap();
+    assert!(row.get(0).is_nan());
+    assert!(row.get(18).is_finite() && row.get(18) > 0.9e12);
+}
+
+#[test]
+fn row_cache_gives_the_same_areas_in_any_order() {
+    let (_, y45) = forward("EPSG:3857", 0.0, 45.0);
+    let g = projected_grid("EPSG:3857", 4, 5, 0.0, y45, 20_000.0);
+    let mut seq = CellAreas::new(&g).unwrap();
+    let forward_order: Vec<RowAreas> = (0..5).map(|r| seq.row(r).unwrap()).collect();
+    let mut rnd = CellAreas::new(&g).unwrap();
+    for r in [3, 1, 4, 0, 2] {
+        assert_eq!(rnd.row(r).unwrap(), forward_order[r]);
+    }
 }

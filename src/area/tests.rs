@@ -304,6 +304,12 @@ fn method_detection_for_known_crss() {
             "{def}"
         );
         assert_eq!(ca.row(1).unwrap(), RowAreas::Uniform(1e6), "{def}");
+        // PROJ itself must agree that the method is equal-area on this figure: the corner method
+        // (which trusts nothing) gives the nominal area back to the method's ~1e-8.
+        let mut co = CellAreas::new_projected_corners(&g).unwrap();
+        for a in all_rows(&mut co, 2, 2) {
+            assert!(rel(a, 1e6) < 1e-8, "{def}: corner area {a}");
+        }
     }
     let corners = [
         ("ESRI:54009", "Mollweide"),
@@ -323,6 +329,12 @@ fn method_detection_for_known_crss() {
         );
         assert!(ca.describe().contains("not equal-area"));
     }
+    // Near the origin of ESRI:54009 (equator) Mollweide's projected/true is 1.006738
+    // (CHECKS.md §6 [REF], 1° cell at 0°), so the corner areas must not be nominal.
+    let g = projected_grid("ESRI:54009", 2, 2, 0.0, 1e5, 1000.0);
+    let mut ca = CellAreas::new(&g).unwrap();
+    let ratio = 1e6 / ca.row(0).unwrap().get(0);
+    assert!((ratio - 1.006738).abs() < 1e-4, "{ratio}");
 }
 
 #[test]

@@ -3,7 +3,8 @@
 //!
 //! Input: a GDAL `SpatialRef`. The projection method is read from the CRS's PROJJSON
 //! (`conversion.method`), which keeps the EPSG method name and code even where WKT1 has no name
-//! for the method (Equal Earth) or hides the spherical variant (EPSG methods 9834 and 1027).
+//! for the method (Equal Earth) or hides the spherical variant (EPSG methods 9834 and 1027; a
+//! CRS read from such WKT1 is the ellipsoidal method, and PROJ computes it so).
 
 use super::ellipsoid::Ellipsoid;
 use crate::{Error, Result};
@@ -32,7 +33,7 @@ const ELLIPSOIDAL_EQUAL_AREA: &[(&str, Option<i64>)] = &[
 /// Methods that are equal-area only on a sphere: the EPSG "(Spherical)" variants (9834, 1027) and
 /// the projections PROJ implements on a sphere only (Mollweide: PROJ lists it as "PCyl., Sph.";
 /// on an ellipsoid it maps geodetic latitude onto a sphere of radius a, which is not
-/// equal-area: CHECKS.md §6). Eckert IV and VI are spherical-only in PROJ as well.
+/// equal-area: CHECKS.md §6). Eckert IV and VI are spherical-only in PROJ as well (from memory).
 const SPHERICAL_EQUAL_AREA: &[(&str, Option<i64>)] = &[
     ("lambert cylindrical equal area (spherical)", Some(9834)),
     ("lambert azimuthal equal area (spherical)", Some(1027)),

@@ -41,8 +41,8 @@ fn gl_cell_area(geod: &Geodesic, lat1: f64, lat2: f64, dlon: f64, n: usize) -> f
     (4.0 * poly(2 * n) - poly(n)) / 3.0
 }
 
-/// WKT2 of a CRS definition (EPSG:n, ESRI:n or a PROJ string). WKT2 because GDAL 3.6 has no
-/// WKT1 for Equal Earth, and WKT1 drops the "(Spherical)" of EPSG methods 9834 and 1027.
+/// WKT2 of a CRS definition (EPSG:n, ESRI:n or a PROJ string). WKT2 because WKT1 drops the
+/// "(Spherical)" of EPSG methods 9834 and 1027 (and GDAL 3.6 has no WKT1 for Equal Earth).
 fn wkt_of(def: &str) -> String {
     let srs = SpatialRef::from_definition(def).unwrap();
     let opts: gdal::cpl::CslStringList = ["FORMAT=WKT2_2019"].into_iter().collect();

@@ -9,7 +9,10 @@ use std::time::Instant;
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let args: Vec<String> = std::env::args().collect();
-    let path = args.get(1).ok_or("usage: decode_floor FILE [THREADS]")?.clone();
+    let path = args
+        .get(1)
+        .ok_or("usage: decode_floor FILE [THREADS]")?
+        .clone();
     let threads: usize = args.get(2).map(|s| s.parse()).transpose()?.unwrap_or(2);
     let t0 = Instant::now();
     let (w, h, bh) = {
@@ -31,9 +34,19 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
                     let mut sum = 0f64;
                     for &y0 in strips.iter().skip(t).step_by(threads) {
                         let rows = bh.min(h - y0);
-                        band.read_into_slice::<f32>((0, y0 as isize), (w, rows), (w, rows), &mut buf[..w * rows], None)
-                            .unwrap();
-                        sum += buf[..w * rows].iter().step_by(4099).map(|&v| v as f64).sum::<f64>();
+                        band.read_into_slice::<f32>(
+                            (0, y0 as isize),
+                            (w, rows),
+                            (w, rows),
+                            &mut buf[..w * rows],
+                            None,
+                        )
+                        .unwrap();
+                        sum += buf[..w * rows]
+                            .iter()
+                            .step_by(4099)
+                            .map(|&v| v as f64)
+                            .sum::<f64>();
                     }
                     sum
                 })
@@ -41,6 +54,10 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             .collect();
         handles.into_iter().map(|h| h.join().unwrap()).collect()
     });
-    println!("{{\"seconds\": {:.3}, \"threads\": {threads}, \"checksum\": {}}}", t0.elapsed().as_secs_f64(), sums.iter().sum::<f64>());
+    println!(
+        "{{\"seconds\": {:.3}, \"threads\": {threads}, \"checksum\": {}}}",
+        t0.elapsed().as_secs_f64(),
+        sums.iter().sum::<f64>()
+    );
     Ok(())
 }

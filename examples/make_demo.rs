@@ -3,7 +3,7 @@
 //! The fen lantern-beetle (*Lampyrella palustris*, a made-up species) lives in the
 //! made-up Varn basin. A suitability model (invented here as a sum of smooth bumps and
 //! hashed noise) covers 5 x 4 degrees at 1 arc-minute (300 x 240 cells) in EPSG:4326,
-//! with a nodata lake. Forty-one records sit in high suitability in the west; three
+//! with a nodata lake. Sixty records sit in high suitability in the west; three
 //! deliberately erroneous records sit in low suitability; one lies outside the raster.
 //! The accessible area M is a hand-drawn polygon around the western basin; a second
 //! suitable massif in the east lies beyond it.
@@ -47,7 +47,8 @@ fn suitability(row: usize, col: usize) -> f32 {
         + 0.55 * bump(lon, lat, 12.3, 41.3, 0.45)
         + 0.7 * bump(lon, lat, 14.2, 41.0, 0.55)
         + 0.35 * bump(lon, lat, 14.4, 43.4, 0.3);
-    let noise = 0.12 * (hash01(row as u64 / 3, col as u64 / 3) - 0.5) + 0.05 * (hash01(row as u64, col as u64) - 0.5);
+    let noise = 0.12 * (hash01(row as u64 / 3, col as u64 / 3) - 0.5)
+        + 0.03 * (hash01(row as u64, col as u64) - 0.5);
     (s + noise).clamp(0.0, 1.0) as f32
 }
 
@@ -70,10 +71,11 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     ds.close()?;
 
     // Records: weighted draws from high suitability in the western basin.
-    let mut csv = String::from("occurrenceID,decimalLongitude,decimalLatitude,basisOfRecord,recordedBy\n");
+    let mut csv =
+        String::from("occurrenceID,decimalLongitude,decimalLatitude,basisOfRecord,recordedBy\n");
     let mut n = 0;
     let mut k = 0u64;
-    while n < 41 {
+    while n < 60 {
         k += 1;
         let row = (hash01(k, 1) * H as f64) as usize;
         let col = (hash01(k, 2) * W as f64 * 0.55) as usize;
@@ -82,25 +84,57 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             let lon = WEST + (col as f64 + hash01(k, 4)) * CELL;
             let lat = NORTH - (row as f64 + hash01(k, 5)) * CELL;
             n += 1;
-            writeln!(csv, "VARN-{n:03},{lon:.5},{lat:.5},HumanObservation,survey team A")?;
+            writeln!(
+                csv,
+                "VARN-{n:03},{lon:.5},{lat:.5},HumanObservation,survey team A"
+            )?;
         }
     }
     // Three erroneous records on low suitability (misidentifications), inside M.
-    for (i, (lon, lat)) in [(10.55, 43.62), (11.05, 40.35), (12.35, 43.05)].iter().enumerate() {
-        writeln!(csv, "VARN-E{:02},{lon:.5},{lat:.5},HumanObservation,volunteer upload", i + 1)?;
+    for (i, (lon, lat)) in [(10.55, 43.62), (11.05, 40.35), (12.35, 43.05)]
+        .iter()
+        .enumerate()
+    {
+        writeln!(
+            csv,
+            "VARN-E{:02},{lon:.5},{lat:.5},HumanObservation,volunteer upload",
+            i + 1
+        )?;
     }
     // A duplicate of the first record, and one record outside the raster.
-    let first = csv.lines().nth(1).unwrap().split(',').skip(1).take(2).collect::<Vec<_>>().join(",");
+    let first = csv
+        .lines()
+        .nth(1)
+        .unwrap()
+        .split(',')
+        .skip(1)
+        .take(2)
+        .collect::<Vec<_>>()
+        .join(",");
     writeln!(csv, "VARN-D01,{first},PreservedSpecimen,museum collection")?;
-    writeln!(csv, "VARN-X01,9.62000,42.10000,HumanObservation,volunteer upload")?;
+    writeln!(
+        csv,
+        "VARN-X01,9.62000,42.10000,HumanObservation,volunteer upload"
+    )?;
     std::fs::write(dir.join("records.csv"), csv)?;
 
     // M: the western basin, hand-drawn (counter-clockwise, RFC 7946).
     let ring = [
-        (10.10, 40.15), (11.60, 40.05), (12.90, 40.35), (13.05, 41.40), (12.70, 42.60),
-        (12.95, 43.55), (11.80, 43.90), (10.40, 43.85), (10.05, 42.70), (10.10, 40.15),
+        (10.10, 40.15),
+        (11.60, 40.05),
+        (12.90, 40.35),
+        (13.05, 41.40),
+        (12.70, 42.60),
+        (12.95, 43.55),
+        (11.80, 43.90),
+        (10.40, 43.85),
+        (10.05, 42.70),
+        (10.10, 40.15),
     ];
-    let coords: Vec<String> = ring.iter().map(|(x, y)| format!("[{x:.2}, {y:.2}]")).collect();
+    let coords: Vec<String> = ring
+        .iter()
+        .map(|(x, y)| format!("[{x:.2}, {y:.2}]"))
+        .collect();
     let gj = format!(
         "{{\"type\": \"FeatureCollection\", \"name\": \"varn_basin_m\", \"features\": [{{\"type\": \"Feature\", \
          \"properties\": {{\"name\": \"Varn basin accessible area\"}}, \"geometry\": {{\"type\": \"Polygon\", \

@@ -25,7 +25,7 @@ pub use grid::GridSpec;
 pub use output::{OutputDir, OUTPUT_NAMES};
 pub use pipeline::{compute_range, run_range, MemorySink, RangeOptions, RangeResult, RowSink};
 pub use report::{
-    AccessReport, AreaReport, CellReport, ExcludedRecord, InputsReport, PatchReport, PatchRow, RecordRow,
-    RecordsReport, Summary, ThresholdReport, CAUTIONS,
+    AccessReport, AreaReport, CellReport, ExcludedRecord, InputsReport, PatchReport, PatchRow,
+    RecordRow, RecordsReport, Summary, ThresholdReport, CAUTIONS,
 };
 pub use threshold::{omission_threshold, Threshold, ThresholdSpec};

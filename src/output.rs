@@ -12,7 +12,13 @@ use std::fs;
 use std::path::{Path, PathBuf};
 
 /// File names areal writes into an output folder.
-pub const OUTPUT_NAMES: &[&str] = &["classes.tif", "patches.csv", "records.csv", "summary.json"];
+pub const OUTPUT_NAMES: &[&str] = &[
+    "classes.tif",
+    "classes.tif.aux.xml",
+    "patches.csv",
+    "records.csv",
+    "summary.json",
+];
 
 /// A temporary output folder that becomes `dest` on [`OutputDir::commit`].
 pub struct OutputDir {
@@ -24,10 +30,15 @@ pub struct OutputDir {
 impl OutputDir {
     /// Check the destination and create the temporary folder beside it.
     pub fn prepare(dest: &Path, overwrite: bool, inputs: &[&Path]) -> Result<Self> {
-        let out_err = |reason: String| Error::Output { path: dest.to_path_buf(), reason };
+        let out_err = |reason: String| Error::Output {
+            path: dest.to_path_buf(),
+            reason,
+        };
         let name = dest
             .file_name()
-            .ok_or_else(|| out_err("is not a folder name; give --out a folder such as out/".into()))?
+            .ok_or_else(|| {
+                out_err("is not a folder name; give --out a folder such as out/".into())
+            })?
             .to_string_lossy()
             .into_owned();
         let parent = match dest.parent() {
@@ -35,11 +46,18 @@ impl OutputDir {
             _ => PathBuf::from("."),
         };
         if !parent.is_dir() {
-            return Err(out_err(format!("parent folder {} does not exist; create it first", parent.display())));
+            fs::create_dir_all(&parent).map_err(|e| {
+                out_err(format!(
+                    "cannot create the parent folder {}: {e}",
+                    parent.display()
+                ))
+            })?;
         }
         if dest.exists() {
             if !dest.is_dir() {
-                return Err(out_err("exists and is not a folder; choose another --out".into()));
+                return Err(out_err(
+                    "exists and is not a folder; choose another --out".into(),
+                ));
             }
             let dest_abs = fs::canonicalize(dest).map_err(Error::io(dest))?;
             for input in inputs {
@@ -63,8 +81,10 @@ impl OutputDir {
                         "exists and is not empty; pass --overwrite to replace it, or choose another --out".into(),
                     ));
                 }
-                let foreign: Vec<&String> =
-                    entries.iter().filter(|n| !OUTPUT_NAMES.contains(&n.as_str()) && !n.starts_with('.')).collect();
+                let foreign: Vec<&String> = entries
+                    .iter()
+                    .filter(|n| !OUTPUT_NAMES.contains(&n.as_str()) && !n.starts_with('.'))
+                    .collect();
                 if !foreign.is_empty() {
                     return Err(out_err(format!(
                         "holds files areal did not write ({}); --overwrite replaces only areal output folders",
@@ -84,9 +104,16 @@ impl OutputDir {
         }
         let tmp = parent.join(format!("{prefix}{}", std::process::id()));
         fs::create_dir(&tmp).map_err(|e| {
-            out_err(format!("cannot create a temporary folder in {}: {e}; is it writable?", parent.display()))
+            out_err(format!(
+                "cannot create a temporary folder in {}: {e}; is it writable?",
+                parent.display()
+            ))
         })?;
-        Ok(OutputDir { dest: dest.to_path_buf(), tmp, committed: false })
+        Ok(OutputDir {
+            dest: dest.to_path_buf(),
+            tmp,
+            committed: false,
+        })
     }
 
     /// Path of an output file inside the temporary folder.
@@ -103,7 +130,11 @@ impl OutputDir {
     pub fn commit(mut self) -> Result<()> {
         let old = if self.dest.exists() {
             let old = self.tmp.with_file_name(
-                self.tmp.file_name().unwrap().to_string_lossy().replace("areal-tmp", "areal-old"),
+                self.tmp
+                    .file_name()
+                    .unwrap()
+                    .to_string_lossy()
+                    .replace("areal-tmp", "areal-old"),
             );
             fs::rename(&self.dest, &old).map_err(Error::io(&self.dest))?;
             Some(old)
@@ -142,9 +173,15 @@ mod tests {
         let dest = t.path().join("out");
         fs::create_dir(&dest).unwrap();
         fs::write(dest.join("summary.json"), "old").unwrap();
-        let e = OutputDir::prepare(&dest, false, &[]).err().unwrap().to_string();
+        let e = OutputDir::prepare(&dest, false, &[])
+            .err()
+            .unwrap()
+            .to_string();
         assert!(e.contains("--overwrite"), "{e}");
-        assert_eq!(fs::read_to_string(dest.join("summary.json")).unwrap(), "old");
+        assert_eq!(
+            fs::read_to_string(dest.join("summary.json")).unwrap(),
+            "old"
+        );
     }
 
     #[test]
@@ -157,9 +194,16 @@ mod tests {
         let o = OutputDir::prepare(&dest, true, &[]).unwrap();
         fs::write(o.file("summary.json"), "new").unwrap();
         o.commit().unwrap();
-        assert_eq!(fs::read_to_string(dest.join("summary.json")).unwrap(), "new");
+        assert_eq!(
+            fs::read_to_string(dest.join("summary.json")).unwrap(),
+            "new"
+        );
         assert!(!dest.join("patches.csv").exists());
-        assert_eq!(fs::read_dir(t.path()).unwrap().count(), 1, "no temporary folders left");
+        assert_eq!(
+            fs::read_dir(t.path()).unwrap().count(),
+            1,
+            "no temporary folders left"
+        );
     }
 
     #[test]
@@ -179,9 +223,15 @@ mod tests {
         let dest = t.path().join("out");
         fs::create_dir(&dest).unwrap();
         fs::write(dest.join("suitability.tif"), "x").unwrap();
-        let e = OutputDir::prepare(&dest, true, &[&dest.join("suitability.tif")]).err().unwrap().to_string();
+        let e = OutputDir::prepare(&dest, true, &[&dest.join("suitability.tif")])
+            .err()
+            .unwrap()
+            .to_string();
         assert!(e.contains("holds the input"), "{e}");
-        let e = OutputDir::prepare(&dest, true, &[]).err().unwrap().to_string();
+        let e = OutputDir::prepare(&dest, true, &[])
+            .err()
+            .unwrap()
+            .to_string();
         assert!(e.contains("did not write"), "{e}");
     }
 }

@@ -59,7 +59,10 @@ pub struct MemorySink {
 impl MemorySink {
     /// A sink for a grid `width` columns wide.
     pub fn new(width: usize) -> Self {
-        MemorySink { width, classes: Vec::new() }
+        MemorySink {
+            width,
+            classes: Vec::new(),
+        }
     }
 }
 
@@ -138,7 +141,12 @@ pub fn compute_range(
     let mut placed: Vec<PlacedRecord> = set
         .records
         .iter()
-        .map(|r| PlacedRecord { rec: r.clone(), cell: grid.cell_of(r.x, r.y), value: None, class: None })
+        .map(|r| PlacedRecord {
+            rec: r.clone(),
+            cell: grid.cell_of(r.x, r.y),
+            value: None,
+            class: None,
+        })
         .collect();
     let cells: Vec<(usize, usize)> = placed.iter().filter_map(|p| p.cell).collect();
     let values = raster.sample(&cells)?;
@@ -147,7 +155,10 @@ pub fn compute_range(
         p.value = vi.next().flatten();
     }
     let outside = placed.iter().filter(|p| p.cell.is_none()).count();
-    let on_nodata = placed.iter().filter(|p| p.cell.is_some() && p.value.is_none()).count();
+    let on_nodata = placed
+        .iter()
+        .filter(|p| p.cell.is_some() && p.value.is_none())
+        .count();
     let usable: Vec<&PlacedRecord> = placed.iter().filter(|p| p.value.is_some()).collect();
     if usable.is_empty() {
         return Err(Error::NoUsableRecords {
@@ -184,14 +195,31 @@ pub fn compute_range(
     warnings.extend(access.warnings().iter().cloned());
     let mut areas = CellAreas::new(&grid)?;
 
-    let mut totals =
-        classify_pass(&raster, &mut access, &mut areas, threshold.value, &opts.connectivity, &rows_records, &mut placed, sink)?;
+    let mut totals = classify_pass(
+        &raster,
+        &mut access,
+        &mut areas,
+        threshold.value,
+        &opts.connectivity,
+        &rows_records,
+        &mut placed,
+        sink,
+    )?;
     let binary = totals.all_binary;
     if binary {
         if !(threshold.value > 0.0 && threshold.value <= 1.0) {
             // The rule's T does not separate 0 from 1: classify again with 1 = suitable.
             // Sinks are positional, so the second pass replaces the first one's rows.
-            totals = classify_pass(&raster, &mut access, &mut areas, 1.0, &opts.connectivity, &rows_records, &mut placed, sink)?;
+            totals = classify_pass(
+                &raster,
+                &mut access,
+                &mut areas,
+                1.0,
+                &opts.connectivity,
+                &rows_records,
+                &mut placed,
+                sink,
+            )?;
         }
         let ignored = match opts.threshold {
             ThresholdSpec::Omission(e) => format!("--omission {e}"),
@@ -229,7 +257,10 @@ pub fn compute_range(
 }
 
 fn usable_count_below(placed: &[PlacedRecord], t: f64) -> usize {
-    placed.iter().filter(|p| p.value.is_some_and(|v| v < t)).count()
+    placed
+        .iter()
+        .filter(|p| p.value.is_some_and(|v| v < t))
+        .count()
 }
 
 /// One streaming pass: classify, measure, label, write.
@@ -247,7 +278,10 @@ fn classify_pass(
     let grid = raster.grid();
     let (w, h) = (grid.width, grid.height);
     let mut labeler = PatchLabeler::new(w, *connectivity, grid.wraps_antimeridian());
-    let mut totals = PassTotals { all_binary: true, ..Default::default() };
+    let mut totals = PassTotals {
+        all_binary: true,
+        ..Default::default()
+    };
     let mut values = Vec::new();
     let mut in_m = vec![false; w];
     let mut rec_counts: Vec<(usize, u64)> = Vec::new();
@@ -258,7 +292,7 @@ fn classify_pass(
         for r in 0..rows {
             let row = y0 + r;
             access.fill_row(row, &mut in_m)?;
-            let row_areas = areas.row(row)?;
+            let row_areas = areas.row_allow_outside(row)?;
             let vals = &values[r * w..(r + 1) * w];
             let cls = &mut classes[r * w..(r + 1) * w];
             let mut row_sums = [0f64; 3];
@@ -284,6 +318,15 @@ fn classify_pass(
                 cls[c] = k;
                 totals.cells[k as usize] += 1;
                 let a = row_areas.get(c);
+                if !a.is_finite() {
+                    return Err(Error::UnsupportedRaster {
+                        path: raster.path().to_path_buf(),
+                        reason: format!(
+                            "the data cell at row {row}, column {c} lies outside the valid area of the raster's projection, \
+                             so its true area cannot be measured; set it to nodata or reproject the raster"
+                        ),
+                    });
+                }
                 row_sums[k as usize] += a;
                 if in_m[c] {
                     row_m += a;
@@ -330,8 +373,16 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
     let grid = b.raster.grid();
     let km2 = |s: &Sum| s.get() / 1e6;
     let to_lonlat = LonLat::new(grid)?;
-    let patches: Vec<PatchRow> = b.totals.patches.iter().map(|p| to_lonlat.patch_row(grid, p)).collect::<Result<_>>()?;
-    let occupied: Vec<&PatchRow> = patches.iter().filter(|p| p.class == class::INSIDE && p.records > 0).collect();
+    let patches: Vec<PatchRow> = b
+        .totals
+        .patches
+        .iter()
+        .map(|p| to_lonlat.patch_row(grid, p))
+        .collect::<Result<_>>()?;
+    let occupied: Vec<&PatchRow> = patches
+        .iter()
+        .filter(|p| p.class == class::INSIDE && p.records > 0)
+        .collect();
     let mut excluded = Vec::new();
     let mut records = Vec::with_capacity(b.placed.len());
     for p in &b.placed {
@@ -345,7 +396,12 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
             excluded.push(ExcludedRecord {
                 origin: p.rec.origin.clone(),
                 id: p.rec.id.clone(),
-                reason: if status == "outside_raster" { "outside the raster" } else { "on a nodata cell" }.into(),
+                reason: if status == "outside_raster" {
+                    "outside the raster"
+                } else {
+                    "on a nodata cell"
+                }
+                .into(),
             });
         }
         records.push(RecordRow {
@@ -362,16 +418,23 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
     }
     let mut warnings = b.warnings;
     if b.outside > 0 {
-        warnings.push(format!("{} record(s) lie outside the raster and were excluded (see records.excluded)", b.outside));
+        warnings.push(format!(
+            "{} record(s) lie outside the raster and were excluded (see records.excluded)",
+            b.outside
+        ));
     }
     if b.on_nodata > 0 {
-        warnings.push(format!("{} record(s) lie on nodata cells and were excluded (see records.excluded)", b.on_nodata));
+        warnings.push(format!(
+            "{} record(s) lie on nodata cells and were excluded (see records.excluded)",
+            b.on_nodata
+        ));
     }
     if b.access.is_whole_raster() {
         warnings.push("no accessible area given (--accessible, --buffer-km, --hull-buffer-km): the whole raster counts as M".into());
     }
     let t = &b.totals;
-    let srs = SpatialRef::from_wkt(&grid.crs_wkt).map_err(Error::gdal(b.suitability, "reading the CRS"))?;
+    let srs = SpatialRef::from_wkt(&grid.crs_wkt)
+        .map_err(Error::gdal(b.suitability, "reading the CRS"))?;
     let summary = Summary {
         areal_version: env!("CARGO_PKG_VERSION").into(),
         inputs: InputsReport {
@@ -408,7 +471,10 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
             occupied_cells: b.occupied_cells,
             excluded,
         },
-        accessible: AccessReport { description: b.access.description(), whole_raster: b.access.is_whole_raster() },
+        accessible: AccessReport {
+            description: b.access.description(),
+            whole_raster: b.access.is_whole_raster(),
+        },
         area_km2: AreaReport {
             suitable: (t.area_m2[1].get() + t.area_m2[2].get()) / 1e6,
             inside_accessible: km2(&t.area_m2[1]),
@@ -436,7 +502,11 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
         warnings,
         cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
     };
-    Ok(RangeResult { summary, patches, records })
+    Ok(RangeResult {
+        summary,
+        patches,
+        records,
+    })
 }
 
 /// Pixel positions to WGS84 lon/lat.
@@ -449,12 +519,17 @@ impl LonLat {
         if grid.geographic {
             return Ok(LonLat { to_wgs84: None });
         }
-        let crs_err = |e: gdal::errors::GdalError| Error::Crs { what: "raster CRS".into(), reason: e.to_string() };
+        let crs_err = |e: gdal::errors::GdalError| Error::Crs {
+            what: "raster CRS".into(),
+            reason: e.to_string(),
+        };
         let mut src = SpatialRef::from_wkt(&grid.crs_wkt).map_err(crs_err)?;
         src.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
         let mut dst = SpatialRef::from_epsg(4326).map_err(crs_err)?;
         dst.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-        Ok(LonLat { to_wgs84: Some(CoordTransform::new(&src, &dst).map_err(crs_err)?) })
+        Ok(LonLat {
+            to_wgs84: Some(CoordTransform::new(&src, &dst).map_err(crs_err)?),
+        })
     }
 
     fn point(&self, x: f64, y: f64) -> Result<(f64, f64)> {
@@ -463,7 +538,10 @@ impl LonLat {
             Some(ct) => {
                 let (mut xs, mut ys) = ([x], [y]);
                 ct.transform_coords(&mut xs, &mut ys, &mut [])
-                    .map_err(|e| Error::Crs { what: "raster CRS".into(), reason: format!("to WGS84: {e}") })?;
+                    .map_err(|e| Error::Crs {
+                        what: "raster CRS".into(),
+                        reason: format!("to WGS84: {e}"),
+                    })?;
                 Ok((xs[0], ys[0]))
             }
         }
@@ -490,7 +568,10 @@ impl LonLat {
             Some(ct) => {
                 let b = ct
                     .transform_bounds(&[x0, y_bot, x1, y_top], 21)
-                    .map_err(|e| Error::Crs { what: "raster CRS".into(), reason: format!("patch box to WGS84: {e}") })?;
+                    .map_err(|e| Error::Crs {
+                        what: "raster CRS".into(),
+                        reason: format!("patch box to WGS84: {e}"),
+                    })?;
                 (b[0], b[1], b[2], b[3])
             }
         };

@@ -26,14 +26,23 @@ pub struct SuitabilityRaster {
 pub const STRIP_ROWS: usize = 256;
 
 /// Open a dataset read-only, with GDAL's own message on failure.
-pub(crate) fn open_readonly(path: &Path, flags: GdalOpenFlags, what: &'static str) -> Result<Dataset> {
+pub(crate) fn open_readonly(
+    path: &Path,
+    flags: GdalOpenFlags,
+    what: &'static str,
+) -> Result<Dataset> {
     if !path.exists() {
-        return Err(Error::MissingInput { path: path.to_path_buf(), what });
+        return Err(Error::MissingInput {
+            path: path.to_path_buf(),
+            what,
+        });
     }
     Dataset::open_ex(
         path,
         DatasetOptions {
-            open_flags: flags | GdalOpenFlags::GDAL_OF_READONLY | GdalOpenFlags::GDAL_OF_VERBOSE_ERROR,
+            open_flags: flags
+                | GdalOpenFlags::GDAL_OF_READONLY
+                | GdalOpenFlags::GDAL_OF_VERBOSE_ERROR,
             ..Default::default()
         },
     )
@@ -44,14 +53,19 @@ impl SuitabilityRaster {
     /// Open and check a single-band raster with a CRS and a north-up geotransform.
     pub fn open(path: &Path) -> Result<Self> {
         let ds = open_readonly(path, GdalOpenFlags::GDAL_OF_RASTER, "suitability raster")?;
-        let unsupported = |reason: String| Error::UnsupportedRaster { path: path.to_path_buf(), reason };
+        let unsupported = |reason: String| Error::UnsupportedRaster {
+            path: path.to_path_buf(),
+            reason,
+        };
         if ds.raster_count() != 1 {
             return Err(unsupported(format!(
                 "has {} bands; give a single-band suitability raster (e.g. gdal_translate -b 1)",
                 ds.raster_count()
             )));
         }
-        let srs = ds.spatial_ref().map_err(|_| Error::MissingCrs { path: path.to_path_buf() })?;
+        let srs = ds.spatial_ref().map_err(|_| Error::MissingCrs {
+            path: path.to_path_buf(),
+        })?;
         let gt = ds.geo_transform().map_err(|_| {
             unsupported("has no georeferencing (geotransform); georeference it first".into())
         })?;
@@ -69,15 +83,29 @@ impl SuitabilityRaster {
         }
         let crs_wkt = srs.to_wkt().map_err(Error::gdal(path, "reading the CRS"))?;
         let geographic = srs.is_geographic();
-        let band = ds.rasterband(1).map_err(Error::gdal(path, "reading band 1"))?;
+        let band = ds
+            .rasterband(1)
+            .map_err(Error::gdal(path, "reading band 1"))?;
         let (w, h) = band.size();
         if w == 0 || h == 0 {
             return Err(unsupported("is empty (0 rows or columns)".into()));
         }
         let nodata = band.no_data_value();
         let data_type = format!("{:?}", band.band_type());
-        let grid = GridSpec { width: w, height: h, geo_transform: gt, crs_wkt, geographic };
-        Ok(SuitabilityRaster { path: path.to_path_buf(), ds, grid, nodata, data_type })
+        let grid = GridSpec {
+            width: w,
+            height: h,
+            geo_transform: gt,
+            crs_wkt,
+            geographic,
+        };
+        Ok(SuitabilityRaster {
+            path: path.to_path_buf(),
+            ds,
+            grid,
+            nodata,
+            data_type,
+        })
     }
 
     /// The grid.
@@ -108,7 +136,10 @@ impl SuitabilityRaster {
     /// The value of each cell (row, col), `None` where it is nodata or non-finite.
     /// Cells are read in row order so GDAL's block cache serves neighbours.
     pub fn sample(&self, cells: &[(usize, usize)]) -> Result<Vec<Option<f64>>> {
-        let band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "reading band 1"))?;
+        let band = self
+            .ds
+            .rasterband(1)
+            .map_err(Error::gdal(&self.path, "reading band 1"))?;
         let mut order: Vec<usize> = (0..cells.len()).collect();
         order.sort_by_key(|&i| cells[i]);
         let mut out = vec![None; cells.len()];
@@ -116,7 +147,10 @@ impl SuitabilityRaster {
         for i in order {
             let (r, c) = cells[i];
             band.read_into_slice::<f64>((c as isize, r as isize), (1, 1), (1, 1), &mut buf, None)
-                .map_err(Error::gdal(&self.path, format!("reading cell row {r}, col {c}")))?;
+                .map_err(Error::gdal(
+                    &self.path,
+                    format!("reading cell row {r}, col {c}"),
+                ))?;
             out[i] = Some(buf[0]).filter(|&v| self.is_data(v));
         }
         Ok(out)
@@ -126,9 +160,15 @@ impl SuitabilityRaster {
     pub fn read_rows(&self, y0: usize, rows: usize, buf: &mut Vec<f64>) -> Result<()> {
         let w = self.grid.width;
         buf.resize(w * rows, 0.0);
-        let band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "reading band 1"))?;
+        let band = self
+            .ds
+            .rasterband(1)
+            .map_err(Error::gdal(&self.path, "reading band 1"))?;
         band.read_into_slice::<f64>((0, y0 as isize), (w, rows), (w, rows), &mut buf[..], None)
-            .map_err(Error::gdal(&self.path, format!("reading rows {y0}..{}", y0 + rows)))
+            .map_err(Error::gdal(
+                &self.path,
+                format!("reading rows {y0}..{}", y0 + rows),
+            ))
     }
 }
 
@@ -143,7 +183,11 @@ pub mod class {
     /// No data in the suitability raster.
     pub const NODATA: u8 = 255;
     /// Category names, index = class value.
-    pub const NAMES: [&str; 3] = ["below threshold", "suitable, accessible (in M)", "suitable, beyond M"];
+    pub const NAMES: [&str; 3] = [
+        "below threshold",
+        "suitable, accessible (in M)",
+        "suitable, beyond M",
+    ];
 }
 
 /// Writes `classes.tif` strip by strip.
@@ -165,17 +209,22 @@ impl ClassWriter {
             "PREDICTOR=1",
             "BIGTIFF=IF_SAFER",
         ]);
-        let driver = DriverManager::get_driver_by_name("GTiff").map_err(err("finding the GTiff driver"))?;
+        let driver =
+            DriverManager::get_driver_by_name("GTiff").map_err(err("finding the GTiff driver"))?;
         let mut ds = driver
             .create_with_band_type_with_options::<u8, _>(path, grid.width, grid.height, 1, &opts)
             .map_err(err("creating the class raster"))?;
-        ds.set_geo_transform(&grid.geo_transform).map_err(err("setting the geotransform"))?;
-        let srs = gdal::spatial_ref::SpatialRef::from_wkt(&grid.crs_wkt).map_err(err("parsing the CRS"))?;
+        ds.set_geo_transform(&grid.geo_transform)
+            .map_err(err("setting the geotransform"))?;
+        let srs = gdal::spatial_ref::SpatialRef::from_wkt(&grid.crs_wkt)
+            .map_err(err("parsing the CRS"))?;
         ds.set_spatial_ref(&srs).map_err(err("setting the CRS"))?;
         {
             let mut band = ds.rasterband(1).map_err(err("opening band 1"))?;
-            band.set_no_data_value(Some(class::NODATA as f64)).map_err(err("setting nodata"))?;
-            band.set_description("range class").map_err(err("setting the band description"))?;
+            band.set_no_data_value(Some(class::NODATA as f64))
+                .map_err(err("setting nodata"))?;
+            band.set_description("range class")
+                .map_err(err("setting the band description"))?;
             let mut ct = ColorTable::new(PaletteInterpretation::Rgba);
             // Our own palette: pale sand for below threshold, deep teal for the accessible
             // range, warm amber for suitable land beyond M, transparent nodata.
@@ -189,27 +238,44 @@ impl ClassWriter {
                 names.add_string(n).map_err(err("setting category names"))?;
             }
             // SAFETY: the band handle is live for this call; the list outlives it.
-            let rv = unsafe { gdal_sys::GDALSetRasterCategoryNames(band.c_rasterband(), names.as_ptr()) };
+            let rv = unsafe {
+                gdal_sys::GDALSetRasterCategoryNames(band.c_rasterband(), names.as_ptr())
+            };
             if rv != gdal_sys::CPLErr::CE_None {
-                return Err(Error::Output { path: path.to_path_buf(), reason: "could not set category names".into() });
+                return Err(Error::Output {
+                    path: path.to_path_buf(),
+                    reason: "could not set category names".into(),
+                });
             }
         }
-        Ok(ClassWriter { path: path.to_path_buf(), ds, width: grid.width })
+        Ok(ClassWriter {
+            path: path.to_path_buf(),
+            ds,
+            width: grid.width,
+        })
     }
 
     /// Write rows starting at `y0`; `rows` holds whole rows.
     pub fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<()> {
         let n = rows.len() / self.width;
-        let mut band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "opening band 1"))?;
+        let mut band = self
+            .ds
+            .rasterband(1)
+            .map_err(Error::gdal(&self.path, "opening band 1"))?;
         let mut buf = gdal::raster::Buffer::new((self.width, n), rows);
         band.write((0, y0 as isize), (self.width, n), &mut buf)
-            .map_err(Error::gdal(&self.path, format!("writing rows {y0}..{}", y0 + n)))
+            .map_err(Error::gdal(
+                &self.path,
+                format!("writing rows {y0}..{}", y0 + n),
+            ))
     }
 
     /// Flush and close.
     pub fn close(self) -> Result<()> {
         let path = self.path.clone();
-        self.ds.close().map_err(Error::gdal(path, "closing the class raster"))?;
+        self.ds
+            .close()
+            .map_err(Error::gdal(path, "closing the class raster"))?;
         Ok(())
     }
 }

@@ -222,7 +222,10 @@ pub struct RecordRow {
 
 /// Write rows as CSV with a header.
 pub(crate) fn write_csv<T: Serialize>(path: &Path, rows: &[T]) -> Result<()> {
-    let fail = |e: csv::Error| Error::Output { path: path.to_path_buf(), reason: format!("writing CSV: {e}") };
+    let fail = |e: csv::Error| Error::Output {
+        path: path.to_path_buf(),
+        reason: format!("writing CSV: {e}"),
+    };
     let mut w = csv::Writer::from_path(path).map_err(fail)?;
     for r in rows {
         w.serialize(r).map_err(fail)?;
@@ -242,13 +245,20 @@ impl Summary {
             s.push_str(&l);
             s.push('\n');
         };
-        line(format!("areal {}: range from {}", self.areal_version, self.inputs.suitability));
+        line(format!(
+            "areal {}: range from {}",
+            self.areal_version, self.inputs.suitability
+        ));
         line(format!(
             "  grid            {} x {} cells, {}{}",
             self.inputs.width,
             self.inputs.height,
             self.inputs.crs_name,
-            if self.inputs.wraps_antimeridian { " (global, wraps at 180)" } else { "" }
+            if self.inputs.wraps_antimeridian {
+                " (global, wraps at 180)"
+            } else {
+                ""
+            }
         ));
         line(format!(
             "  records         {} read, {} usable in {} cells, {} outside the raster, {} on nodata",
@@ -265,9 +275,18 @@ impl Summary {
         }
         line(format!("  accessible M    {}", self.accessible.description));
         line(format!("  suitable        {:>14.3} km2", a.suitable));
-        line(format!("    inside M      {:>14.3} km2 in {} patches", a.inside_accessible, p.inside_accessible));
-        line(format!("    beyond M      {:>14.3} km2 in {} patches", a.outside_accessible, p.outside_accessible));
-        line(format!("  occupied        {:>14.3} km2 in {} patches holding records", a.occupied, p.occupied));
+        line(format!(
+            "    inside M      {:>14.3} km2 in {} patch(es)",
+            a.inside_accessible, p.inside_accessible
+        ));
+        line(format!(
+            "    beyond M      {:>14.3} km2 in {} patch(es)",
+            a.outside_accessible, p.outside_accessible
+        ));
+        line(format!(
+            "  occupied        {:>14.3} km2 in {} patch(es) holding records",
+            a.occupied, p.occupied
+        ));
         line(format!("  area method     {}", self.area_method));
         line(format!("  connectivity    {}-neighbour", p.connectivity));
         for w in &self.warnings {

@@ -82,7 +82,9 @@ pub fn omission_threshold(values: &[f64], spec: ThresholdSpec) -> Result<Thresho
     if let Some(bad) = values.iter().find(|v| !v.is_finite()) {
         return Err(Error::InvalidOption {
             option: "--omission",
-            reason: format!("a record value is {bad}; nodata and non-finite cells must be excluded first"),
+            reason: format!(
+                "a record value is {bad}; nodata and non-finite cells must be excluded first"
+            ),
         });
     }
     match spec {
@@ -150,19 +152,28 @@ mod tests {
     #[test]
     fn worked_example_e0_is_least_training_presence() {
         let r = t(0.0);
-        assert_eq!((r.value, r.records_dropped, r.records_omitted), (0.05, 0, 0));
+        assert_eq!(
+            (r.value, r.records_dropped, r.records_omitted),
+            (0.05, 0, 0)
+        );
     }
 
     #[test]
     fn worked_example_e5_drops_one() {
         let r = t(5.0);
-        assert_eq!((r.value, r.records_dropped, r.records_omitted), (0.12, 1, 1));
+        assert_eq!(
+            (r.value, r.records_dropped, r.records_omitted),
+            (0.12, 1, 1)
+        );
     }
 
     #[test]
     fn worked_example_e10_drops_two() {
         let r = t(10.0);
-        assert_eq!((r.value, r.records_dropped, r.records_omitted), (0.15, 2, 2));
+        assert_eq!(
+            (r.value, r.records_dropped, r.records_omitted),
+            (0.15, 2, 2)
+        );
     }
 
     #[test]
@@ -185,7 +196,10 @@ mod tests {
         let mut v = vec![0.10, 0.10, 0.10];
         v.extend((0..17).map(|i| 0.2 + i as f64 * 0.01));
         let r = omission_threshold(&v, ThresholdSpec::Omission(10.0)).unwrap();
-        assert_eq!((r.value, r.records_dropped, r.records_omitted), (0.10, 2, 0));
+        assert_eq!(
+            (r.value, r.records_dropped, r.records_omitted),
+            (0.10, 2, 0)
+        );
     }
 
     #[test]

@@ -6,8 +6,13 @@ use std::path::Path;
 
 fn demo_args<'a>(out: &'a str) -> Vec<String> {
     vec![
-        "range".into(), "--suitability".into(), demo("suitability.tif").display().to_string(),
-        "--records".into(), demo("records.csv").display().to_string(), "--out".into(), out.into(),
+        "range".into(),
+        "--suitability".into(),
+        demo("suitability.tif").display().to_string(),
+        "--records".into(),
+        demo("records.csv").display().to_string(),
+        "--out".into(),
+        out.into(),
     ]
 }
 
@@ -17,18 +22,35 @@ fn fails_with(args: &[String], code: i32, needle: &str, out: &Path) {
     assert_eq!(o.status.code(), Some(code), "stderr: {err}");
     assert!(err.contains(needle), "expected {needle:?} in: {err}");
     assert!(!err.contains("panicked"), "{err}");
-    assert!(!out.exists() || std::fs::read_dir(out).unwrap().next().is_none(), "no output left behind");
+    assert!(
+        !out.exists() || std::fs::read_dir(out).unwrap().next().is_none(),
+        "no output left behind"
+    );
     let parent = out.parent().unwrap();
-    let leftovers: Vec<_> = std::fs::read_dir(parent).unwrap().flatten()
-        .filter(|e| e.file_name().to_string_lossy().contains("areal-tmp")).collect();
-    assert!(leftovers.is_empty(), "temporary folders left: {leftovers:?}");
+    let leftovers: Vec<_> = std::fs::read_dir(parent)
+        .unwrap()
+        .flatten()
+        .filter(|e| e.file_name().to_string_lossy().contains("areal-tmp"))
+        .collect();
+    assert!(
+        leftovers.is_empty(),
+        "temporary folders left: {leftovers:?}"
+    );
 }
 
 #[test]
 fn raster_without_crs_names_the_file() {
     let t = tempfile::tempdir().unwrap();
     let tif = t.path().join("nocrs.tif");
-    write_raster(&tif, 4, 4, [0.0, 1.0, 0.0, 4.0, 0.0, -1.0], None, None, &[0.5; 16]);
+    write_raster(
+        &tif,
+        4,
+        4,
+        [0.0, 1.0, 0.0, 4.0, 0.0, -1.0],
+        None,
+        None,
+        &[0.5; 16],
+    );
     let out = t.path().join("out");
     let mut a = demo_args(out.to_str().unwrap());
     a[2] = tif.display().to_string();
@@ -52,7 +74,12 @@ fn both_rules_or_none_is_a_usage_error() {
     let t = tempfile::tempdir().unwrap();
     let out = t.path().join("out");
     let mut a = demo_args(out.to_str().unwrap());
-    a.extend(["--omission".into(), "5".into(), "--threshold".into(), "0.3".into()]);
+    a.extend([
+        "--omission".into(),
+        "5".into(),
+        "--threshold".into(),
+        "0.3".into(),
+    ]);
     fails_with(&a, 2, "--threshold", &out);
     let a = demo_args(out.to_str().unwrap());
     fails_with(&a, 2, "--omission", &out);
@@ -103,7 +130,10 @@ fn existing_output_needs_overwrite_and_is_kept() {
     let o = areal().args(&a).output().unwrap();
     assert_eq!(o.status.code(), Some(4));
     assert!(stderr(&o).contains("--overwrite"), "{}", stderr(&o));
-    assert_eq!(std::fs::read_to_string(out.join("summary.json")).unwrap(), "{\"old\": true}");
+    assert_eq!(
+        std::fs::read_to_string(out.join("summary.json")).unwrap(),
+        "{\"old\": true}"
+    );
     a.push("--overwrite".into());
     let o = areal().args(&a).output().unwrap();
     assert!(o.status.success(), "{}", stderr(&o));

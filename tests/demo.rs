@@ -29,16 +29,29 @@ fn inside_plus_outside_is_the_suitable_total() {
     let t = tempfile::tempdir().unwrap();
     let s = run_demo(t.path());
     let a = &s["area_km2"];
-    let (inside, outside, suitable) =
-        (a["inside_accessible"].as_f64().unwrap(), a["outside_accessible"].as_f64().unwrap(), a["suitable"].as_f64().unwrap());
-    assert!(inside > 0.0 && outside > 0.0, "the demo has suitable land on both sides of M");
+    let (inside, outside, suitable) = (
+        a["inside_accessible"].as_f64().unwrap(),
+        a["outside_accessible"].as_f64().unwrap(),
+        a["suitable"].as_f64().unwrap(),
+    );
+    assert!(
+        inside > 0.0 && outside > 0.0,
+        "the demo has suitable land on both sides of M"
+    );
     assert!((inside + outside - suitable).abs() <= 1e-9 * suitable);
     // Patch areas per class add up to the class areas (patches.csv vs summary.json).
     let (h, rows) = read_csv(&t.path().join("out/patches.csv"));
     let (ic, ia) = (col(&h, "class"), col(&h, "area_km2"));
     for (class, total) in [("1", inside), ("2", outside)] {
-        let sum: f64 = rows.iter().filter(|r| r[ic] == class).map(|r| r[ia].parse::<f64>().unwrap()).sum();
-        assert!((sum - total).abs() <= 1e-9 * total, "class {class}: {sum} vs {total}");
+        let sum: f64 = rows
+            .iter()
+            .filter(|r| r[ic] == class)
+            .map(|r| r[ia].parse::<f64>().unwrap())
+            .sum();
+        assert!(
+            (sum - total).abs() <= 1e-9 * total,
+            "class {class}: {sum} vs {total}"
+        );
     }
     assert_eq!(
         rows.iter().filter(|r| r[ic] == "1").count() as u64,
@@ -52,7 +65,12 @@ fn every_record_cell_has_the_class_the_report_says() {
     let s = run_demo(t.path());
     let (w, _h, classes) = read_u8(&t.path().join("out/classes.tif"));
     let (hdr, rows) = read_csv(&t.path().join("out/records.csv"));
-    let (ir, ic, icl, ist) = (col(&hdr, "row"), col(&hdr, "col"), col(&hdr, "class"), col(&hdr, "status"));
+    let (ir, ic, icl, ist) = (
+        col(&hdr, "row"),
+        col(&hdr, "col"),
+        col(&hdr, "class"),
+        col(&hdr, "status"),
+    );
     let mut checked = 0;
     for r in &rows {
         if r[ir].is_empty() {
@@ -64,7 +82,10 @@ fn every_record_cell_has_the_class_the_report_says() {
         checked += 1;
     }
     assert!(checked >= 40);
-    assert_eq!(s["records"]["outside_raster"], 1, "the demo has one record outside the raster");
+    assert_eq!(
+        s["records"]["outside_raster"], 1,
+        "the demo has one record outside the raster"
+    );
     assert_eq!(s["records"]["total"].as_u64().unwrap() as usize, rows.len());
 }
 
@@ -88,7 +109,10 @@ fn threshold_matches_values_sampled_independently() {
         if c < 0.0 || rr < 0.0 || c >= w as f64 || rr >= h as f64 {
             continue;
         }
-        let v = band.read_as::<f64>((c as isize, rr as isize), (1, 1), (1, 1), None).unwrap().data()[0];
+        let v = band
+            .read_as::<f64>((c as isize, rr as isize), (1, 1), (1, 1), None)
+            .unwrap()
+            .data()[0];
         if v != -9999.0 {
             cells.insert((rr as i64, c as i64), v);
         }
@@ -96,8 +120,14 @@ fn threshold_matches_values_sampled_independently() {
     let mut v: Vec<f64> = cells.values().copied().collect();
     v.sort_by(f64::total_cmp);
     let k = v.len() * 5 / 100;
-    assert_eq!(s["threshold"]["records_used"].as_u64().unwrap() as usize, v.len());
-    assert_eq!(s["threshold"]["records_dropped"].as_u64().unwrap() as usize, k);
+    assert_eq!(
+        s["threshold"]["records_used"].as_u64().unwrap() as usize,
+        v.len()
+    );
+    assert_eq!(
+        s["threshold"]["records_dropped"].as_u64().unwrap() as usize,
+        k
+    );
     assert_eq!(s["threshold"]["value"].as_f64().unwrap(), v[k]);
     assert!(k >= 2, "the demo's erroneous records are dropped");
 }
@@ -119,7 +149,9 @@ fn classes_tif_is_gis_ready() {
     // Category names (GDALGetRasterCategoryNames).
     let names = unsafe { gdal_sys::GDALGetRasterCategoryNames(band.c_rasterband()) };
     assert!(!names.is_null());
-    let first = unsafe { std::ffi::CStr::from_ptr(*names.add(1)) }.to_string_lossy().into_owned();
+    let first = unsafe { std::ffi::CStr::from_ptr(*names.add(1)) }
+        .to_string_lossy()
+        .into_owned();
     assert!(first.contains("accessible"), "{first}");
 }
 use gdal::Metadata;

@@ -17,22 +17,50 @@ const GRID: [[u8; 6]; 6] = [
 ];
 
 fn six_by_six(dir: &std::path::Path, connectivity: &str) -> (serde_json::Value, Vec<f64>) {
-    let values: Vec<f32> = GRID.iter().flatten().map(|&v| if v == 1 { 0.9 } else { 0.1 }).collect();
+    let values: Vec<f32> = GRID
+        .iter()
+        .flatten()
+        .map(|&v| if v == 1 { 0.9 } else { 0.1 })
+        .collect();
     let tif = dir.join("s.tif");
     let cell = 1.0 / 120.0;
-    write_raster(&tif, 6, 6, [10.0, cell, 0.0, 60.05, 0.0, -cell], Some(4326), None, &values);
+    write_raster(
+        &tif,
+        6,
+        6,
+        [10.0, cell, 0.0, 60.05, 0.0, -cell],
+        Some(4326),
+        None,
+        &values,
+    );
     // One record in the north-west patch (cell row 0, col 0).
     let rec = dir.join("r.csv");
-    std::fs::write(&rec, format!("lon,lat\n{},{}\n", 10.0 + cell / 2.0, 60.05 - cell / 2.0)).unwrap();
+    std::fs::write(
+        &rec,
+        format!("lon,lat\n{},{}\n", 10.0 + cell / 2.0, 60.05 - cell / 2.0),
+    )
+    .unwrap();
     let out = dir.join(format!("out{connectivity}"));
     let o = run(&[
-        "range", "--suitability", tif.to_str().unwrap(), "--records", rec.to_str().unwrap(),
-        "--threshold", "0.5", "--connectivity", connectivity, "--out", out.to_str().unwrap(),
+        "range",
+        "--suitability",
+        tif.to_str().unwrap(),
+        "--records",
+        rec.to_str().unwrap(),
+        "--threshold",
+        "0.5",
+        "--connectivity",
+        connectivity,
+        "--out",
+        out.to_str().unwrap(),
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
     let (h, rows) = read_csv(&out.join("patches.csv"));
     let ia = col(&h, "area_km2");
-    (json(&out.join("summary.json")), rows.iter().map(|r| r[ia].parse().unwrap()).collect())
+    (
+        json(&out.join("summary.json")),
+        rows.iter().map(|r| r[ia].parse().unwrap()).collect(),
+    )
 }
 
 fn close(a: f64, b: f64) -> bool {
@@ -49,7 +77,10 @@ fn eight_connected_patches_of_the_checks_grid() {
     for (a, w) in areas.iter().zip(want) {
         assert!((a - w).abs() < 1e-9, "{a} vs {w}");
     }
-    assert!(close(s["area_km2"]["suitable"].as_f64().unwrap(), 5.608126298), "total 5.608126298 km2");
+    assert!(
+        close(s["area_km2"]["suitable"].as_f64().unwrap(), 5.608126298),
+        "total 5.608126298 km2"
+    );
     assert_eq!(s["patches"]["occupied"], 1);
     assert!((s["area_km2"]["occupied"].as_f64().unwrap() - 1.293493080).abs() < 1e-9);
 }
@@ -59,7 +90,17 @@ fn four_connected_patches_of_the_checks_grid() {
     let t = tempfile::tempdir().unwrap();
     let (s, areas) = six_by_six(t.path(), "4");
     // CHECKS.md section 7: 4-conn areas in scan order.
-    let want = [1.293493080, 0.431128335, 0.431236410, 0.431344475, 0.431452530, 1.294465635, 0.431668611, 0.431668611, 0.431668611];
+    let want = [
+        1.293493080,
+        0.431128335,
+        0.431236410,
+        0.431344475,
+        0.431452530,
+        1.294465635,
+        0.431668611,
+        0.431668611,
+        0.431668611,
+    ];
     assert_eq!(areas.len(), want.len());
     for (a, w) in areas.iter().zip(want) {
         assert!((a - w).abs() < 1e-9, "{a} vs {w}");
@@ -79,13 +120,28 @@ fn patch_joins_across_the_antimeridian() {
         v[r * w + w - 1] = 0.9;
     }
     let tif = t.path().join("g.tif");
-    write_raster(&tif, w, h, [-180.0, 1.0, 0.0, 90.0, 0.0, -1.0], Some(4326), None, &v);
+    write_raster(
+        &tif,
+        w,
+        h,
+        [-180.0, 1.0, 0.0, 90.0, 0.0, -1.0],
+        Some(4326),
+        None,
+        &v,
+    );
     let rec = t.path().join("r.csv");
     std::fs::write(&rec, "lon,lat\n179.5,49.5\n").unwrap();
     let out = t.path().join("out");
     let o = run(&[
-        "range", "--suitability", tif.to_str().unwrap(), "--records", rec.to_str().unwrap(),
-        "--omission", "0", "--out", out.to_str().unwrap(),
+        "range",
+        "--suitability",
+        tif.to_str().unwrap(),
+        "--records",
+        rec.to_str().unwrap(),
+        "--omission",
+        "0",
+        "--out",
+        out.to_str().unwrap(),
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
     let (hd, rows) = read_csv(&out.join("patches.csv"));
@@ -102,9 +158,21 @@ fn patch_joins_across_the_antimeridian() {
     };
     let a2 = 6378137.0f64.powi(2) / 2.0 * 1f64.to_radians();
     let want = 2.0 * a2 * (q(50.0) - q(48.0)) / 1e6;
-    assert!((g("area_km2") - want).abs() <= 1e-9 * want, "{} vs {want}", g("area_km2"));
-    assert_eq!((g("min_lon"), g("max_lon")), (179.0, -179.0), "box crosses 180");
+    assert!(
+        (g("area_km2") - want).abs() <= 1e-9 * want,
+        "{} vs {want}",
+        g("area_km2")
+    );
+    assert_eq!(
+        (g("min_lon"), g("max_lon")),
+        (179.0, -179.0),
+        "box crosses 180"
+    );
     assert_eq!((g("min_lat"), g("max_lat")), (48.0, 50.0));
-    assert!(g("centroid_lon").abs() > 179.9, "circular mean at 180, got {}", g("centroid_lon"));
+    assert!(
+        g("centroid_lon").abs() > 179.9,
+        "circular mean at 180, got {}",
+        g("centroid_lon")
+    );
     assert_eq!(g("records"), 1.0);
 }

@@ -89,7 +89,11 @@ impl RangeArgs {
                 buffer_km: self.buffer_km,
                 hull_buffer_km: self.hull_buffer_km,
             },
-            connectivity: if self.connectivity == "4" { Connectivity::Four } else { Connectivity::Eight },
+            connectivity: if self.connectivity == "4" {
+                Connectivity::Four
+            } else {
+                Connectivity::Eight
+            },
             keep_duplicates: self.keep_duplicates,
             records: RecordOptions {
                 lon_col: self.lon_col.clone(),

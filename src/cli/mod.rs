@@ -26,7 +26,10 @@ fn run(cli: Cli) -> areal::Result<()> {
             let opts = a.to_options()?;
             let result = areal::run_range(&a.suitability, &a.records, &opts, &a.out, a.overwrite)?;
             if a.json {
-                println!("{}", serde_json::to_string_pretty(&result.summary).expect("summary serialises"));
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&result.summary).expect("summary serialises")
+                );
             } else {
                 print!("{}", result.summary.to_text());
                 println!("  outputs         {}", a.out.display());

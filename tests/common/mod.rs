@@ -9,7 +9,15 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
 /// Write a float32 GeoTIFF. `crs`: an EPSG code, or None for no CRS.
-pub fn write_raster(path: &Path, w: usize, h: usize, gt: [f64; 6], epsg: Option<u32>, nodata: Option<f64>, values: &[f32]) {
+pub fn write_raster(
+    path: &Path,
+    w: usize,
+    h: usize,
+    gt: [f64; 6],
+    epsg: Option<u32>,
+    nodata: Option<f64>,
+    values: &[f32],
+) {
     assert_eq!(values.len(), w * h);
     let opts = RasterCreationOptions::from_iter(["COMPRESS=DEFLATE"]);
     let mut ds = DriverManager::get_driver_by_name("GTiff")
@@ -18,13 +26,15 @@ pub fn write_raster(path: &Path, w: usize, h: usize, gt: [f64; 6], epsg: Option<
         .unwrap();
     ds.set_geo_transform(&gt).unwrap();
     if let Some(code) = epsg {
-        ds.set_spatial_ref(&SpatialRef::from_epsg(code).unwrap()).unwrap();
+        ds.set_spatial_ref(&SpatialRef::from_epsg(code).unwrap())
+            .unwrap();
     }
     let mut band = ds.rasterband(1).unwrap();
     if let Some(nd) = nodata {
         band.set_no_data_value(Some(nd)).unwrap();
     }
-    band.write((0, 0), (w, h), &mut Buffer::new((w, h), values.to_vec())).unwrap();
+    band.write((0, 0), (w, h), &mut Buffer::new((w, h), values.to_vec()))
+        .unwrap();
     drop(band);
     ds.close().unwrap();
 }
@@ -41,7 +51,9 @@ pub fn run(args: &[&str]) -> Output {
 
 /// The repository's demo-data folder.
 pub fn demo(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data").join(name)
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("demo-data")
+        .join(name)
 }
 
 /// Read a whole uint8 band.
@@ -57,13 +69,19 @@ pub fn read_u8(path: &Path) -> (usize, usize, Vec<u8>) {
 pub fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
     let mut r = csv::Reader::from_path(path).unwrap();
     let header = r.headers().unwrap().iter().map(String::from).collect();
-    let rows = r.records().map(|rec| rec.unwrap().iter().map(String::from).collect()).collect();
+    let rows = r
+        .records()
+        .map(|rec| rec.unwrap().iter().map(String::from).collect())
+        .collect();
     (header, rows)
 }
 
 /// Column index by name.
 pub fn col(header: &[String], name: &str) -> usize {
-    header.iter().position(|h| h == name).unwrap_or_else(|| panic!("column {name} missing in {header:?}"))
+    header
+        .iter()
+        .position(|h| h == name)
+        .unwrap_or_else(|| panic!("column {name} missing in {header:?}"))
 }
 
 pub fn stderr(o: &Output) -> String {

@@ -18,9 +18,10 @@ mod pipeline;
 pub mod raster_io;
 pub mod records;
 mod report;
+mod review;
 mod threshold;
 
-pub use error::{Error, Result};
+pub use error::{Error, Result, Stage};
 pub use grid::GridSpec;
 pub use output::{OutputDir, OUTPUT_NAMES};
 pub use pipeline::{compute_range, run_range, MemorySink, RangeOptions, RangeResult, RowSink};

@@ -205,6 +205,7 @@ pub fn compute_range(
         &mut placed,
         sink,
     )?;
+    warnings.extend(raster.warnings());
     let binary = totals.all_binary;
     if binary {
         if !(threshold.value > 0.0 && threshold.value <= 1.0) {
@@ -502,6 +503,8 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
         warnings,
         cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
     };
+    let mut summary = summary;
+    crate::review::review(&mut summary);
     Ok(RangeResult {
         summary,
         patches,

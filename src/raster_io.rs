@@ -3,7 +3,9 @@
 //! The suitability raster is opened read-only, checked (one band, north-up, a CRS) and
 //! read in row strips; it is never held whole. Values come back as `f64` (exact for every
 //! GDAL data type up to 32-bit integers and for float32/float64). Nodata (the band's
-//! nodata value) and non-finite values (NaN, +-inf) are both treated as "no data".
+//! nodata value) and non-finite values (NaN, +-inf) are both treated as "no data"; the
+//! non-finite cells met while reading are counted for a warning, and a nodata value that
+//! cannot occur in an integer band (a fraction, or out of the type's range) is warned of.
 //!
 //! `classes.tif` is written as a tiled, DEFLATE-compressed uint8 GeoTIFF on the input
 //! grid with a colour table and category names.
@@ -12,6 +14,8 @@ use crate::{Error, GridSpec, Result};
 use gdal::raster::{ColorEntry, ColorTable, PaletteInterpretation, RasterCreationOptions};
 use gdal::{Dataset, DatasetOptions, DriverManager, GdalOpenFlags, Metadata};
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::Mutex;
 
 /// An opened suitability raster.
 pub struct SuitabilityRaster {
@@ -20,6 +24,42 @@ pub struct SuitabilityRaster {
     grid: GridSpec,
     nodata: Option<f64>,
     data_type: String,
+    /// Whether the band type can hold NaN/inf (float types).
+    float: bool,
+    /// Non-finite cells met in the rows read so far (each row counted once).
+    non_finite: AtomicU64,
+    /// Rows already scanned for non-finite cells.
+    scanned: Mutex<Vec<bool>>,
+    /// Warnings about the raster found when opening it.
+    open_warnings: Vec<String>,
+}
+
+/// The range of values of an integer GDAL band type, `None` for float types.
+fn integer_range(t: gdal::raster::GdalDataType) -> Option<(f64, f64)> {
+    use gdal::raster::GdalDataType as T;
+    Some(match t {
+        T::UInt8 => (0.0, u8::MAX as f64),
+        T::UInt16 => (0.0, u16::MAX as f64),
+        T::Int16 => (i16::MIN as f64, i16::MAX as f64),
+        T::UInt32 => (0.0, u32::MAX as f64),
+        T::Int32 => (i32::MIN as f64, i32::MAX as f64),
+        T::UInt64 => (0.0, u64::MAX as f64),
+        T::Int64 => (i64::MIN as f64, i64::MAX as f64),
+        _ => return None,
+    })
+}
+
+/// GDAL's name of a band type ("Byte", "Int16", "Float32", ...).
+fn type_name(t: gdal::raster::GdalDataType) -> String {
+    // SAFETY: GDALGetDataTypeName returns a static string or null.
+    let p = unsafe { gdal_sys::GDALGetDataTypeName(t as gdal_sys::GDALDataType::Type) };
+    if p.is_null() {
+        format!("{t:?}")
+    } else {
+        unsafe { std::ffi::CStr::from_ptr(p) }
+            .to_string_lossy()
+            .into_owned()
+    }
 }
 
 /// Rows read per strip: a multiple of the output tile height.
@@ -91,7 +131,20 @@ impl SuitabilityRaster {
             return Err(unsupported("is empty (0 rows or columns)".into()));
         }
         let nodata = band.no_data_value();
-        let data_type = format!("{:?}", band.band_type());
+        let band_type = band.band_type();
+        let data_type = format!("{band_type:?}");
+        let range = integer_range(band_type);
+        let mut open_warnings = Vec::new();
+        if let (Some(nd), Some((lo, hi))) = (nodata, range) {
+            if nd.is_nan() || nd.fract() != 0.0 || nd < lo || nd > hi {
+                open_warnings.push(format!(
+                    "{}: nodata value {nd} cannot occur in a {} band (values {lo}..{hi}), so no \
+                     cell is treated as nodata; set the right one with gdal_edit.py -a_nodata",
+                    path.display(),
+                    type_name(band_type)
+                ));
+            }
+        }
         let grid = GridSpec {
             width: w,
             height: h,
@@ -105,7 +158,44 @@ impl SuitabilityRaster {
             grid,
             nodata,
             data_type,
+            float: range.is_none(),
+            non_finite: AtomicU64::new(0),
+            scanned: Mutex::new(vec![false; h]),
+            open_warnings,
         })
+    }
+
+    /// Warnings about the raster: an impossible nodata value, and the non-finite cells
+    /// met in the rows read so far (call after the pass).
+    pub fn warnings(&self) -> Vec<String> {
+        let mut w = self.open_warnings.clone();
+        let n = self.non_finite.load(Ordering::Relaxed);
+        if n > 0 {
+            w.push(format!(
+                "{}: {n} cell(s) are NaN or infinite; they were treated as nodata",
+                self.path.display()
+            ));
+        }
+        w
+    }
+
+    /// Count the non-finite values of rows `y0..` in `buf` not counted before.
+    fn count_non_finite(&self, y0: usize, rows: usize, buf: &[f64]) {
+        if !self.float {
+            return;
+        }
+        let w = self.grid.width;
+        let mut scanned = self.scanned.lock().unwrap_or_else(|e| e.into_inner());
+        let mut n = 0u64;
+        for r in 0..rows {
+            if !std::mem::replace(&mut scanned[y0 + r], true) {
+                n += buf[r * w..(r + 1) * w]
+                    .iter()
+                    .filter(|v| !v.is_finite())
+                    .count() as u64;
+            }
+        }
+        self.non_finite.fetch_add(n, Ordering::Relaxed);
     }
 
     /// The grid.
@@ -168,7 +258,9 @@ impl SuitabilityRaster {
             .map_err(Error::gdal(
                 &self.path,
                 format!("reading rows {y0}..{}", y0 + rows),
-            ))
+            ))?;
+        self.count_non_finite(y0, rows, buf);
+        Ok(())
     }
 }
 
@@ -200,7 +292,7 @@ pub struct ClassWriter {
 impl ClassWriter {
     /// Create the GeoTIFF (tiled 256 x 256, DEFLATE, BIGTIFF if needed) on `grid`.
     pub fn create(path: &Path, grid: &GridSpec) -> Result<Self> {
-        let err = |op: &str| Error::gdal(path, op.to_string());
+        let err = |op: &str| output_error(path, op.to_string());
         let opts = RasterCreationOptions::from_iter([
             "TILED=YES",
             "BLOCKXSIZE=256",
@@ -261,10 +353,10 @@ impl ClassWriter {
         let mut band = self
             .ds
             .rasterband(1)
-            .map_err(Error::gdal(&self.path, "opening band 1"))?;
+            .map_err(output_error(&self.path, "opening band 1".into()))?;
         let mut buf = gdal::raster::Buffer::new((self.width, n), rows);
         band.write((0, y0 as isize), (self.width, n), &mut buf)
-            .map_err(Error::gdal(
+            .map_err(output_error(
                 &self.path,
                 format!("writing rows {y0}..{}", y0 + n),
             ))
@@ -275,7 +367,19 @@ impl ClassWriter {
         let path = self.path.clone();
         self.ds
             .close()
-            .map_err(Error::gdal(path, "closing the class raster"))?;
+            .map_err(output_error(&path, "closing the class raster".into()))?;
         Ok(())
+    }
+}
+
+/// A GDAL failure on an output file: an output error (exit 4), with GDAL's text.
+fn output_error(path: &Path, op: String) -> impl FnOnce(gdal::errors::GdalError) -> Error {
+    let path = path.to_path_buf();
+    move |e| Error::Output {
+        path,
+        reason: format!(
+            "{op} failed ({}); is the disk full or the folder not writable?",
+            crate::error::gdal_text(&e)
+        ),
     }
 }

@@ -128,6 +128,16 @@ pub(crate) fn read_polygons(path: &Path, grid: &GridSpec) -> Result<PolygonSourc
         }
         let mut g: Geometry = g.clone();
         g.flatten_to_2d();
+        if src.is_geographic() {
+            if let Some((a, b)) = g.to_geo().ok().as_ref().and_then(seam_jump) {
+                return Err(bad(format!(
+                    "feature {fid}: an edge goes from longitude {a} to {b}, more than 180 degrees; \
+                     a polygon crossing the antimeridian must be written with longitudes beyond \
+                     180 (e.g. 170 to 190) or split at 180 (RFC 7946); if the edge really spans \
+                     more than 180 degrees, add vertices along it"
+                )));
+            }
+        }
         if !g.is_valid() {
             g = g.make_valid(&CslStringList::new()).map_err(|e| {
                 bad(format!(
@@ -172,6 +182,29 @@ pub(crate) fn read_polygons(path: &Path, grid: &GridSpec) -> Result<PolygonSourc
         )));
     }
     Ok(PolygonSource { polygons, warnings })
+}
+
+/// The first edge whose longitudes differ by more than 180 and less than 360 degrees:
+/// almost always a ring drawn across the antimeridian as 170 -> -170, which read literally
+/// covers the other side of the globe. Edges of exactly 360 degrees (-180 to 180, as in
+/// polar caps and global bands) are meant and pass.
+fn seam_jump(g: &geo_types::Geometry<f64>) -> Option<(f64, f64)> {
+    let ring_jump = |ring: &geo_types::LineString<f64>| {
+        ring.lines().find_map(|l| {
+            let d = (l.end.x - l.start.x).abs();
+            (d > 180.0 && d < 360.0 - 1e-9).then_some((l.start.x, l.end.x))
+        })
+    };
+    let poly_jump = |p: &Polygon<f64>| {
+        std::iter::once(p.exterior())
+            .chain(p.interiors())
+            .find_map(ring_jump)
+    };
+    match g {
+        geo_types::Geometry::Polygon(p) => poly_jump(p),
+        geo_types::Geometry::MultiPolygon(mp) => mp.0.iter().find_map(poly_jump),
+        _ => None,
+    }
 }
 
 /// Keep the polygons of a geometry (make_valid may return a collection with lines).

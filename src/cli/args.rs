@@ -73,6 +73,9 @@ pub(crate) struct RangeArgs {
     /// Print summary.json on stdout instead of the readable summary.
     #[arg(long)]
     pub json: bool,
+    /// Do not repeat the warnings on stderr (they stay in summary.json).
+    #[arg(long)]
+    pub quiet: bool,
 }
 
 impl RangeArgs {

@@ -199,7 +199,7 @@ fn is_delimited(path: &Path) -> Result<bool> {
     let mut head = Vec::with_capacity(4096);
     std::fs::File::open(path)
         .and_then(|f| f.take(4096).read_to_end(&mut head))
-        .map_err(Error::io(path))?;
+        .map_err(Error::input_io(path))?;
     Ok(delimited::looks_delimited(&head))
 }
 

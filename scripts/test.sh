@@ -5,3 +5,5 @@ cd "$(dirname "$0")/.."
 bash scripts/setup.sh
 cargo test --release --all-targets
 cargo test --release --doc
+# Atomic outputs: SIGKILL part way through runs on a large generated raster.
+bash tests/kill_test.sh

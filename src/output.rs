@@ -119,11 +119,15 @@ impl OutputDir {
                 }
             }
         }
-        // Remove leftovers of killed runs of this destination.
+        // Remove leftovers of killed runs of this destination (not those of a run of the
+        // same destination that is still going: it would fail half-way).
         if let Ok(rd) = fs::read_dir(&parent) {
             for e in rd.flatten() {
                 let n = e.file_name().to_string_lossy().into_owned();
-                if n.starts_with(&prefix) || n.starts_with(&old_prefix) {
+                let pid = n
+                    .strip_prefix(&prefix)
+                    .or_else(|| n.strip_prefix(&old_prefix));
+                if pid.is_some_and(|pid| !process_alive(pid)) {
                     let _ = fs::remove_dir_all(e.path());
                 }
             }
@@ -214,6 +218,17 @@ fn exchange(a: &Path, b: &Path) -> std::io::Result<()> {
 #[cfg(not(target_os = "linux"))]
 fn exchange(_a: &Path, _b: &Path) -> std::io::Result<()> {
     Err(std::io::Error::from(std::io::ErrorKind::Unsupported))
+}
+
+/// Whether the process with this id (a temporary folder's suffix) is still running.
+/// Only Linux can tell (`/proc`); elsewhere every leftover counts as dead.
+fn process_alive(pid: &str) -> bool {
+    let Ok(pid) = pid.parse::<u32>() else {
+        return false;
+    };
+    cfg!(target_os = "linux")
+        && pid != std::process::id()
+        && Path::new("/proc").join(pid.to_string()).exists()
 }
 
 /// Put back a previous output folder left aside by a run killed between two renames.
@@ -315,6 +330,21 @@ mod tests {
         exchange(&a, &b).unwrap();
         assert_eq!(fs::read_to_string(a.join("f")).unwrap(), "b");
         assert_eq!(fs::read_to_string(b.join("f")).unwrap(), "a");
+    }
+
+    #[test]
+    fn leftovers_of_dead_runs_go_but_a_running_one_is_kept() {
+        let t = tempfile::tempdir().unwrap();
+        let dest = t.path().join("out");
+        // PID 1 is always alive on Linux; 4194304 is above the kernel's pid_max limit.
+        let dead = t.path().join(".out.areal-tmp-4194304");
+        let live = t.path().join(".out.areal-tmp-1");
+        fs::create_dir(&dead).unwrap();
+        fs::create_dir(&live).unwrap();
+        let o = OutputDir::prepare(&dest, false, &[]).unwrap();
+        assert!(!dead.exists());
+        assert_eq!(live.exists(), cfg!(target_os = "linux"));
+        drop(o);
     }
 
     #[test]

@@ -184,15 +184,15 @@ pub(crate) fn read_polygons(path: &Path, grid: &GridSpec) -> Result<PolygonSourc
     Ok(PolygonSource { polygons, warnings })
 }
 
-/// The first edge whose longitudes differ by more than 180 and less than 360 degrees:
-/// almost always a ring drawn across the antimeridian as 170 -> -170, which read literally
-/// covers the other side of the globe. Edges of exactly 360 degrees (-180 to 180, as in
-/// polar caps and global bands) are meant and pass.
+/// The first edge whose longitudes differ by more than 180 degrees: almost always a ring
+/// drawn across the antimeridian as 170 -> -170, which read literally covers the other
+/// side of the globe (or a coordinate that is no longitude at all). Edges of exactly 360
+/// degrees (-180 to 180, as in polar caps and global bands) are meant and pass.
 fn seam_jump(g: &geo_types::Geometry<f64>) -> Option<(f64, f64)> {
     let ring_jump = |ring: &geo_types::LineString<f64>| {
         ring.lines().find_map(|l| {
             let d = (l.end.x - l.start.x).abs();
-            (d > 180.0 && d < 360.0 - 1e-9).then_some((l.start.x, l.end.x))
+            (d > 180.0 && (d - 360.0).abs() > 1e-9).then_some((l.start.x, l.end.x))
         })
     };
     let poly_jump = |p: &Polygon<f64>| {

@@ -293,3 +293,41 @@ fn missing_polygon_file_is_refused_naming_it() {
         &["nope.gpkg: accessible-area polygon file not found"],
     );
 }
+
+#[test]
+fn polygon_part_at_absurd_longitudes_is_dropped_by_make_valid_with_a_warning() {
+    let c = global_case();
+    // A good part and a far part at lon 1e20 (GEOS finds the far ring degenerate); M is
+    // the good part alone.
+    let good = [
+        (160.0, -10.0),
+        (200.0, -10.0),
+        (200.0, 10.0),
+        (160.0, 10.0),
+        (160.0, -10.0),
+    ];
+    let far = [
+        (1e20, -10.0),
+        (1.00001e20, -10.0),
+        (1.00001e20, 10.0),
+        (1e20, 10.0),
+        (1e20, -10.0),
+    ];
+    let text = format!(
+        r#"{{"type":"FeatureCollection","features":[{{"type":"Feature","properties":{{}},"geometry":{{"type":"MultiPolygon","coordinates":[[{}],[{}]]}}}}]}}"#,
+        polygon_json(&good)
+            .split("[[")
+            .nth(1)
+            .map(|s| format!("[{}", s.trim_end_matches("]}")))
+            .unwrap(),
+        polygon_json(&far)
+            .split("[[")
+            .nth(1)
+            .map(|s| format!("[{}", s.trim_end_matches("]}")))
+            .unwrap(),
+    );
+    let o = run_with_m(&c, "m.geojson", &text);
+    let s = c.succeeded(&o);
+    assert_eq!(s["cells"]["inside_accessible"], 8);
+    assert_warned(&s, &o, "repaired with GEOS make_valid");
+}

@@ -1,5 +1,6 @@
 //! Hostile output folders, and inputs left untouched.
 
+use super::common;
 use super::fixture::*;
 use std::fs;
 
@@ -165,4 +166,38 @@ fn warnings_go_to_stderr_unless_quiet() {
     let o = c.run(&["--omission", "0", "--overwrite", "--quiet"]);
     c.succeeded(&o);
     assert!(!o.stderr.contains("areal: warning:"), "{}", o.stderr);
+}
+
+#[test]
+fn closed_stdout_is_not_a_crash_and_the_outputs_are_complete() {
+    use std::process::Stdio;
+    let c = Case::new();
+    let mut child = common::areal()
+        .args([
+            "range",
+            "--suitability",
+            c.suitability.to_str().unwrap(),
+            "--records",
+            c.records.to_str().unwrap(),
+            "--omission",
+            "0",
+            "--out",
+            c.out.to_str().unwrap(),
+        ])
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    drop(child.stdout.take()); // the reader goes away, as with `| head -0`
+    let o = child.wait_with_output().unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(0), "{err}");
+    assert!(
+        !err.contains("panicked") && !err.contains("internal error"),
+        "{err}"
+    );
+    assert_eq!(
+        threshold(&common::json(&c.out.join("summary.json"))),
+        value(5, 5)
+    );
 }

@@ -289,3 +289,55 @@ fn binary_garbage_records_file_is_refused_naming_it() {
     let o = c.run(&["--omission", "0"]);
     c.refused(&o, 3, &["records.dat"]);
 }
+
+#[test]
+fn records_path_that_is_a_folder_is_refused_naming_it() {
+    let mut c = Case::new();
+    c.records = c.path("records_folder");
+    std::fs::create_dir(&c.records).unwrap();
+    let o = c.run(&["--omission", "0"]);
+    c.refused(
+        &o,
+        3,
+        &["records_folder: records file not found or not readable"],
+    );
+}
+
+#[test]
+fn file_whose_every_row_is_skipped_is_refused_quoting_the_first_reason() {
+    let mut c = Case::new();
+    c.records_text("records.csv", "lon,lat\n,\nabc,45\n");
+    let o = c.run(&["--omission", "0"]);
+    c.refused(
+        &o,
+        3,
+        &[
+            "no usable records: all 2 rows/features were skipped",
+            "line 2: longitude is blank",
+        ],
+    );
+}
+
+#[test]
+fn records_layer_in_web_mercator_is_reprojected_onto_the_lonlat_raster() {
+    let mut c = Case::new();
+    // Spherical Mercator of the centre of cell (5, 5), lon -2.25, lat 47.25 (EPSG Guidance
+    // Note 7-2 formula, from memory): x = R·lon, y = R·ln(tan(pi/4 + lat/2)).
+    let r = 6_378_137.0f64;
+    let (lon, lat) = centre(5, 5);
+    let x = r * lon.to_radians();
+    let y = r
+        * (std::f64::consts::FRAC_PI_4 + lat.to_radians() / 2.0)
+            .tan()
+            .ln();
+    c.records_text(
+        "records.geojson",
+        format!(
+            r#"{{"type":"FeatureCollection","crs":{{"type":"name","properties":{{"name":"urn:ogc:def:crs:EPSG::3857"}}}},
+            "features":[{{"type":"Feature","properties":{{}},"geometry":{{"type":"Point","coordinates":[{x},{y}]}}}}]}}"#
+        ),
+    );
+    let s = c.succeeded(&c.run(&["--omission", "0"]));
+    assert_eq!(s["records"]["usable"], 1);
+    assert_eq!(threshold(&s), value(5, 5));
+}

@@ -11,8 +11,9 @@
 
 use crate::access::{AccessMask, AccessSpec};
 use crate::area::CellAreas;
+use crate::area::RowAreas;
 use crate::patches::{Connectivity, Patch, PatchLabeler};
-use crate::raster_io::{class, SuitabilityRaster, STRIP_ROWS};
+use crate::raster_io::{class, StripBuffers, SuitabilityRaster, STRIP_ROWS};
 use crate::records::{read_records, Record, RecordOptions};
 use crate::report::*;
 use crate::threshold::{omission_threshold, Threshold, ThresholdSpec};
@@ -20,6 +21,8 @@ use crate::{Error, GridSpec, Result};
 use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::mpsc;
 
 /// Everything `areal range` needs besides the files.
 #[derive(Debug, Clone)]
@@ -264,6 +267,10 @@ fn usable_count_below(placed: &[PlacedRecord], t: f64) -> usize {
 }
 
 /// One streaming pass: classify, measure, label, write.
+///
+/// Decoding dominates the cost, so `decode_threads` workers (each with its own GDAL
+/// handle) read strips and compare them with T; the calling thread receives the strips
+/// in order and applies M, measures areas, feeds the labeller and writes the classes.
 #[allow(clippy::too_many_arguments)]
 fn classify_pass(
     raster: &SuitabilityRaster,
@@ -277,78 +284,198 @@ fn classify_pass(
 ) -> Result<PassTotals> {
     let grid = raster.grid();
     let (w, h) = (grid.width, grid.height);
-    let mut labeler = PatchLabeler::new(w, *connectivity, grid.wraps_antimeridian());
-    let mut totals = PassTotals {
-        all_binary: true,
-        ..Default::default()
-    };
-    let mut values = Vec::new();
-    let mut in_m = vec![false; w];
-    let mut rec_counts: Vec<(usize, u64)> = Vec::new();
-    for y0 in (0..h).step_by(STRIP_ROWS) {
-        let rows = STRIP_ROWS.min(h - y0);
-        raster.read_rows(y0, rows, &mut values)?;
-        let mut classes = vec![class::NODATA; w * rows];
-        for r in 0..rows {
-            let row = y0 + r;
-            access.fill_row(row, &mut in_m)?;
-            let row_areas = areas.row_allow_outside(row)?;
-            let vals = &values[r * w..(r + 1) * w];
-            let cls = &mut classes[r * w..(r + 1) * w];
-            let mut row_sums = [0f64; 3];
-            let mut row_m = 0f64;
-            for c in 0..w {
-                let v = vals[c];
-                if !raster.is_data(v) {
-                    totals.cells[3] += 1;
-                    continue;
-                }
-                if v != 0.0 && v != 1.0 {
-                    totals.all_binary = false;
-                }
-                let k = if v >= t {
-                    if in_m[c] {
-                        class::INSIDE
-                    } else {
-                        class::OUTSIDE
+    let n_strips = h.div_ceil(STRIP_ROWS);
+    let threads = decode_threads().min(n_strips).max(1);
+    let next = AtomicUsize::new(0);
+    let (tx, rx) = mpsc::sync_channel::<Result<StripClasses>>(2 * threads);
+    std::thread::scope(|scope| {
+        for _ in 0..threads {
+            let tx = tx.clone();
+            let next = &next;
+            let spec = raster.reader_spec();
+            scope.spawn(move || {
+                let reader = match spec.open() {
+                    Ok(r) => r,
+                    Err(e) => {
+                        let _ = tx.send(Err(e));
+                        return;
                     }
-                } else {
-                    class::UNSUITABLE
                 };
-                cls[c] = k;
-                totals.cells[k as usize] += 1;
-                let a = row_areas.get(c);
-                if !a.is_finite() {
-                    return Err(Error::UnsupportedRaster {
-                        path: raster.path().to_path_buf(),
-                        reason: format!(
-                            "the data cell at row {row}, column {c} lies outside the valid area of the raster's projection, \
-                             so its true area cannot be measured; set it to nodata or reproject the raster"
-                        ),
-                    });
+                let mut bufs = StripBuffers::default();
+                loop {
+                    let i = next.fetch_add(1, Ordering::Relaxed);
+                    if i >= n_strips {
+                        return;
+                    }
+                    let y0 = i * STRIP_ROWS;
+                    let rows = STRIP_ROWS.min(h - y0);
+                    let out =
+                        reader
+                            .classify_rows(y0, rows, t, &mut bufs)
+                            .map(|(codes, binary)| StripClasses {
+                                index: i,
+                                codes,
+                                binary,
+                            });
+                    let failed = out.is_err();
+                    if tx.send(out).is_err() || failed {
+                        return; // the consumer stopped, or this worker failed
+                    }
                 }
-                row_sums[k as usize] += a;
-                if in_m[c] {
-                    row_m += a;
+            });
+        }
+        drop(tx);
+        let mut consumer = Consumer {
+            width: w,
+            totals: PassTotals {
+                all_binary: true,
+                ..Default::default()
+            },
+            labeler: PatchLabeler::new(w, *connectivity, grid.wraps_antimeridian()),
+            in_m: vec![false; w],
+            rec_counts: Vec::new(),
+        };
+        let mut pending: BTreeMap<usize, StripClasses> = BTreeMap::new();
+        let mut expect = 0;
+        for msg in rx.iter() {
+            let strip = msg?;
+            pending.insert(strip.index, strip);
+            while let Some(strip) = pending.remove(&expect) {
+                let y0 = expect * STRIP_ROWS;
+                let classes =
+                    consumer.strip(y0, strip, access, areas, rows_records, placed, raster)?;
+                sink.write_rows(y0, classes)?;
+                expect += 1;
+            }
+        }
+        if expect != n_strips {
+            return Err(Error::UnsupportedRaster {
+                path: raster.path().to_path_buf(),
+                reason: format!("only {expect} of {n_strips} strips could be read"),
+            });
+        }
+        let mut totals = consumer.totals;
+        totals.patches = consumer.labeler.finish();
+        Ok(totals)
+    })
+}
+
+/// Worker threads for decoding: the machine's cores (at least 1), or `AREAL_THREADS`.
+fn decode_threads() -> usize {
+    std::env::var("AREAL_THREADS")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .filter(|&n: &usize| n > 0)
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+}
+
+/// A decoded strip: 0 below T, 1 suitable, 255 nodata.
+struct StripClasses {
+    index: usize,
+    codes: Vec<u8>,
+    binary: bool,
+}
+
+struct Consumer {
+    width: usize,
+    totals: PassTotals,
+    labeler: PatchLabeler,
+    in_m: Vec<bool>,
+    rec_counts: Vec<(usize, u64)>,
+}
+
+impl Consumer {
+    /// Apply M, measure, label; returns the finished class rows.
+    #[allow(clippy::too_many_arguments)]
+    fn strip(
+        &mut self,
+        y0: usize,
+        strip: StripClasses,
+        access: &mut AccessMask,
+        areas: &mut CellAreas,
+        rows_records: &BTreeMap<usize, Vec<(usize, usize)>>,
+        placed: &mut [PlacedRecord],
+        raster: &SuitabilityRaster,
+    ) -> Result<Vec<u8>> {
+        let w = self.width;
+        let mut classes = strip.codes;
+        self.totals.all_binary &= strip.binary;
+        let whole = access.is_whole_raster();
+        for (r, cls) in classes.chunks_mut(w).enumerate() {
+            let row = y0 + r;
+            if !whole {
+                access.fill_row(row, &mut self.in_m)?;
+            }
+            let row_areas = areas.row_allow_outside(row)?;
+            let mut counts = [0u64; 4];
+            let mut m_cells = 0u64;
+            for (c, k) in cls.iter_mut().enumerate() {
+                let inside = whole || self.in_m[c];
+                match *k {
+                    class::NODATA => counts[3] += 1,
+                    class::UNSUITABLE => {
+                        counts[0] += 1;
+                        m_cells += inside as u64;
+                    }
+                    _ => {
+                        if !inside {
+                            *k = class::OUTSIDE;
+                        }
+                        counts[*k as usize] += 1;
+                        m_cells += inside as u64;
+                    }
                 }
             }
-            for k in 0..3 {
-                totals.area_m2[k].add(row_sums[k]);
+            for k in 0..4 {
+                self.totals.cells[k] += counts[k];
             }
-            totals.accessible_m2.add(row_m);
-            rec_counts.clear();
+            match &row_areas {
+                RowAreas::Uniform(a) => {
+                    for k in 0..3 {
+                        self.totals.area_m2[k].add(counts[k] as f64 * a);
+                    }
+                    self.totals.accessible_m2.add(m_cells as f64 * a);
+                }
+                RowAreas::PerCell(v) => {
+                    let mut sums = [0f64; 3];
+                    let mut m = 0f64;
+                    for (c, &k) in cls.iter().enumerate() {
+                        if k == class::NODATA {
+                            continue;
+                        }
+                        let a = v[c];
+                        if !a.is_finite() {
+                            return Err(Error::UnsupportedRaster {
+                                path: raster.path().to_path_buf(),
+                                reason: format!(
+                                    "the data cell at row {row}, column {c} lies outside the valid area of the raster's \
+                                     projection, so its true area cannot be measured; set it to nodata or reproject the raster"
+                                ),
+                            });
+                        }
+                        sums[k as usize] += a;
+                        if whole || self.in_m[c] {
+                            m += a;
+                        }
+                    }
+                    for k in 0..3 {
+                        self.totals.area_m2[k].add(sums[k]);
+                    }
+                    self.totals.accessible_m2.add(m);
+                }
+            }
+            self.rec_counts.clear();
             if let Some(list) = rows_records.get(&row) {
                 for &(c, i) in list {
                     placed[i].class = Some(cls[c]);
-                    rec_counts.push((c, 1));
+                    self.rec_counts.push((c, 1));
                 }
             }
-            labeler.push_row(row, cls, &row_areas, &rec_counts);
+            self.labeler
+                .push_row(row, cls, &row_areas, &self.rec_counts);
         }
-        sink.write_rows(y0, classes)?;
+        Ok(classes)
     }
-    totals.patches = labeler.finish();
-    Ok(totals)
 }
 
 struct BuildInput<'a> {

@@ -11,6 +11,7 @@
 use crate::{Error, GridSpec, Result};
 use gdal::raster::{ColorEntry, ColorTable, PaletteInterpretation, RasterCreationOptions};
 use gdal::{Dataset, DatasetOptions, DriverManager, GdalOpenFlags, Metadata};
+use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 /// An opened suitability raster.
@@ -20,6 +21,7 @@ pub struct SuitabilityRaster {
     grid: GridSpec,
     nodata: Option<f64>,
     data_type: String,
+    fits_f32: bool,
 }
 
 /// Rows read per strip: a multiple of the output tile height.
@@ -91,7 +93,11 @@ impl SuitabilityRaster {
             return Err(unsupported("is empty (0 rows or columns)".into()));
         }
         let nodata = band.no_data_value();
-        let data_type = format!("{:?}", band.band_type());
+        let band_type = band.band_type();
+        let data_type = format!("{band_type:?}");
+        use gdal::raster::GdalDataType as T;
+        // float32 holds these types exactly; wider ones are read as float64.
+        let fits_f32 = matches!(band_type, T::UInt8 | T::UInt16 | T::Int16 | T::Float32);
         let grid = GridSpec {
             width: w,
             height: h,
@@ -105,6 +111,7 @@ impl SuitabilityRaster {
             grid,
             nodata,
             data_type,
+            fits_f32,
         })
     }
 
@@ -134,42 +141,161 @@ impl SuitabilityRaster {
     }
 
     /// The value of each cell (row, col), `None` where it is nodata or non-finite.
-    /// Cells are read in row order so GDAL's block cache serves neighbours.
+    /// Cells are grouped by the band's natural blocks, so each block holding a record is
+    /// decoded once, whatever GDAL's cache size.
     pub fn sample(&self, cells: &[(usize, usize)]) -> Result<Vec<Option<f64>>> {
         let band = self
             .ds
             .rasterband(1)
             .map_err(Error::gdal(&self.path, "reading band 1"))?;
-        let mut order: Vec<usize> = (0..cells.len()).collect();
-        order.sort_by_key(|&i| cells[i]);
+        let (bw, bh) = band.block_size();
+        let (w, h) = (self.grid.width, self.grid.height);
+        let mut by_block: BTreeMap<(usize, usize), Vec<usize>> = BTreeMap::new();
+        for (i, &(r, c)) in cells.iter().enumerate() {
+            by_block.entry((r / bh, c / bw)).or_default().push(i);
+        }
         let mut out = vec![None; cells.len()];
-        let mut buf = [0f64; 1];
-        for i in order {
-            let (r, c) = cells[i];
-            band.read_into_slice::<f64>((c as isize, r as isize), (1, 1), (1, 1), &mut buf, None)
-                .map_err(Error::gdal(
-                    &self.path,
-                    format!("reading cell row {r}, col {c}"),
-                ))?;
-            out[i] = Some(buf[0]).filter(|&v| self.is_data(v));
+        let mut buf = Vec::new();
+        for ((by, bx), idx) in by_block {
+            let (x0, y0) = (bx * bw, by * bh);
+            let (cw, ch) = (bw.min(w - x0), bh.min(h - y0));
+            buf.resize(cw * ch, 0f64);
+            band.read_into_slice::<f64>(
+                (x0 as isize, y0 as isize),
+                (cw, ch),
+                (cw, ch),
+                &mut buf,
+                None,
+            )
+            .map_err(Error::gdal(
+                &self.path,
+                format!("reading the block at row {y0}, col {x0}"),
+            ))?;
+            for i in idx {
+                let (r, c) = cells[i];
+                out[i] = Some(buf[(r - y0) * cw + (c - x0)]).filter(|&v| self.is_data(v));
+            }
         }
         Ok(out)
     }
 
-    /// Read rows `y0 .. y0 + rows` into `buf` (resized to `width * rows`), row-major.
-    pub fn read_rows(&self, y0: usize, rows: usize, buf: &mut Vec<f64>) -> Result<()> {
-        let w = self.grid.width;
-        buf.resize(w * rows, 0.0);
+    /// What a worker thread needs to open its own handle.
+    pub fn reader_spec(&self) -> ReaderSpec {
+        ReaderSpec {
+            path: self.path.clone(),
+            width: self.grid.width,
+            nodata: self.nodata,
+            as_f32: self.fits_f32,
+        }
+    }
+}
+
+/// Enough to open a [`StripReader`] in another thread.
+#[derive(Debug, Clone)]
+pub struct ReaderSpec {
+    path: PathBuf,
+    width: usize,
+    nodata: Option<f64>,
+    as_f32: bool,
+}
+
+impl ReaderSpec {
+    /// Open the file again for this thread.
+    pub fn open(&self) -> Result<StripReader> {
+        let ds = open_readonly(
+            &self.path,
+            GdalOpenFlags::GDAL_OF_RASTER,
+            "suitability raster",
+        )?;
+        Ok(StripReader {
+            path: self.path.clone(),
+            ds,
+            width: self.width,
+            nodata: self.nodata,
+            as_f32: self.as_f32,
+        })
+    }
+}
+
+/// Reads and thresholds row strips; one per thread.
+pub struct StripReader {
+    path: PathBuf,
+    ds: Dataset,
+    width: usize,
+    nodata: Option<f64>,
+    as_f32: bool,
+}
+
+/// Buffers a [`StripReader`] reuses between strips.
+#[derive(Debug, Default)]
+pub struct StripBuffers {
+    f32s: Vec<f32>,
+    f64s: Vec<f64>,
+}
+
+impl StripReader {
+    /// Read rows `y0 .. y0 + rows` and code each cell: 0 below `t`, 1 at or above `t`,
+    /// 255 nodata. Also says whether every data cell was exactly 0 or 1.
+    pub fn classify_rows(
+        &self,
+        y0: usize,
+        rows: usize,
+        t: f64,
+        bufs: &mut StripBuffers,
+    ) -> Result<(Vec<u8>, bool)> {
+        let n = self.width * rows;
         let band = self
             .ds
             .rasterband(1)
             .map_err(Error::gdal(&self.path, "reading band 1"))?;
-        band.read_into_slice::<f64>((0, y0 as isize), (w, rows), (w, rows), &mut buf[..], None)
-            .map_err(Error::gdal(
-                &self.path,
-                format!("reading rows {y0}..{}", y0 + rows),
-            ))
+        let what = || format!("reading rows {y0}..{}", y0 + rows);
+        let mut codes = vec![0u8; n];
+        let binary = if self.as_f32 {
+            bufs.f32s.resize(n, 0.0);
+            band.read_into_slice::<f32>(
+                (0, y0 as isize),
+                (self.width, rows),
+                (self.width, rows),
+                &mut bufs.f32s,
+                None,
+            )
+            .map_err(Error::gdal(&self.path, what()))?;
+            code_cells(&bufs.f32s, &mut codes, t, self.nodata)
+        } else {
+            bufs.f64s.resize(n, 0.0);
+            band.read_into_slice::<f64>(
+                (0, y0 as isize),
+                (self.width, rows),
+                (self.width, rows),
+                &mut bufs.f64s,
+                None,
+            )
+            .map_err(Error::gdal(&self.path, what()))?;
+            code_cells(&bufs.f64s, &mut codes, t, self.nodata)
+        };
+        Ok((codes, binary))
     }
+}
+
+/// Code cells against the threshold; returns whether all data cells are 0 or 1.
+fn code_cells<T: Copy + Into<f64>>(
+    values: &[T],
+    codes: &mut [u8],
+    t: f64,
+    nodata: Option<f64>,
+) -> bool {
+    let nd = nodata.unwrap_or(f64::NAN); // NaN never equals: no nodata value
+    let mut binary = true;
+    for (v, k) in values.iter().zip(codes.iter_mut()) {
+        let v: f64 = (*v).into();
+        if !v.is_finite() || v == nd {
+            *k = class::NODATA;
+        } else {
+            binary &= v == 0.0 || v == 1.0;
+            *k = (v >= t) as u8;
+        }
+    }
+    binary
 }
 
 /// Class codes of `classes.tif`.

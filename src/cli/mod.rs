@@ -11,6 +11,10 @@ use std::process::ExitCode;
 
 pub(crate) fn main() -> ExitCode {
     let cli = Cli::parse();
+    // areal reads each block once, in strips; a large block cache only costs memory.
+    if std::env::var_os("GDAL_CACHEMAX").is_none() {
+        let _ = gdal::config::set_config_option("GDAL_CACHEMAX", "32");
+    }
     match run(cli) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {

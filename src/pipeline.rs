@@ -37,6 +37,47 @@ pub struct RangeOptions {
     pub keep_duplicates: bool,
     /// How records are read.
     pub records: RecordOptions,
+    /// Where to report progress (none by default).
+    pub progress: ProgressHandle,
+}
+
+/// Receives progress of the long stages. Implementations must be cheap: `advance` is
+/// called once per strip.
+pub trait Progress: Send + Sync {
+    /// A stage starts with `total` units of work.
+    fn start(&self, stage: &str, total: u64);
+    /// `n` more units are done.
+    fn advance(&self, n: u64);
+    /// The stage is over.
+    fn finish(&self);
+}
+
+/// An optional, shareable [`Progress`].
+#[derive(Clone, Default)]
+pub struct ProgressHandle(pub Option<std::sync::Arc<dyn Progress>>);
+
+impl std::fmt::Debug for ProgressHandle {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(if self.0.is_some() { "ProgressHandle(Some)" } else { "ProgressHandle(None)" })
+    }
+}
+
+impl ProgressHandle {
+    fn start(&self, stage: &str, total: u64) {
+        if let Some(p) = &self.0 {
+            p.start(stage, total);
+        }
+    }
+    fn advance(&self, n: u64) {
+        if let Some(p) = &self.0 {
+            p.advance(n);
+        }
+    }
+    fn finish(&self) {
+        if let Some(p) = &self.0 {
+            p.finish();
+        }
+    }
 }
 
 /// Where class rows go during the pass.
@@ -207,6 +248,7 @@ pub fn compute_range(
         &rows_records,
         &mut placed,
         sink,
+        &opts.progress,
     )?;
     let binary = totals.all_binary;
     if binary {
@@ -222,6 +264,7 @@ pub fn compute_range(
                 &rows_records,
                 &mut placed,
                 sink,
+                &opts.progress,
             )?;
         }
         let ignored = match opts.threshold {
@@ -281,6 +324,7 @@ fn classify_pass(
     rows_records: &BTreeMap<usize, Vec<(usize, usize)>>,
     placed: &mut [PlacedRecord],
     sink: &mut dyn RowSink,
+    progress: &ProgressHandle,
 ) -> Result<PassTotals> {
     let grid = raster.grid();
     let (w, h) = (grid.width, grid.height);
@@ -335,6 +379,7 @@ fn classify_pass(
             in_m: vec![false; w],
             rec_counts: Vec::new(),
         };
+        progress.start("classifying, labelling and writing rows", h as u64);
         let mut pending: BTreeMap<usize, StripClasses> = BTreeMap::new();
         let mut expect = 0;
         for msg in rx.iter() {
@@ -345,6 +390,7 @@ fn classify_pass(
                 let classes =
                     consumer.strip(y0, strip, access, areas, rows_records, placed, raster)?;
                 sink.write_rows(y0, classes)?;
+                progress.advance(strip_rows(y0, h) as u64);
                 expect += 1;
             }
         }
@@ -354,10 +400,15 @@ fn classify_pass(
                 reason: format!("only {expect} of {n_strips} strips could be read"),
             });
         }
+        progress.finish();
         let mut totals = consumer.totals;
         totals.patches = consumer.labeler.finish();
         Ok(totals)
     })
+}
+
+fn strip_rows(y0: usize, h: usize) -> usize {
+    STRIP_ROWS.min(h - y0)
 }
 
 /// Worker threads for decoding: the machine's cores (at least 1), or `AREAL_THREADS`.

@@ -29,10 +29,22 @@ fn reference(path: &Path, t: f64, eight: bool) -> Reference {
     let band = ds.rasterband(1).unwrap();
     let (w, h) = band.size();
     let nd = band.no_data_value();
-    let v = band.read_as::<f64>((0, 0), (w, h), (w, h), None).unwrap().data().to_vec();
+    let v = band
+        .read_as::<f64>((0, 0), (w, h), (w, h), None)
+        .unwrap()
+        .data()
+        .to_vec();
     let classes: Vec<u8> = v
         .iter()
-        .map(|&x| if !x.is_finite() || Some(x) == nd { 255 } else if x >= t { 1 } else { 0 })
+        .map(|&x| {
+            if !x.is_finite() || Some(x) == nd {
+                255
+            } else if x >= t {
+                1
+            } else {
+                0
+            }
+        })
         .collect();
     let wrap = ((w as f64 * gt[1]) - 360.0).abs() < 1e-6;
     // Closed-form row areas (Snyder 1987 eq. 3-12), computed here independently.
@@ -92,9 +104,14 @@ fn streaming(path: &Path, records: &Path, t: f64, eight: bool) -> (Vec<u8>, area
     let opts = RangeOptions {
         threshold: ThresholdSpec::fixed(t).unwrap(),
         access: AccessSpec::default(),
-        connectivity: if eight { Connectivity::Eight } else { Connectivity::Four },
+        connectivity: if eight {
+            Connectivity::Eight
+        } else {
+            Connectivity::Four
+        },
         keep_duplicates: false,
         records: RecordOptions::default(),
+        progress: Default::default(),
     };
     let w = Dataset::open(path).unwrap().raster_size().0;
     let mut sink = MemorySink::new(w);
@@ -117,16 +134,40 @@ fn assert_equal(path: &Path, records: &Path, t: f64, eight: bool) -> usize {
         // Counts are exact; areas agree to the reference's own rounding: its plain
         // q(top) - q(bottom) loses digits next to the poles (7e-10 relative on the
         // 2.5' cell touching 90 N), where areal uses an exact difference form.
-        assert!((p.area_km2 * 1e6 - area).abs() <= 1e-8 * area, "patch {} area {} vs {}", p.patch_id, p.area_km2 * 1e6, area);
+        assert!(
+            (p.area_km2 * 1e6 - area).abs() <= 1e-8 * area,
+            "patch {} area {} vs {}",
+            p.patch_id,
+            p.area_km2 * 1e6,
+            area
+        );
     }
     got.patches.len()
 }
 
 /// A raster from a drawing: `cell(r, c) -> suitable?`, on a lon/lat grid.
-fn draw(dir: &Path, name: &str, w: usize, h: usize, west: f64, cell: f64, f: impl Fn(usize, usize) -> bool) -> std::path::PathBuf {
-    let v: Vec<f32> = (0..w * h).map(|i| if f(i / w, i % w) { 0.9 } else { 0.1 }).collect();
+fn draw(
+    dir: &Path,
+    name: &str,
+    w: usize,
+    h: usize,
+    west: f64,
+    cell: f64,
+    f: impl Fn(usize, usize) -> bool,
+) -> std::path::PathBuf {
+    let v: Vec<f32> = (0..w * h)
+        .map(|i| if f(i / w, i % w) { 0.9 } else { 0.1 })
+        .collect();
     let p = dir.join(name);
-    write_raster(&p, w, h, [west, cell, 0.0, 80.0, 0.0, -cell], Some(4326), None, &v);
+    write_raster(
+        &p,
+        w,
+        h,
+        [west, cell, 0.0, 80.0, 0.0, -cell],
+        Some(4326),
+        None,
+        &v,
+    );
     p
 }
 
@@ -140,7 +181,9 @@ fn one_record(dir: &Path, lon: f64, lat: f64) -> std::path::PathBuf {
 fn u_shape_joining_only_at_the_bottom_across_strips() {
     // Two arms 700 rows tall (three strips), joined by the last row only.
     let t = tempfile::tempdir().unwrap();
-    let p = draw(t.path(), "u.tif", 40, 700, 0.0, 0.1, |r, c| c == 5 || c == 30 || (r == 699 && (5..=30).contains(&c)));
+    let p = draw(t.path(), "u.tif", 40, 700, 0.0, 0.1, |r, c| {
+        c == 5 || c == 30 || (r == 699 && (5..=30).contains(&c))
+    });
     let rec = one_record(t.path(), 0.55, 79.95);
     assert_eq!(assert_equal(&p, &rec, 0.5, true), 1);
     assert_eq!(assert_equal(&p, &rec, 0.5, false), 1);
@@ -174,8 +217,16 @@ fn spiral_across_strips() {
     let spiral = move |r: usize, c: usize| on[r * n + c];
     let p = draw(t.path(), "spiral.tif", n, n, 0.0, 0.1, spiral);
     let rec = one_record(t.path(), 0.05, 79.95);
-    assert_eq!(assert_equal(&p, &rec, 0.5, true), 1, "8-connected: one spiral");
-    assert_eq!(assert_equal(&p, &rec, 0.5, false), 1, "4-connected: one spiral");
+    assert_eq!(
+        assert_equal(&p, &rec, 0.5, true),
+        1,
+        "8-connected: one spiral"
+    );
+    assert_eq!(
+        assert_equal(&p, &rec, 0.5, false),
+        1,
+        "4-connected: one spiral"
+    );
 }
 
 #[test]
@@ -184,13 +235,29 @@ fn comb_and_antimeridian_on_a_global_grid() {
     // top and join only in row 300, and a band crossing 180 degrees.
     let t = tempfile::tempdir().unwrap();
     let comb = |r: usize, c: usize| {
-        (r < 300 && c % 10 == 0 && c < 200) || (r == 300 && c < 200) || ((310..320).contains(&r) && (c < 5 || c > 714))
+        (r < 300 && c % 10 == 0 && c < 200)
+            || (r == 300 && c < 200)
+            || ((310..320).contains(&r) && (c < 5 || c > 714))
     };
-    let v: Vec<f32> = (0..720 * 360).map(|i| if comb(i / 720, i % 720) { 0.9 } else { 0.1 }).collect();
+    let v: Vec<f32> = (0..720 * 360)
+        .map(|i| if comb(i / 720, i % 720) { 0.9 } else { 0.1 })
+        .collect();
     let p = t.path().join("g.tif");
-    write_raster(&p, 720, 360, [-180.0, 0.5, 0.0, 90.0, 0.0, -0.5], Some(4326), None, &v);
+    write_raster(
+        &p,
+        720,
+        360,
+        [-180.0, 0.5, 0.0, 90.0, 0.0, -0.5],
+        Some(4326),
+        None,
+        &v,
+    );
     let rec = one_record(t.path(), -179.75, 89.75);
-    assert_eq!(assert_equal(&p, &rec, 0.5, true), 2, "comb + band joined across 180");
+    assert_eq!(
+        assert_equal(&p, &rec, 0.5, true),
+        2,
+        "comb + band joined across 180"
+    );
     assert_eq!(assert_equal(&p, &rec, 0.5, false), 2);
 }
 
@@ -199,10 +266,28 @@ fn random_speckle_with_nodata_matches() {
     // Deterministic speckle over 300 rows (two strips) with nodata holes.
     let t = tempfile::tempdir().unwrap();
     let (w, h) = (97, 300);
-    let hash = |i: usize| ((i as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15) >> 40) as f64 / (1u64 << 24) as f64;
-    let v: Vec<f32> = (0..w * h).map(|i| if i >= w && hash(i) < 0.05 { -9999.0 } else { hash(i * 7 + 3) as f32 }).collect();
+    let hash = |i: usize| {
+        ((i as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15) >> 40) as f64 / (1u64 << 24) as f64
+    };
+    let v: Vec<f32> = (0..w * h)
+        .map(|i| {
+            if i >= w && hash(i) < 0.05 {
+                -9999.0
+            } else {
+                hash(i * 7 + 3) as f32
+            }
+        })
+        .collect();
     let p = t.path().join("speckle.tif");
-    write_raster(&p, w, h, [10.0, 0.01, 0.0, 60.0, 0.0, -0.01], Some(4326), Some(-9999.0), &v);
+    write_raster(
+        &p,
+        w,
+        h,
+        [10.0, 0.01, 0.0, 60.0, 0.0, -0.01],
+        Some(4326),
+        Some(-9999.0),
+        &v,
+    );
     let rec = one_record(t.path(), 10.005, 59.995);
     for eight in [true, false] {
         assert!(assert_equal(&p, &rec, 0.8, eight) > 50);
@@ -212,7 +297,10 @@ fn random_speckle_with_nodata_matches() {
 #[test]
 fn large_raster_from_the_environment() {
     // Run by bench/run.sh on the S size; skipped (passes trivially) without the variables.
-    let (Ok(tif), Ok(rec)) = (std::env::var("AREAL_EQUALITY_TIF"), std::env::var("AREAL_EQUALITY_RECORDS")) else {
+    let (Ok(tif), Ok(rec)) = (
+        std::env::var("AREAL_EQUALITY_TIF"),
+        std::env::var("AREAL_EQUALITY_RECORDS"),
+    ) else {
         return;
     };
     let n = assert_equal(Path::new(&tif), Path::new(&rec), 0.5, true);

@@ -73,6 +73,9 @@ pub(crate) struct RangeArgs {
     /// Print summary.json on stdout instead of the readable summary.
     #[arg(long)]
     pub json: bool,
+    /// No progress bars on stderr (they are off anyway when stderr is not a terminal).
+    #[arg(long)]
+    pub quiet: bool,
 }
 
 impl RangeArgs {
@@ -101,6 +104,7 @@ impl RangeArgs {
                 crs: self.records_crs.clone(),
                 layer: self.records_layer.clone(),
             },
+            progress: crate::cli::progress::bar(self.quiet),
         })
     }
 }

@@ -4,6 +4,7 @@
 //! 4 output error (folder exists, not writable); 101 would be a panic (a bug).
 
 mod args;
+pub(crate) mod progress;
 
 use args::{Cli, Command};
 use clap::Parser;

@@ -22,6 +22,7 @@ use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::Mutex;
 use std::sync::mpsc;
 
 /// Everything `areal range` needs besides the files.
@@ -83,11 +84,12 @@ impl ProgressHandle {
 /// Where class rows go during the pass.
 pub trait RowSink {
     /// Receive whole rows starting at `y0`. A later call for the same rows replaces them.
-    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<()>;
+    /// Returns the buffer for reuse.
+    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>>;
 }
 
 impl RowSink for crate::raster_io::ClassWriter {
-    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<()> {
+    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         crate::raster_io::ClassWriter::write_rows(self, y0, rows)
     }
 }
@@ -111,13 +113,13 @@ impl MemorySink {
 }
 
 impl RowSink for MemorySink {
-    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<()> {
+    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         let start = y0 * self.width;
         if self.classes.len() < start + rows.len() {
             self.classes.resize(start + rows.len(), class::NODATA);
         }
         self.classes[start..start + rows.len()].copy_from_slice(&rows);
-        Ok(())
+        Ok(rows)
     }
 }
 
@@ -331,11 +333,15 @@ fn classify_pass(
     let n_strips = h.div_ceil(STRIP_ROWS);
     let threads = decode_threads().min(n_strips).max(1);
     let next = AtomicUsize::new(0);
+    // Strip buffers go round between the workers and the consumer: fresh pages cost
+    // more to touch than the work done on them.
+    let pool: Mutex<Vec<Vec<u8>>> = Mutex::new(Vec::new());
     let (tx, rx) = mpsc::sync_channel::<Result<StripClasses>>(2 * threads);
     std::thread::scope(|scope| {
         for _ in 0..threads {
             let tx = tx.clone();
             let next = &next;
+            let pool = &pool;
             let spec = raster.reader_spec();
             scope.spawn(move || {
                 let reader = match spec.open() {
@@ -347,20 +353,16 @@ fn classify_pass(
                 };
                 let mut bufs = StripBuffers::default();
                 loop {
+                    let mut codes = pool.lock().map(|mut p| p.pop()).ok().flatten().unwrap_or_default();
                     let i = next.fetch_add(1, Ordering::Relaxed);
                     if i >= n_strips {
                         return;
                     }
                     let y0 = i * STRIP_ROWS;
                     let rows = STRIP_ROWS.min(h - y0);
-                    let out =
-                        reader
-                            .classify_rows(y0, rows, t, &mut bufs)
-                            .map(|(codes, binary)| StripClasses {
-                                index: i,
-                                codes,
-                                binary,
-                            });
+                    let out = reader
+                        .classify_rows(y0, rows, t, &mut bufs, &mut codes)
+                        .map(|binary| StripClasses { index: i, codes, binary });
                     let failed = out.is_err();
                     if tx.send(out).is_err() || failed {
                         return; // the consumer stopped, or this worker failed
@@ -389,7 +391,10 @@ fn classify_pass(
                 let y0 = expect * STRIP_ROWS;
                 let classes =
                     consumer.strip(y0, strip, access, areas, rows_records, placed, raster)?;
-                sink.write_rows(y0, classes)?;
+                let spent = sink.write_rows(y0, classes)?;
+                if let Ok(mut p) = pool.lock() {
+                    p.push(spent);
+                }
                 progress.advance(strip_rows(y0, h) as u64);
                 expect += 1;
             }
@@ -458,25 +463,21 @@ impl Consumer {
                 access.fill_row(row, &mut self.in_m)?;
             }
             let row_areas = areas.row_allow_outside(row)?;
-            let mut counts = [0u64; 4];
-            let mut m_cells = 0u64;
-            for (c, k) in cls.iter_mut().enumerate() {
-                let inside = whole || self.in_m[c];
-                match *k {
-                    class::NODATA => counts[3] += 1,
-                    class::UNSUITABLE => {
-                        counts[0] += 1;
-                        m_cells += inside as u64;
-                    }
-                    _ => {
-                        if !inside {
-                            *k = class::OUTSIDE;
-                        }
-                        counts[*k as usize] += 1;
-                        m_cells += inside as u64;
-                    }
+            // Suitable cells outside M become class 2 (branch-free so the loops vectorise).
+            if !whole {
+                for (k, &m) in cls.iter_mut().zip(&self.in_m) {
+                    *k += (*k == class::INSIDE) as u8 & (m as u8 ^ 1);
                 }
             }
+            // u32 sums widen less than u64 counts in the vector loops (a row has < 2^32 cells).
+            let count = |v: u8| cls.iter().map(|&k| (k == v) as u32).sum::<u32>() as u64;
+            let (n0, n1, nd) = (count(0), count(1), count(class::NODATA));
+            let counts = [n0, n1, w as u64 - n0 - n1 - nd, nd];
+            let m_cells = if whole {
+                w as u64 - nd
+            } else {
+                cls.iter().zip(&self.in_m).map(|(&k, &m)| (m as u32) & (k != class::NODATA) as u32).sum::<u32>() as u64
+            };
             for k in 0..4 {
                 self.totals.cells[k] += counts[k];
             }

@@ -135,9 +135,11 @@ impl SuitabilityRaster {
         &self.data_type
     }
 
-    /// Whether `v` counts as data (finite and not the nodata value).
+    /// Whether `v` counts as data (finite and not the nodata value; on bands read as
+    /// float32 the comparison is at float32 precision, as in the strip pass).
     pub fn is_data(&self, v: f64) -> bool {
-        v.is_finite() && self.nodata.is_none_or(|nd| v != nd)
+        v.is_finite()
+            && self.nodata.is_none_or(|nd| if self.fits_f32 { v as f32 != nd as f32 } else { v != nd })
     }
 
     /// The value of each cell (row, col), `None` where it is nodata or non-finite.
@@ -234,68 +236,117 @@ pub struct StripBuffers {
 }
 
 impl StripReader {
-    /// Read rows `y0 .. y0 + rows` and code each cell: 0 below `t`, 1 at or above `t`,
-    /// 255 nodata. Also says whether every data cell was exactly 0 or 1.
+    /// Read rows `y0 .. y0 + rows` and code each cell into `codes` (resized): 0 below
+    /// `t`, 1 at or above `t`, 255 nodata. Returns whether every data cell was exactly 0
+    /// or 1.
     pub fn classify_rows(
         &self,
         y0: usize,
         rows: usize,
         t: f64,
         bufs: &mut StripBuffers,
-    ) -> Result<(Vec<u8>, bool)> {
+        codes: &mut Vec<u8>,
+    ) -> Result<bool> {
         let n = self.width * rows;
-        let band = self
-            .ds
-            .rasterband(1)
-            .map_err(Error::gdal(&self.path, "reading band 1"))?;
+        let band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "reading band 1"))?;
         let what = || format!("reading rows {y0}..{}", y0 + rows);
-        let mut codes = vec![0u8; n];
+        codes.resize(n, 0);
         let binary = if self.as_f32 {
             bufs.f32s.resize(n, 0.0);
-            band.read_into_slice::<f32>(
-                (0, y0 as isize),
-                (self.width, rows),
-                (self.width, rows),
-                &mut bufs.f32s,
-                None,
-            )
-            .map_err(Error::gdal(&self.path, what()))?;
-            code_cells(&bufs.f32s, &mut codes, t, self.nodata)
+            band.read_into_slice::<f32>((0, y0 as isize), (self.width, rows), (self.width, rows), &mut bufs.f32s, None)
+                .map_err(Error::gdal(&self.path, what()))?;
+            code_cells_f32(&bufs.f32s, codes, t, self.nodata)
         } else {
             bufs.f64s.resize(n, 0.0);
-            band.read_into_slice::<f64>(
-                (0, y0 as isize),
-                (self.width, rows),
-                (self.width, rows),
-                &mut bufs.f64s,
-                None,
-            )
-            .map_err(Error::gdal(&self.path, what()))?;
-            code_cells(&bufs.f64s, &mut codes, t, self.nodata)
+            band.read_into_slice::<f64>((0, y0 as isize), (self.width, rows), (self.width, rows), &mut bufs.f64s, None)
+                .map_err(Error::gdal(&self.path, what()))?;
+            code_cells_f64(&bufs.f64s, codes, t, self.nodata)
         };
-        Ok((codes, binary))
+        Ok(binary)
     }
 }
 
-/// Code cells against the threshold; returns whether all data cells are 0 or 1.
-fn code_cells<T: Copy + Into<f64>>(
-    values: &[T],
-    codes: &mut [u8],
-    t: f64,
-    nodata: Option<f64>,
-) -> bool {
+/// The smallest f32 `t32` with `v >= t32` exactly when `v as f64 >= t`, for every f32 `v`.
+fn f32_threshold(t: f64) -> f32 {
+    if t.is_nan() {
+        return f32::NAN;
+    }
+    let mut t32 = t as f32; // round to nearest
+    if (t32 as f64) < t {
+        t32 = t32.next_up();
+    }
+    t32
+}
+
+/// Code float32 cells (branch-free, so the loop vectorises); returns whether all data
+/// cells are 0 or 1.
+fn code_cells_f32(values: &[f32], codes: &mut [u8], t: f64, nodata: Option<f64>) -> bool {
+    let t32 = f32_threshold(t);
+    // As GDAL does for float32 bands, the nodata value is taken at float32 precision.
+    let nd = nodata.map(|v| v as f32).unwrap_or(f32::NAN);
+    let mut not_binary = 0u32;
+    for (&v, k) in values.iter().zip(codes.iter_mut()) {
+        let missing = !v.is_finite() | (v == nd);
+        not_binary |= (!missing & (v != 0.0) & (v != 1.0)) as u32;
+        *k = if missing { class::NODATA } else { (v >= t32) as u8 };
+    }
+    not_binary == 0
+}
+
+/// Code float64 cells; returns whether all data cells are 0 or 1.
+fn code_cells_f64(values: &[f64], codes: &mut [u8], t: f64, nodata: Option<f64>) -> bool {
     let nd = nodata.unwrap_or(f64::NAN); // NaN never equals: no nodata value
-    let mut binary = true;
-    for (v, k) in values.iter().zip(codes.iter_mut()) {
-        let v: f64 = (*v).into();
-        if !v.is_finite() || v == nd {
-            *k = class::NODATA;
-        } else {
-            binary &= v == 0.0 || v == 1.0;
-            *k = (v >= t) as u8;
+    let mut not_binary = 0u32;
+    for (&v, k) in values.iter().zip(codes.iter_mut()) {
+        let missing = !v.is_finite() | (v == nd);
+        not_binary |= (!missing & (v != 0.0) & (v != 1.0)) as u32;
+        *k = if missing { class::NODATA } else { (v >= t) as u8 };
+    }
+    not_binary == 0
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn f32_threshold_is_exact_for_every_neighbour() {
+        // For thresholds that are and are not f32 values, the f32 comparison must agree
+        // with the f64 one on the f32 values around T.
+        for t in [0.12f64, 0.12f32 as f64, 0.5, 1.0 / 3.0, -0.0, 1e-40, 3.4e38] {
+            let t32 = f32_threshold(t);
+            let mut v = (t as f32).next_down().next_down();
+            for _ in 0..5 {
+                assert_eq!(v >= t32, v as f64 >= t, "t = {t}, v = {v}");
+                v = v.next_up();
+            }
         }
     }
-    binary
+
+    #[test]
+    fn cells_are_coded_with_nodata_nan_and_inf() {
+        // CHECKS.md section 5: cells [0.1165, 0.118, 0.12, 0.13] with T = 0.12 -> [0, 0, 1, 1].
+        let v = [0.1165f32, 0.118, 0.12, 0.13, -9999.0, f32::NAN, f32::INFINITY, f32::NEG_INFINITY];
+        let mut k = [9u8; 8];
+        let binary = code_cells_f32(&v, &mut k, 0.12f32 as f64, Some(-9999.0));
+        assert_eq!(k, [0, 0, 1, 1, 255, 255, 255, 255]);
+        assert!(!binary);
+        let v64: Vec<f64> = v.iter().map(|&x| x as f64).collect();
+        let mut k64 = [9u8; 8];
+        code_cells_f64(&v64, &mut k64, 0.12f32 as f64, Some(-9999.0));
+        assert_eq!(k64, k);
+        let mut kb = [9u8; 4];
+        assert!(code_cells_f32(&[0.0, 1.0, -9999.0, 1.0], &mut kb, 0.5, Some(-9999.0)));
+    }
+
+    #[test]
+    fn float32_nodata_is_compared_at_float32_precision() {
+        // A Float32 band with nodata "0.1": its cells hold 0.1f32 (0.100000001...), which
+        // GDAL treats as nodata (the nodata value is cast to the band type; from memory).
+        let mut k = [9u8; 2];
+        code_cells_f32(&[0.1, 0.9], &mut k, 0.5, Some(0.1));
+        assert_eq!(k, [255, 1]);
+    }
 }
 
 /// Class codes of `classes.tif`.
@@ -381,19 +432,14 @@ impl ClassWriter {
         })
     }
 
-    /// Write rows starting at `y0`; `rows` holds whole rows.
-    pub fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<()> {
+    /// Write rows starting at `y0`; `rows` holds whole rows. Returns the buffer for reuse.
+    pub fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         let n = rows.len() / self.width;
-        let mut band = self
-            .ds
-            .rasterband(1)
-            .map_err(Error::gdal(&self.path, "opening band 1"))?;
+        let mut band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "opening band 1"))?;
         let mut buf = gdal::raster::Buffer::new((self.width, n), rows);
         band.write((0, y0 as isize), (self.width, n), &mut buf)
-            .map_err(Error::gdal(
-                &self.path,
-                format!("writing rows {y0}..{}", y0 + n),
-            ))
+            .map_err(Error::gdal(&self.path, format!("writing rows {y0}..{}", y0 + n)))?;
+        Ok(buf.into_shape_and_vec().1)
     }
 
     /// Flush and close.

@@ -34,6 +34,8 @@ pub struct RangeOptions {
     pub keep_duplicates: bool,
     /// How records are read.
     pub records: RecordOptions,
+    /// Also write the vector outputs (`--vectors`): range.gpkg and GeoJSON files.
+    pub vectors: Option<crate::vectors::VectorOptions>,
 }
 
 /// Where class rows go during the pass.
@@ -625,6 +627,12 @@ pub fn run_range(
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&result.summary).expect("summary serialises");
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
+    if let Some(v) = &opts.vectors {
+        let run_dir = classes_path
+            .parent()
+            .expect("classes.tif is inside the output folder");
+        crate::vectors::write_vectors(run_dir, run_dir, &opts.access, None, v)?;
+    }
     dir.commit()?;
     Ok(result)
 }

@@ -143,7 +143,7 @@ fn geojson_is_rfc7946_lonlat_ccw_and_rounded() {
                 check_winding(&poly, name);
             }
         }
-        assert_decimals_at_most(&text, 7, name);
+        assert_decimals_at_most(&text, areal::vectors::GEOJSON_DECIMALS, name);
     }
     let v = json(&out.join("patches.geojson"));
     let feats = v["features"].as_array().unwrap();
@@ -153,8 +153,8 @@ fn geojson_is_rfc7946_lonlat_ccw_and_rounded() {
         assert_eq!(f["properties"]["patch_id"].to_string(), row[0]);
         let want: f64 = row[ia].parse().unwrap();
         let got = area_km2_geodesic(&polygons_of_geojson(&f["geometry"]));
-        // 7 decimals move a 0.25 degree cell's edge by < 5e-8 degree: < 1e-6 relative.
-        assert!(rel(got, want) < 2e-6, "patch {}: {got} vs {want}", row[0]);
+        // 9 decimals move a 0.25 degree cell's edge by < 5e-10 degree: < 1e-8 relative.
+        assert!(rel(got, want) < 1e-6, "patch {}: {got} vs {want}", row[0]);
     }
 }
 
@@ -407,4 +407,81 @@ fn too_large_grids_are_refused_before_writing() {
     .to_string();
     assert!(e.contains("1920 cells") && e.contains("100"), "{e}");
     assert!(!vout.exists() && !Path::new(&vout).exists());
+}
+
+#[test]
+fn projected_grid_lonlat_outputs_keep_the_true_areas() {
+    // EPSG:3035 (ETRS89-LAEA Europe, natural origin 52 N 10 E at x 4 321 000, y 3 210 000:
+    // CHECKS.md section 6), 1 km cells around the origin.
+    let t = tempfile::tempdir().unwrap();
+    let (w, h) = (30usize, 20usize);
+    let mut v = vec![0.1f32; w * h];
+    for r in 4..16 {
+        for c in 5..25 {
+            if !((8..11).contains(&r) && (10..14).contains(&c)) {
+                v[r * w + c] = 0.9;
+            }
+        }
+    }
+    v[w + 28] = 0.9;
+    let tif = t.path().join("p.tif");
+    write_raster(
+        &tif,
+        w,
+        h,
+        [4_306_000.0, 1000.0, 0.0, 3_220_000.0, 0.0, -1000.0],
+        Some(3035),
+        None,
+        &v,
+    );
+    let rec = t.path().join("r.csv");
+    std::fs::write(&rec, "lon,lat\n10.0,52.0\n").unwrap();
+    let out = t.path().join("out");
+    let o = run(&[
+        "range",
+        "--suitability",
+        tif.to_str().unwrap(),
+        "--records",
+        rec.to_str().unwrap(),
+        "--threshold",
+        "0.5",
+        "--buffer-km",
+        "8",
+        "--out",
+        out.to_str().unwrap(),
+        "--vectors",
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let (ph, prows) = read_csv(&out.join("patches.csv"));
+    assert!(
+        prows.len() >= 3,
+        "a patch cut by the buffer, and the lone cell"
+    );
+    let v = json(&out.join("patches.geojson"));
+    for (f, row) in v["features"].as_array().unwrap().iter().zip(&prows) {
+        let polys = polygons_of_geojson(&f["geometry"]);
+        for p in &polys {
+            check_winding(p, "patches");
+        }
+        // Vertices every 1 km along the LAEA edges, geodesic between them: CHECKS.md section 6
+        // gives +3.5e-9 for 1 km segments on a LAEA square; 9 decimals move 1 km edges by
+        // < 0.06 mm, below 1e-7 relative.
+        let want: f64 = row[col(&ph, "area_km2")].parse().unwrap();
+        let got = area_km2_geodesic(&polys);
+        assert!(rel(got, want) < 1e-6, "patch {}: {got} vs {want}", row[0]);
+    }
+    let native = read_gpkg(&out.join("range.gpkg"));
+    let recs = &native[4].features;
+    let (x, y) = recs[0].point.unwrap();
+    // The record at the natural origin lands on (4 321 000, 3 210 000).
+    assert!(
+        (x - 4_321_000.0).abs() < 1e-3 && (y - 3_210_000.0).abs() < 1e-3,
+        "{x} {y}"
+    );
+    let range = &native[0].features[0];
+    let inside = json(&out.join("summary.json"))["area_km2"]["inside_accessible"]
+        .as_f64()
+        .unwrap();
+    // EPSG:3035 is equal-area: the planar area of the native polygons is the true area.
+    assert!(rel(planar_km2(&range.polygons), inside) < 1e-12);
 }

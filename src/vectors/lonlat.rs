@@ -222,7 +222,7 @@ pub(crate) fn split_at(
 
 /// Unwrap a closed ring's longitudes in place: the first into [reference - 180, reference + 180),
 /// each next one within 180 of the previous. Err when the ring does not close (a pole inside).
-fn unwrap_ring(xs: &mut [f64], reference: f64) -> std::result::Result<(), ()> {
+pub(crate) fn unwrap_ring(xs: &mut [f64], reference: f64) -> std::result::Result<(), ()> {
     if xs.is_empty() {
         return Ok(());
     }

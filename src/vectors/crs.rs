@@ -44,8 +44,8 @@ fn crs_err(reason: String) -> Error {
     }
 }
 
-/// The grid's extent in WGS84 lon/lat: (west, south, east, north); west may exceed east only
-/// never: longitudes are as the grid gives them (unwrapped).
+/// The grid's extent in WGS84 lon/lat: [west, south, east, north], longitudes as the grid
+/// gives them (not wrapped, so west < east).
 fn extent_lonlat(grid: &GridSpec) -> Result<[f64; 4]> {
     let gt = grid.geo_transform;
     let (x0, y0) = (gt[0], gt[3]);

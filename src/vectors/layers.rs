@@ -141,10 +141,10 @@ pub(crate) fn build_and_write(
     let mut row = vec![false; grid.width];
     for r in 0..grid.height {
         mask.fill_row(r, &mut row)?;
-        for c in 0..grid.width {
+        for (c, &in_m) in row.iter().enumerate() {
             let i = r * grid.width + c;
             let k = run.classes[i];
-            if (k == class::INSIDE && !row[c]) || (k == class::OUTSIDE && row[c]) {
+            if (k == class::INSIDE && !in_m) || (k == class::OUTSIDE && in_m) {
                 return Err(Error::InvalidOption {
                     option: "--accessible",
                     reason: format!(
@@ -153,7 +153,7 @@ pub(crate) fn build_and_write(
                     ),
                 });
             }
-            m_cells[i] = u32::from(row[c] && k != class::NODATA);
+            m_cells[i] = u32::from(in_m && k != class::NODATA);
         }
     }
     let n_m = m_cells.iter().filter(|&&v| v == 1).count();

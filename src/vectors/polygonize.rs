@@ -109,7 +109,7 @@ pub(crate) fn polygonize_labels(
                 band.c_rasterband(),
                 layer.c_layer(),
                 0,
-                popts.as_ptr() as *mut *mut std::ffi::c_char,
+                popts.as_ptr(),
                 None,
                 std::ptr::null_mut(),
             )
@@ -141,7 +141,6 @@ pub(crate) fn polygonize_labels(
             }
         }
     }
-    drop(band);
     drop(ds);
     pieces
         .into_iter()
@@ -162,7 +161,7 @@ pub(crate) fn make_valid(mp: MultiPolygon<f64>, context: &Path) -> Result<MultiP
     let fixed = g
         .make_valid(&CslStringList::new())
         .map_err(fail("MakeValid"))?;
-    Ok(polygons_of(&fixed, context)?)
+    polygons_of(&fixed, context)
 }
 
 /// GEOS validity through GDAL, without GDAL's "Self-intersection at or near point" warning on

@@ -1,9 +1,10 @@
 #!/usr/bin/env bash
 # Installs what areal needs on a fresh Debian machine (run as root): GDAL with its
-# development files and pkg-config. Safe to run again; it installs only what is missing.
+# development files and pkg-config, and python3-venv for the GeoJSON reference check.
+# Safe to run again; it installs only what is missing.
 set -euo pipefail
 need=()
-for pkg in libgdal-dev pkg-config gdal-bin; do
+for pkg in libgdal-dev pkg-config gdal-bin python3-venv; do
   dpkg-query -W -f='${Status}' "$pkg" 2>/dev/null | grep -q "install ok installed" || need+=("$pkg")
 done
 if [ ${#need[@]} -gt 0 ]; then

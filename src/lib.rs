@@ -19,6 +19,7 @@ pub mod raster_io;
 pub mod records;
 mod report;
 mod threshold;
+pub mod vectors;
 
 pub use error::{Error, Result};
 pub use grid::GridSpec;

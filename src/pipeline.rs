@@ -40,6 +40,8 @@ pub struct RangeOptions {
     pub records: RecordOptions,
     /// Where to report progress (none by default).
     pub progress: ProgressHandle,
+    /// Also write the vector outputs (`--vectors`): range.gpkg and GeoJSON files.
+    pub vectors: Option<crate::vectors::VectorOptions>,
 }
 
 /// Receives progress of the long stages. Implementations must be cheap: `advance` is
@@ -804,6 +806,12 @@ pub fn run_range(
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&result.summary).expect("summary serialises");
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
+    if let Some(v) = &opts.vectors {
+        let run_dir = classes_path
+            .parent()
+            .expect("classes.tif is inside the output folder");
+        crate::vectors::write_vectors(run_dir, run_dir, &opts.access, None, v)?;
+    }
     dir.commit()?;
     Ok(result)
 }

@@ -181,6 +181,15 @@ impl SuitabilityRaster {
         Ok(out)
     }
 
+    /// Read rows `y0 .. y0 + rows` into `buf` (resized to `width * rows`), row-major, as f64.
+    pub fn read_rows(&self, y0: usize, rows: usize, buf: &mut Vec<f64>) -> Result<()> {
+        let w = self.grid.width;
+        buf.resize(w * rows, 0.0);
+        let band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "reading band 1"))?;
+        band.read_into_slice::<f64>((0, y0 as isize), (w, rows), (w, rows), &mut buf[..], None)
+            .map_err(Error::gdal(&self.path, format!("reading rows {y0}..{}", y0 + rows)))
+    }
+
     /// What a worker thread needs to open its own handle.
     pub fn reader_spec(&self) -> ReaderSpec {
         ReaderSpec {

@@ -112,6 +112,7 @@ fn streaming(path: &Path, records: &Path, t: f64, eight: bool) -> (Vec<u8>, area
         keep_duplicates: false,
         records: RecordOptions::default(),
         progress: Default::default(),
+        vectors: None,
     };
     let w = Dataset::open(path).unwrap().raster_size().0;
     let mut sink = MemorySink::new(w);

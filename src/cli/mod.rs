@@ -41,5 +41,25 @@ fn run(cli: Cli) -> areal::Result<()> {
             }
             Ok(())
         }
+        Command::Polygons(a) => {
+            let r = areal::vectors::run_polygons(
+                &a.classes,
+                &a.access(),
+                a.connectivity(),
+                &a.vector_options(),
+                &a.out,
+                a.overwrite,
+            )?;
+            println!(
+                "areal polygons: {} patch(es), {} unreachable, {} record(s)",
+                r.patches, r.unreachable, r.records
+            );
+            if let Some(c) = &r.equal_area_crs {
+                println!("  equal-area CRS  {c}");
+            }
+            println!("  files           {}", r.files.join(", "));
+            println!("  outputs         {}", a.out.display());
+            Ok(())
+        }
     }
 }

@@ -84,7 +84,7 @@ def main():
         for y0 in range(0, h, step):
             ys = tr.f + (np.arange(y0, min(h, y0 + step)) + 0.5) * tr.e
             glon, glat = np.meshgrid(xs, ys)
-            d, _ = tree.query(unit(glon, glat).reshape(-1, 3), distance_upper_bound=chord)
+            d, _ = tree.query(unit(glon, glat).reshape(-1, 3), distance_upper_bound=chord, workers=2)
             in_m[y0:y0 + len(ys)] = (d <= chord).reshape(len(ys), w)
 
     suit = valid & (s >= t)
@@ -103,9 +103,15 @@ def main():
         labels, n = ndimage.label(classes == cls, structure=structure)
         if n == 0:
             continue
-        weights = np.broadcast_to(row_area[:, None], (h, w))
-        area = ndimage.sum_labels(weights, labels, index=np.arange(1, n + 1))
-        count = ndimage.sum_labels(np.ones((h, w), dtype=np.uint8), labels, index=np.arange(1, n + 1))
+        # Per-patch sums in row chunks, so no full-size float64 weight array is made.
+        area = np.zeros(n + 1)
+        count = np.zeros(n + 1, dtype=np.int64)
+        for y0 in range(0, h, 1024):
+            lab = labels[y0:y0 + 1024]
+            flat = lab.ravel()
+            area += np.bincount(flat, weights=np.repeat(row_area[y0:y0 + 1024], w), minlength=n + 1)
+            count += np.bincount(flat, minlength=n + 1)
+        area, count = area[1:], count[1:]
         for i in range(n):
             pid += 1
             out_rows.append((pid, cls, int(count[i]), area[i] / 1e6))

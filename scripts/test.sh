@@ -5,5 +5,9 @@ cd "$(dirname "$0")/.."
 bash scripts/setup.sh
 cargo test --release --all-targets
 cargo test --release --doc
+# Reference-library check of the GeoJSON outputs: shapely and pyproj (PyPI) in .venv.
+[ -x .venv/bin/python ] || python3 -m venv .venv
+.venv/bin/pip install --quiet --disable-pip-version-check 'shapely>=2' pyproj
+.venv/bin/python tests/py/check_geojson.py target/release/areal
 # Atomic outputs: SIGKILL part way through runs on a large generated raster.
 bash tests/kill_test.sh

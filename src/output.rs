@@ -24,6 +24,14 @@ pub const OUTPUT_NAMES: &[&str] = &[
     "patches.csv",
     "records.csv",
     "summary.json",
+    // Vector outputs (crate::vectors::VECTOR_NAMES).
+    "range.gpkg",
+    "range.geojson",
+    "patches.geojson",
+    "unreachable.geojson",
+    "accessible.geojson",
+    "records.geojson",
+    "range-equal-area.gpkg",
 ];
 
 /// A temporary output folder that becomes `dest` on [`OutputDir::commit`].

@@ -11,8 +11,9 @@
 
 use crate::access::{AccessMask, AccessSpec};
 use crate::area::CellAreas;
+use crate::area::RowAreas;
 use crate::patches::{Connectivity, Patch, PatchLabeler};
-use crate::raster_io::{class, SuitabilityRaster, STRIP_ROWS};
+use crate::raster_io::{class, StripBuffers, SuitabilityRaster, STRIP_ROWS};
 use crate::records::{read_records, Record, RecordOptions};
 use crate::report::*;
 use crate::threshold::{omission_threshold, Threshold, ThresholdSpec};
@@ -20,6 +21,9 @@ use crate::{Error, GridSpec, Result};
 use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::Mutex;
+use std::sync::mpsc;
 
 /// Everything `areal range` needs besides the files.
 #[derive(Debug, Clone)]
@@ -34,16 +38,60 @@ pub struct RangeOptions {
     pub keep_duplicates: bool,
     /// How records are read.
     pub records: RecordOptions,
+    /// Where to report progress (none by default).
+    pub progress: ProgressHandle,
+    /// Also write the vector outputs (`--vectors`): range.gpkg and GeoJSON files.
+    pub vectors: Option<crate::vectors::VectorOptions>,
+}
+
+/// Receives progress of the long stages. Implementations must be cheap: `advance` is
+/// called once per strip.
+pub trait Progress: Send + Sync {
+    /// A stage starts with `total` units of work.
+    fn start(&self, stage: &str, total: u64);
+    /// `n` more units are done.
+    fn advance(&self, n: u64);
+    /// The stage is over.
+    fn finish(&self);
+}
+
+/// An optional, shareable [`Progress`].
+#[derive(Clone, Default)]
+pub struct ProgressHandle(pub Option<std::sync::Arc<dyn Progress>>);
+
+impl std::fmt::Debug for ProgressHandle {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(if self.0.is_some() { "ProgressHandle(Some)" } else { "ProgressHandle(None)" })
+    }
+}
+
+impl ProgressHandle {
+    fn start(&self, stage: &str, total: u64) {
+        if let Some(p) = &self.0 {
+            p.start(stage, total);
+        }
+    }
+    fn advance(&self, n: u64) {
+        if let Some(p) = &self.0 {
+            p.advance(n);
+        }
+    }
+    fn finish(&self) {
+        if let Some(p) = &self.0 {
+            p.finish();
+        }
+    }
 }
 
 /// Where class rows go during the pass.
 pub trait RowSink {
     /// Receive whole rows starting at `y0`. A later call for the same rows replaces them.
-    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<()>;
+    /// Returns the buffer for reuse.
+    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>>;
 }
 
 impl RowSink for crate::raster_io::ClassWriter {
-    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<()> {
+    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         crate::raster_io::ClassWriter::write_rows(self, y0, rows)
     }
 }
@@ -67,13 +115,13 @@ impl MemorySink {
 }
 
 impl RowSink for MemorySink {
-    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<()> {
+    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         let start = y0 * self.width;
         if self.classes.len() < start + rows.len() {
             self.classes.resize(start + rows.len(), class::NODATA);
         }
         self.classes[start..start + rows.len()].copy_from_slice(&rows);
-        Ok(())
+        Ok(rows)
     }
 }
 
@@ -204,6 +252,7 @@ pub fn compute_range(
         &rows_records,
         &mut placed,
         sink,
+        &opts.progress,
     )?;
     warnings.extend(raster.warnings());
     let binary = totals.all_binary;
@@ -220,6 +269,7 @@ pub fn compute_range(
                 &rows_records,
                 &mut placed,
                 sink,
+                &opts.progress,
             )?;
         }
         let ignored = match opts.threshold {
@@ -265,6 +315,10 @@ fn usable_count_below(placed: &[PlacedRecord], t: f64) -> usize {
 }
 
 /// One streaming pass: classify, measure, label, write.
+///
+/// Decoding dominates the cost, so `decode_threads` workers (each with its own GDAL
+/// handle) read strips and compare them with T; the calling thread receives the strips
+/// in order and applies M, measures areas, feeds the labeller and writes the classes.
 #[allow(clippy::too_many_arguments)]
 fn classify_pass(
     raster: &SuitabilityRaster,
@@ -275,81 +329,210 @@ fn classify_pass(
     rows_records: &BTreeMap<usize, Vec<(usize, usize)>>,
     placed: &mut [PlacedRecord],
     sink: &mut dyn RowSink,
+    progress: &ProgressHandle,
 ) -> Result<PassTotals> {
     let grid = raster.grid();
     let (w, h) = (grid.width, grid.height);
-    let mut labeler = PatchLabeler::new(w, *connectivity, grid.wraps_antimeridian());
-    let mut totals = PassTotals {
-        all_binary: true,
-        ..Default::default()
-    };
-    let mut values = Vec::new();
-    let mut in_m = vec![false; w];
-    let mut rec_counts: Vec<(usize, u64)> = Vec::new();
-    for y0 in (0..h).step_by(STRIP_ROWS) {
-        let rows = STRIP_ROWS.min(h - y0);
-        raster.read_rows(y0, rows, &mut values)?;
-        let mut classes = vec![class::NODATA; w * rows];
-        for r in 0..rows {
-            let row = y0 + r;
-            access.fill_row(row, &mut in_m)?;
-            let row_areas = areas.row_allow_outside(row)?;
-            let vals = &values[r * w..(r + 1) * w];
-            let cls = &mut classes[r * w..(r + 1) * w];
-            let mut row_sums = [0f64; 3];
-            let mut row_m = 0f64;
-            for c in 0..w {
-                let v = vals[c];
-                if !raster.is_data(v) {
-                    totals.cells[3] += 1;
-                    continue;
-                }
-                if v != 0.0 && v != 1.0 {
-                    totals.all_binary = false;
-                }
-                let k = if v >= t {
-                    if in_m[c] {
-                        class::INSIDE
-                    } else {
-                        class::OUTSIDE
+    let n_strips = h.div_ceil(STRIP_ROWS);
+    let threads = decode_threads().min(n_strips).max(1);
+    let next = AtomicUsize::new(0);
+    // Strip buffers go round between the workers and the consumer: fresh pages cost
+    // more to touch than the work done on them.
+    let pool: Mutex<Vec<Vec<u8>>> = Mutex::new(Vec::new());
+    let (tx, rx) = mpsc::sync_channel::<Result<StripClasses>>(2 * threads);
+    std::thread::scope(|scope| {
+        for _ in 0..threads {
+            let tx = tx.clone();
+            let next = &next;
+            let pool = &pool;
+            let spec = raster.reader_spec();
+            scope.spawn(move || {
+                let reader = match spec.open() {
+                    Ok(r) => r,
+                    Err(e) => {
+                        let _ = tx.send(Err(e));
+                        return;
                     }
-                } else {
-                    class::UNSUITABLE
                 };
-                cls[c] = k;
-                totals.cells[k as usize] += 1;
-                let a = row_areas.get(c);
-                if !a.is_finite() {
-                    return Err(Error::UnsupportedRaster {
-                        path: raster.path().to_path_buf(),
-                        reason: format!(
-                            "the data cell at row {row}, column {c} lies outside the valid area of the raster's projection, \
-                             so its true area cannot be measured; set it to nodata or reproject the raster"
-                        ),
-                    });
+                let mut bufs = StripBuffers::default();
+                loop {
+                    let mut codes = pool.lock().map(|mut p| p.pop()).ok().flatten().unwrap_or_default();
+                    let i = next.fetch_add(1, Ordering::Relaxed);
+                    if i >= n_strips {
+                        return;
+                    }
+                    let y0 = i * STRIP_ROWS;
+                    let rows = STRIP_ROWS.min(h - y0);
+                    let out = reader
+                        .classify_rows(y0, rows, t, &mut bufs, &mut codes)
+                        .map(|binary| StripClasses { index: i, codes, binary });
+                    let failed = out.is_err();
+                    if tx.send(out).is_err() || failed {
+                        return; // the consumer stopped, or this worker failed
+                    }
                 }
-                row_sums[k as usize] += a;
-                if in_m[c] {
-                    row_m += a;
+            });
+        }
+        drop(tx);
+        let mut consumer = Consumer {
+            width: w,
+            totals: PassTotals {
+                all_binary: true,
+                ..Default::default()
+            },
+            labeler: PatchLabeler::new(w, *connectivity, grid.wraps_antimeridian()),
+            in_m: vec![false; w],
+            rec_counts: Vec::new(),
+        };
+        progress.start("classifying, labelling and writing rows", h as u64);
+        let mut pending: BTreeMap<usize, StripClasses> = BTreeMap::new();
+        let mut expect = 0;
+        // `rx` is moved in: an early return drops it, so workers blocked on a full
+        // channel get an error instead of waiting forever for the scope to end.
+        for msg in rx {
+            let strip = msg?;
+            pending.insert(strip.index, strip);
+            while let Some(strip) = pending.remove(&expect) {
+                let y0 = expect * STRIP_ROWS;
+                let classes =
+                    consumer.strip(y0, strip, access, areas, rows_records, placed, raster)?;
+                let spent = sink.write_rows(y0, classes)?;
+                if let Ok(mut p) = pool.lock() {
+                    p.push(spent);
+                }
+                progress.advance(strip_rows(y0, h) as u64);
+                expect += 1;
+            }
+        }
+        if expect != n_strips {
+            return Err(Error::UnsupportedRaster {
+                path: raster.path().to_path_buf(),
+                reason: format!("only {expect} of {n_strips} strips could be read"),
+            });
+        }
+        progress.finish();
+        let mut totals = consumer.totals;
+        totals.patches = consumer.labeler.finish();
+        Ok(totals)
+    })
+}
+
+fn strip_rows(y0: usize, h: usize) -> usize {
+    STRIP_ROWS.min(h - y0)
+}
+
+/// Worker threads for decoding: the machine's cores (at least 1), or `AREAL_THREADS`.
+fn decode_threads() -> usize {
+    std::env::var("AREAL_THREADS")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .filter(|&n: &usize| n > 0)
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+}
+
+/// A decoded strip: 0 below T, 1 suitable, 255 nodata.
+struct StripClasses {
+    index: usize,
+    codes: Vec<u8>,
+    binary: bool,
+}
+
+struct Consumer {
+    width: usize,
+    totals: PassTotals,
+    labeler: PatchLabeler,
+    in_m: Vec<bool>,
+    rec_counts: Vec<(usize, u64)>,
+}
+
+impl Consumer {
+    /// Apply M, measure, label; returns the finished class rows.
+    #[allow(clippy::too_many_arguments)]
+    fn strip(
+        &mut self,
+        y0: usize,
+        strip: StripClasses,
+        access: &mut AccessMask,
+        areas: &mut CellAreas,
+        rows_records: &BTreeMap<usize, Vec<(usize, usize)>>,
+        placed: &mut [PlacedRecord],
+        raster: &SuitabilityRaster,
+    ) -> Result<Vec<u8>> {
+        let w = self.width;
+        let mut classes = strip.codes;
+        self.totals.all_binary &= strip.binary;
+        let whole = access.is_whole_raster();
+        for (r, cls) in classes.chunks_mut(w).enumerate() {
+            let row = y0 + r;
+            if !whole {
+                access.fill_row(row, &mut self.in_m)?;
+            }
+            let row_areas = areas.row_allow_outside(row)?;
+            // Suitable cells outside M become class 2 (branch-free so the loops vectorise).
+            if !whole {
+                for (k, &m) in cls.iter_mut().zip(&self.in_m) {
+                    *k += (*k == class::INSIDE) as u8 & (m as u8 ^ 1);
                 }
             }
-            for k in 0..3 {
-                totals.area_m2[k].add(row_sums[k]);
+            // u32 sums widen less than u64 counts in the vector loops (a row has < 2^32 cells).
+            let count = |v: u8| cls.iter().map(|&k| (k == v) as u32).sum::<u32>() as u64;
+            let (n0, n1, nd) = (count(0), count(1), count(class::NODATA));
+            let counts = [n0, n1, w as u64 - n0 - n1 - nd, nd];
+            let m_cells = if whole {
+                w as u64 - nd
+            } else {
+                cls.iter().zip(&self.in_m).map(|(&k, &m)| (m as u32) & (k != class::NODATA) as u32).sum::<u32>() as u64
+            };
+            for k in 0..4 {
+                self.totals.cells[k] += counts[k];
             }
-            totals.accessible_m2.add(row_m);
-            rec_counts.clear();
+            match &row_areas {
+                RowAreas::Uniform(a) => {
+                    for k in 0..3 {
+                        self.totals.area_m2[k].add(counts[k] as f64 * a);
+                    }
+                    self.totals.accessible_m2.add(m_cells as f64 * a);
+                }
+                RowAreas::PerCell(v) => {
+                    let mut sums = [0f64; 3];
+                    let mut m = 0f64;
+                    for (c, &k) in cls.iter().enumerate() {
+                        if k == class::NODATA {
+                            continue;
+                        }
+                        let a = v[c];
+                        if !a.is_finite() {
+                            return Err(Error::UnsupportedRaster {
+                                path: raster.path().to_path_buf(),
+                                reason: format!(
+                                    "the data cell at row {row}, column {c} lies outside the valid area of the raster's \
+                                     projection, so its true area cannot be measured; set it to nodata or reproject the raster"
+                                ),
+                            });
+                        }
+                        sums[k as usize] += a;
+                        if whole || self.in_m[c] {
+                            m += a;
+                        }
+                    }
+                    for k in 0..3 {
+                        self.totals.area_m2[k].add(sums[k]);
+                    }
+                    self.totals.accessible_m2.add(m);
+                }
+            }
+            self.rec_counts.clear();
             if let Some(list) = rows_records.get(&row) {
                 for &(c, i) in list {
                     placed[i].class = Some(cls[c]);
-                    rec_counts.push((c, 1));
+                    self.rec_counts.push((c, 1));
                 }
             }
-            labeler.push_row(row, cls, &row_areas, &rec_counts);
+            self.labeler
+                .push_row(row, cls, &row_areas, &self.rec_counts);
         }
-        sink.write_rows(y0, classes)?;
+        Ok(classes)
     }
-    totals.patches = labeler.finish();
-    Ok(totals)
 }
 
 struct BuildInput<'a> {
@@ -628,6 +811,12 @@ pub fn run_range(
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&result.summary).expect("summary serialises");
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
+    if let Some(v) = &opts.vectors {
+        let run_dir = classes_path
+            .parent()
+            .expect("classes.tif is inside the output folder");
+        crate::vectors::write_vectors(run_dir, run_dir, &opts.access, None, v)?;
+    }
     dir.commit()?;
     Ok(result)
 }

@@ -13,9 +13,10 @@
 use crate::{Error, GridSpec, Result};
 use gdal::raster::{ColorEntry, ColorTable, PaletteInterpretation, RasterCreationOptions};
 use gdal::{Dataset, DatasetOptions, DriverManager, GdalOpenFlags, Metadata};
+use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU64, Ordering};
-use std::sync::Mutex;
+use std::sync::{Arc, Mutex};
 
 /// An opened suitability raster.
 pub struct SuitabilityRaster {
@@ -24,14 +25,58 @@ pub struct SuitabilityRaster {
     grid: GridSpec,
     nodata: Option<f64>,
     data_type: String,
-    /// Whether the band type can hold NaN/inf (float types).
-    float: bool,
-    /// Non-finite cells met in the rows read so far (each row counted once).
-    non_finite: AtomicU64,
-    /// Rows already scanned for non-finite cells.
-    scanned: Mutex<Vec<bool>>,
+    fits_f32: bool,
+    /// Non-finite cells met in the rows read so far, each row counted once.
+    non_finite: NonFiniteCount,
     /// Warnings about the raster found when opening it.
     open_warnings: Vec<String>,
+}
+
+/// Non-finite cells seen, shared by every reader of one raster; a row read twice (a
+/// second pass) is counted once.
+#[derive(Debug, Clone)]
+struct NonFiniteCount {
+    cells: Arc<AtomicU64>,
+    rows_seen: Arc<Mutex<Vec<bool>>>,
+}
+
+impl NonFiniteCount {
+    fn new(height: usize) -> Self {
+        NonFiniteCount {
+            cells: Arc::new(AtomicU64::new(0)),
+            rows_seen: Arc::new(Mutex::new(vec![false; height])),
+        }
+    }
+
+    /// Add the non-finite values of the strip at `y0` (`rows` rows of `width`), unless
+    /// the strip was counted before.
+    fn add<T: Copy>(
+        &self,
+        y0: usize,
+        rows: usize,
+        width: usize,
+        values: &[T],
+        finite: fn(T) -> bool,
+    ) {
+        let mut seen = self.rows_seen.lock().unwrap_or_else(|e| e.into_inner());
+        let mut n = 0u64;
+        for r in 0..rows {
+            if !std::mem::replace(&mut seen[y0 + r], true) {
+                let row = &values[r * width..(r + 1) * width];
+                n += row.iter().filter(|&&v| !finite(v)).count() as u64;
+            }
+        }
+        self.cells.fetch_add(n, Ordering::Relaxed);
+    }
+
+    /// Add `n` non-finite cells counted in the strip at `y0`, unless it was counted before.
+    fn add_strip(&self, y0: usize, rows: usize, n: u64) {
+        let mut seen = self.rows_seen.lock().unwrap_or_else(|e| e.into_inner());
+        if !seen[y0] {
+            seen[y0..y0 + rows].iter_mut().for_each(|r| *r = true);
+            self.cells.fetch_add(n, Ordering::Relaxed);
+        }
+    }
 }
 
 /// The range of values of an integer GDAL band type, `None` for float types.
@@ -133,9 +178,11 @@ impl SuitabilityRaster {
         let nodata = band.no_data_value();
         let band_type = band.band_type();
         let data_type = format!("{band_type:?}");
-        let range = integer_range(band_type);
+        use gdal::raster::GdalDataType as T;
+        // float32 holds these types exactly; wider ones are read as float64.
+        let fits_f32 = matches!(band_type, T::UInt8 | T::UInt16 | T::Int16 | T::Float32);
         let mut open_warnings = Vec::new();
-        if let (Some(nd), Some((lo, hi))) = (nodata, range) {
+        if let (Some(nd), Some((lo, hi))) = (nodata, integer_range(band_type)) {
             if nd.is_nan() || nd.fract() != 0.0 || nd < lo || nd > hi {
                 open_warnings.push(format!(
                     "{}: nodata value {nd} cannot occur in a {} band (values {lo}..{hi}), so no \
@@ -158,9 +205,8 @@ impl SuitabilityRaster {
             grid,
             nodata,
             data_type,
-            float: range.is_none(),
-            non_finite: AtomicU64::new(0),
-            scanned: Mutex::new(vec![false; h]),
+            fits_f32,
+            non_finite: NonFiniteCount::new(h),
             open_warnings,
         })
     }
@@ -169,7 +215,7 @@ impl SuitabilityRaster {
     /// met in the rows read so far (call after the pass).
     pub fn warnings(&self) -> Vec<String> {
         let mut w = self.open_warnings.clone();
-        let n = self.non_finite.load(Ordering::Relaxed);
+        let n = self.non_finite.cells.load(Ordering::Relaxed);
         if n > 0 {
             w.push(format!(
                 "{}: {n} cell(s) are NaN or infinite; they were treated as nodata",
@@ -177,25 +223,6 @@ impl SuitabilityRaster {
             ));
         }
         w
-    }
-
-    /// Count the non-finite values of rows `y0..` in `buf` not counted before.
-    fn count_non_finite(&self, y0: usize, rows: usize, buf: &[f64]) {
-        if !self.float {
-            return;
-        }
-        let w = self.grid.width;
-        let mut scanned = self.scanned.lock().unwrap_or_else(|e| e.into_inner());
-        let mut n = 0u64;
-        for r in 0..rows {
-            if !std::mem::replace(&mut scanned[y0 + r], true) {
-                n += buf[r * w..(r + 1) * w]
-                    .iter()
-                    .filter(|v| !v.is_finite())
-                    .count() as u64;
-            }
-        }
-        self.non_finite.fetch_add(n, Ordering::Relaxed);
     }
 
     /// The grid.
@@ -218,49 +245,260 @@ impl SuitabilityRaster {
         &self.data_type
     }
 
-    /// Whether `v` counts as data (finite and not the nodata value).
+    /// Whether `v` counts as data (finite and not the nodata value; on bands read as
+    /// float32 the comparison is at float32 precision, as in the strip pass).
     pub fn is_data(&self, v: f64) -> bool {
-        v.is_finite() && self.nodata.is_none_or(|nd| v != nd)
+        v.is_finite()
+            && self.nodata.is_none_or(|nd| if self.fits_f32 { v as f32 != nd as f32 } else { v != nd })
     }
 
     /// The value of each cell (row, col), `None` where it is nodata or non-finite.
-    /// Cells are read in row order so GDAL's block cache serves neighbours.
+    /// Cells are grouped by the band's natural blocks, so each block holding a record is
+    /// decoded once, whatever GDAL's cache size.
     pub fn sample(&self, cells: &[(usize, usize)]) -> Result<Vec<Option<f64>>> {
         let band = self
             .ds
             .rasterband(1)
             .map_err(Error::gdal(&self.path, "reading band 1"))?;
-        let mut order: Vec<usize> = (0..cells.len()).collect();
-        order.sort_by_key(|&i| cells[i]);
+        let (bw, bh) = band.block_size();
+        let (w, h) = (self.grid.width, self.grid.height);
+        let mut by_block: BTreeMap<(usize, usize), Vec<usize>> = BTreeMap::new();
+        for (i, &(r, c)) in cells.iter().enumerate() {
+            by_block.entry((r / bh, c / bw)).or_default().push(i);
+        }
         let mut out = vec![None; cells.len()];
-        let mut buf = [0f64; 1];
-        for i in order {
-            let (r, c) = cells[i];
-            band.read_into_slice::<f64>((c as isize, r as isize), (1, 1), (1, 1), &mut buf, None)
-                .map_err(Error::gdal(
-                    &self.path,
-                    format!("reading cell row {r}, col {c}"),
-                ))?;
-            out[i] = Some(buf[0]).filter(|&v| self.is_data(v));
+        let mut buf = Vec::new();
+        for ((by, bx), idx) in by_block {
+            let (x0, y0) = (bx * bw, by * bh);
+            let (cw, ch) = (bw.min(w - x0), bh.min(h - y0));
+            buf.resize(cw * ch, 0f64);
+            band.read_into_slice::<f64>(
+                (x0 as isize, y0 as isize),
+                (cw, ch),
+                (cw, ch),
+                &mut buf,
+                None,
+            )
+            .map_err(Error::gdal(
+                &self.path,
+                format!("reading the block at row {y0}, col {x0}"),
+            ))?;
+            for i in idx {
+                let (r, c) = cells[i];
+                out[i] = Some(buf[(r - y0) * cw + (c - x0)]).filter(|&v| self.is_data(v));
+            }
         }
         Ok(out)
     }
 
-    /// Read rows `y0 .. y0 + rows` into `buf` (resized to `width * rows`), row-major.
+    /// Read rows `y0 .. y0 + rows` into `buf` (resized to `width * rows`), row-major, as f64.
     pub fn read_rows(&self, y0: usize, rows: usize, buf: &mut Vec<f64>) -> Result<()> {
         let w = self.grid.width;
         buf.resize(w * rows, 0.0);
-        let band = self
-            .ds
-            .rasterband(1)
-            .map_err(Error::gdal(&self.path, "reading band 1"))?;
+        let band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "reading band 1"))?;
         band.read_into_slice::<f64>((0, y0 as isize), (w, rows), (w, rows), &mut buf[..], None)
-            .map_err(Error::gdal(
-                &self.path,
-                format!("reading rows {y0}..{}", y0 + rows),
-            ))?;
-        self.count_non_finite(y0, rows, buf);
+            .map_err(Error::gdal(&self.path, format!("reading rows {y0}..{}", y0 + rows)))?;
+        self.non_finite.add(y0, rows, w, buf, f64::is_finite);
         Ok(())
+    }
+
+    /// What a worker thread needs to open its own handle.
+    pub fn reader_spec(&self) -> ReaderSpec {
+        ReaderSpec {
+            path: self.path.clone(),
+            width: self.grid.width,
+            nodata: self.nodata,
+            as_f32: self.fits_f32,
+            non_finite: self.non_finite.clone(),
+        }
+    }
+}
+
+/// Enough to open a [`StripReader`] in another thread.
+#[derive(Debug, Clone)]
+pub struct ReaderSpec {
+    path: PathBuf,
+    width: usize,
+    nodata: Option<f64>,
+    as_f32: bool,
+    non_finite: NonFiniteCount,
+}
+
+impl ReaderSpec {
+    /// Open the file again for this thread.
+    pub fn open(&self) -> Result<StripReader> {
+        let ds = open_readonly(
+            &self.path,
+            GdalOpenFlags::GDAL_OF_RASTER,
+            "suitability raster",
+        )?;
+        Ok(StripReader {
+            path: self.path.clone(),
+            ds,
+            width: self.width,
+            nodata: self.nodata,
+            as_f32: self.as_f32,
+            non_finite: self.non_finite.clone(),
+        })
+    }
+}
+
+/// Reads and thresholds row strips; one per thread.
+pub struct StripReader {
+    path: PathBuf,
+    ds: Dataset,
+    width: usize,
+    nodata: Option<f64>,
+    as_f32: bool,
+    non_finite: NonFiniteCount,
+}
+
+/// Buffers a [`StripReader`] reuses between strips.
+#[derive(Debug, Default)]
+pub struct StripBuffers {
+    f32s: Vec<f32>,
+    f64s: Vec<f64>,
+}
+
+impl StripReader {
+    /// Read rows `y0 .. y0 + rows` and code each cell into `codes` (resized): 0 below
+    /// `t`, 1 at or above `t`, 255 nodata. Returns whether every data cell was exactly 0
+    /// or 1.
+    pub fn classify_rows(
+        &self,
+        y0: usize,
+        rows: usize,
+        t: f64,
+        bufs: &mut StripBuffers,
+        codes: &mut Vec<u8>,
+    ) -> Result<bool> {
+        let n = self.width * rows;
+        let band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "reading band 1"))?;
+        let what = || format!("reading rows {y0}..{}", y0 + rows);
+        codes.resize(n, 0);
+        let mut non_finite = 0u64;
+        let binary = if self.as_f32 {
+            bufs.f32s.resize(n, 0.0);
+            band.read_into_slice::<f32>((0, y0 as isize), (self.width, rows), (self.width, rows), &mut bufs.f32s, None)
+                .map_err(Error::gdal(&self.path, what()))?;
+            code_cells_f32(&bufs.f32s, codes, t, self.nodata, &mut non_finite)
+        } else {
+            bufs.f64s.resize(n, 0.0);
+            band.read_into_slice::<f64>((0, y0 as isize), (self.width, rows), (self.width, rows), &mut bufs.f64s, None)
+                .map_err(Error::gdal(&self.path, what()))?;
+            code_cells_f64(&bufs.f64s, codes, t, self.nodata, &mut non_finite)
+        };
+        self.non_finite.add_strip(y0, rows, non_finite);
+        Ok(binary)
+    }
+}
+
+/// The smallest f32 `t32` with `v >= t32` exactly when `v as f64 >= t`, for every f32 `v`.
+fn f32_threshold(t: f64) -> f32 {
+    if t.is_nan() {
+        return f32::NAN;
+    }
+    let mut t32 = t as f32; // round to nearest
+    if (t32 as f64) < t {
+        t32 = t32.next_up();
+    }
+    t32
+}
+
+/// Code float32 cells (branch-free, so the loop vectorises); returns whether all data
+/// cells are 0 or 1, and adds the NaN/inf cells to `non_finite`.
+fn code_cells_f32(
+    values: &[f32],
+    codes: &mut [u8],
+    t: f64,
+    nodata: Option<f64>,
+    non_finite: &mut u64,
+) -> bool {
+    let t32 = f32_threshold(t);
+    // As GDAL does for float32 bands, the nodata value is taken at float32 precision.
+    let nd = nodata.map(|v| v as f32).unwrap_or(f32::NAN);
+    let mut not_binary = 0u32;
+    let mut nf = 0u32;
+    for (&v, k) in values.iter().zip(codes.iter_mut()) {
+        let inf_or_nan = !v.is_finite();
+        nf += inf_or_nan as u32;
+        let missing = inf_or_nan | (v == nd);
+        not_binary |= (!missing & (v != 0.0) & (v != 1.0)) as u32;
+        *k = if missing { class::NODATA } else { (v >= t32) as u8 };
+    }
+    *non_finite += nf as u64;
+    not_binary == 0
+}
+
+/// Code float64 cells; returns whether all data cells are 0 or 1, and adds the NaN/inf
+/// cells to `non_finite`.
+fn code_cells_f64(
+    values: &[f64],
+    codes: &mut [u8],
+    t: f64,
+    nodata: Option<f64>,
+    non_finite: &mut u64,
+) -> bool {
+    let nd = nodata.unwrap_or(f64::NAN); // NaN never equals: no nodata value
+    let mut not_binary = 0u32;
+    let mut nf = 0u32;
+    for (&v, k) in values.iter().zip(codes.iter_mut()) {
+        let inf_or_nan = !v.is_finite();
+        nf += inf_or_nan as u32;
+        let missing = inf_or_nan | (v == nd);
+        not_binary |= (!missing & (v != 0.0) & (v != 1.0)) as u32;
+        *k = if missing { class::NODATA } else { (v >= t) as u8 };
+    }
+    *non_finite += nf as u64;
+    not_binary == 0
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn f32_threshold_is_exact_for_every_neighbour() {
+        // For thresholds that are and are not f32 values, the f32 comparison must agree
+        // with the f64 one on the f32 values around T.
+        for t in [0.12f64, 0.12f32 as f64, 0.5, 1.0 / 3.0, -0.0, 1e-40, 3.4e38] {
+            let t32 = f32_threshold(t);
+            let mut v = (t as f32).next_down().next_down();
+            for _ in 0..5 {
+                assert_eq!(v >= t32, v as f64 >= t, "t = {t}, v = {v}");
+                v = v.next_up();
+            }
+        }
+    }
+
+    #[test]
+    fn cells_are_coded_with_nodata_nan_and_inf() {
+        // CHECKS.md section 5: cells [0.1165, 0.118, 0.12, 0.13] with T = 0.12 -> [0, 0, 1, 1].
+        let v = [0.1165f32, 0.118, 0.12, 0.13, -9999.0, f32::NAN, f32::INFINITY, f32::NEG_INFINITY];
+        let mut k = [9u8; 8];
+        let mut nf = 0;
+        let binary = code_cells_f32(&v, &mut k, 0.12f32 as f64, Some(-9999.0), &mut nf);
+        assert_eq!(k, [0, 0, 1, 1, 255, 255, 255, 255]);
+        assert!(!binary);
+        assert_eq!(nf, 3, "NaN, +inf and -inf");
+        let v64: Vec<f64> = v.iter().map(|&x| x as f64).collect();
+        let mut k64 = [9u8; 8];
+        let mut nf64 = 0;
+        code_cells_f64(&v64, &mut k64, 0.12f32 as f64, Some(-9999.0), &mut nf64);
+        assert_eq!(k64, k);
+        assert_eq!(nf64, 3);
+        let mut kb = [9u8; 4];
+        let kb_binary = code_cells_f32(&[0.0, 1.0, -9999.0, 1.0], &mut kb, 0.5, Some(-9999.0), &mut nf);
+        assert!(kb_binary);
+    }
+
+    #[test]
+    fn float32_nodata_is_compared_at_float32_precision() {
+        // A Float32 band with nodata "0.1": its cells hold 0.1f32 (0.100000001...), which
+        // GDAL treats as nodata (the nodata value is cast to the band type; from memory).
+        let mut k = [9u8; 2];
+        code_cells_f32(&[0.1, 0.9], &mut k, 0.5, Some(0.1), &mut 0);
+        assert_eq!(k, [255, 1]);
     }
 }
 
@@ -347,19 +585,14 @@ impl ClassWriter {
         })
     }
 
-    /// Write rows starting at `y0`; `rows` holds whole rows.
-    pub fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<()> {
+    /// Write rows starting at `y0`; `rows` holds whole rows. Returns the buffer for reuse.
+    pub fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         let n = rows.len() / self.width;
-        let mut band = self
-            .ds
-            .rasterband(1)
-            .map_err(output_error(&self.path, "opening band 1".into()))?;
+        let mut band = self.ds.rasterband(1).map_err(output_error(&self.path, "opening band 1".into()))?;
         let mut buf = gdal::raster::Buffer::new((self.width, n), rows);
         band.write((0, y0 as isize), (self.width, n), &mut buf)
-            .map_err(output_error(
-                &self.path,
-                format!("writing rows {y0}..{}", y0 + n),
-            ))
+            .map_err(output_error(&self.path, format!("writing rows {y0}..{}", y0 + n)))?;
+        Ok(buf.into_shape_and_vec().1)
     }
 
     /// Flush and close.

@@ -69,6 +69,39 @@ pub(crate) struct PointBuffer {
     /// Spherical angle within which every point is within D (radians).
     sigma_in: f64,
     intervals: Vec<(usize, usize)>,
+    sides: Vec<Side>,
+}
+
+/// The columns of one side of a point's circle on one row: column `c0 + step * j` for
+/// j = `j_a`.. moves away from the point's meridian; j < `lo` are certainly within D,
+/// j >= `hi` certainly not, and j in `lo..hi` need the exact distance.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Side {
+    i: usize,
+    c0: i64,
+    step: i64,
+    j_a: i64,
+    lo: i64,
+    hi: i64,
+}
+
+/// Sort and merge overlapping or touching column intervals in place.
+fn merge_intervals(v: &mut Vec<(usize, usize)>) {
+    v.sort_unstable();
+    let mut out: Vec<(usize, usize)> = Vec::with_capacity(v.len());
+    for &(a, b) in v.iter() {
+        match out.last_mut() {
+            Some(last) if a <= last.1 + 1 => last.1 = last.1.max(b),
+            _ => out.push((a, b)),
+        }
+    }
+    *v = out;
+}
+
+/// Whether columns a..=b all lie in the merged intervals `v`.
+fn covered(v: &[(usize, usize)], a: usize, b: usize) -> bool {
+    let k = v.partition_point(|&(_, hi)| hi < a);
+    k < v.len() && v[k].0 <= a && v[k].1 >= b
 }
 
 impl PointBuffer {
@@ -91,6 +124,7 @@ impl PointBuffer {
             sigma_out: d_m / m_min() * (1.0 + 1e-9) + 1e-12,
             sigma_in: d_m / m_max() * (1.0 - 1e-9),
             intervals: Vec::new(),
+            sides: Vec::new(),
         }
     }
 
@@ -136,15 +170,57 @@ impl PointBuffer {
         let env = AABB::from_corners([-2.0, -2.0, z_lo - 1e-15], [2.0, 2.0, z_hi + 1e-15]);
         let cands: Vec<usize> = self.tree.locate_in_envelope(&env).map(|p| p.data).collect();
         let mut intervals = std::mem::take(&mut self.intervals);
+        let mut sides = std::mem::take(&mut self.sides);
         intervals.clear();
+        sides.clear();
         let (sp, cp) = lat.to_radians().sin_cos();
         for i in cands {
-            if self.record_row(grid, lat, (sp, cp), i, &mut intervals) {
+            if self.record_row(grid, lat, (sp, cp), i, &mut sides) {
                 intervals.clear();
                 intervals.push((0, w - 1));
+                sides.clear();
                 break;
             }
         }
+        let (x0, dx) = (grid.geo_transform[0], grid.geo_transform[1]);
+        let centre = |c: i64| x0 + (c as f64 + 0.5) * dx;
+        // Columns certainly inside (within the inner spherical bound of some point).
+        let span = |sd: &Side, from: i64, to: i64| {
+            let (a, b) = (sd.c0 + sd.step * from, sd.c0 + sd.step * (to - 1));
+            (a.min(b) as usize, a.max(b) as usize)
+        };
+        let mut inner: Vec<(usize, usize)> = sides
+            .iter()
+            .filter(|sd| sd.lo > sd.j_a)
+            .map(|sd| span(sd, sd.j_a, sd.lo))
+            .collect();
+        merge_intervals(&mut inner);
+        // Only the columns between the bounds need the exact distance, and not even those
+        // when other points' inner discs already cover them (clustered records).
+        for sd in &sides {
+            let mut n = sd.lo;
+            if sd.hi > sd.lo {
+                let (a, b) = span(sd, sd.lo, sd.hi);
+                if covered(&inner, a, b) {
+                    n = sd.hi;
+                } else {
+                    let (mut lo, mut hi) = (sd.lo, sd.hi);
+                    while lo < hi {
+                        let mid = (lo + hi + 1) / 2;
+                        if self.within(lat, centre(sd.c0 + sd.step * (mid - 1)), sd.i) {
+                            lo = mid;
+                        } else {
+                            hi = mid - 1;
+                        }
+                    }
+                    n = lo;
+                }
+            }
+            if n > sd.j_a {
+                intervals.push(span(sd, sd.j_a, n));
+            }
+        }
+        self.sides = sides;
         intervals.sort_unstable();
         let mut filled_to = 0usize; // first column not yet filled
         for &(a, b) in &intervals {
@@ -158,14 +234,16 @@ impl PointBuffer {
         self.intervals = intervals;
     }
 
-    /// Push the column intervals of `row` covered by point `i`; true when the whole row is.
+    /// Push the sides of point `i`'s circle on `row` (runs of columns growing away from
+    /// the point's meridian, with what the spherical bounds settle); true when the whole
+    /// row is covered.
     fn record_row(
         &self,
         grid: &GridSpec,
         lat: f64,
         (sp, cp): (f64, f64),
         i: usize,
-        intervals: &mut Vec<(usize, usize)>,
+        sides: &mut Vec<Side>,
     ) -> bool {
         let (plat, plon) = self.pts[i];
         let (spr, cpr) = plat.to_radians().sin_cos();
@@ -241,20 +319,14 @@ impl PointBuffer {
                 if lo > hi {
                     continue;
                 }
-                // Binary search for the count of columns within D (distance grows with j).
-                let (mut lo, mut hi) = (lo, hi);
-                while lo < hi {
-                    let mid = (lo + hi + 1) / 2;
-                    if self.within(lat, centre(c0 + step * (mid - 1)), i) {
-                        lo = mid;
-                    } else {
-                        hi = mid - 1;
-                    }
-                }
-                if lo > j_a {
-                    let (a, b) = (c0 + step * j_a, c0 + step * (lo - 1));
-                    intervals.push((a.min(b) as usize, a.max(b) as usize));
-                }
+                sides.push(Side {
+                    i,
+                    c0,
+                    step,
+                    j_a,
+                    lo,
+                    hi,
+                });
             }
         }
         false

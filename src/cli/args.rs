@@ -20,6 +20,8 @@ pub(crate) enum Command {
     /// Threshold the suitability raster, restrict it to the accessible area M, label
     /// patches and measure them in true area.
     Range(RangeArgs),
+    /// Write the vector outputs (range.gpkg, GeoJSON) of an earlier `areal range` run.
+    Polygons(PolygonsArgs),
 }
 
 #[derive(clap::Args, Debug)]
@@ -73,9 +75,104 @@ pub(crate) struct RangeArgs {
     /// Print summary.json on stdout instead of the readable summary.
     #[arg(long)]
     pub json: bool,
-    /// Do not repeat the warnings on stderr (they stay in summary.json).
+    /// No progress bars and no warnings on stderr (warnings stay in summary.json; progress
+    /// bars are off anyway when stderr is not a terminal).
     #[arg(long)]
     pub quiet: bool,
+    #[command(flatten)]
+    pub vectors: VectorArgs,
+}
+
+/// Options of the vector outputs, shared by `range` and `polygons`.
+#[derive(clap::Args, Debug)]
+pub(crate) struct VectorArgs {
+    /// Also write range.gpkg (raster CRS) and RFC 7946 GeoJSON files of the range, its patches,
+    /// the unreachable patches, M and the records.
+    #[arg(long)]
+    pub vectors: bool,
+    /// Also write range-equal-area.gpkg in an equal-area CRS: without a value EPSG:6933 for
+    /// global extents, else a Lambert azimuthal equal-area centred on the data.
+    #[arg(long, value_name = "CRS", num_args = 0..=1, default_missing_value = "auto")]
+    pub vector_crs: Option<String>,
+    /// Simplify polygon boundaries by up to M metres (topology-preserving; off by default).
+    #[arg(long, value_name = "M", allow_negative_numbers = true)]
+    pub simplify_m: Option<f64>,
+}
+
+impl VectorArgs {
+    pub(crate) fn to_options(&self) -> areal::vectors::VectorOptions {
+        areal::vectors::VectorOptions {
+            equal_area: self.vector_crs.as_ref().map(|c| {
+                if c.eq_ignore_ascii_case("auto") {
+                    areal::vectors::VectorCrs::Auto
+                } else {
+                    areal::vectors::VectorCrs::Given(c.clone())
+                }
+            }),
+            simplify_m: self.simplify_m,
+            ..Default::default()
+        }
+    }
+}
+
+#[derive(clap::Args, Debug)]
+pub(crate) struct PolygonsArgs {
+    /// classes.tif of an earlier run (its patches.csv, summary.json and records.csv beside it).
+    #[arg(long, value_name = "FILE")]
+    pub classes: PathBuf,
+    /// The run's M polygon file, to rebuild M as the run used it.
+    #[arg(long, value_name = "FILE")]
+    pub accessible: Option<PathBuf>,
+    /// The run's --buffer-km.
+    #[arg(long, value_name = "D", allow_negative_numbers = true)]
+    pub buffer_km: Option<f64>,
+    /// The run's --hull-buffer-km.
+    #[arg(long, value_name = "D", allow_negative_numbers = true)]
+    pub hull_buffer_km: Option<f64>,
+    /// Patch connectivity, only for a summary.json that does not record it.
+    #[arg(long, value_name = "8|4", value_parser = ["8", "4"])]
+    pub connectivity: Option<String>,
+    /// Output folder (created; replaced only with --overwrite).
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Replace an existing output folder written by areal.
+    #[arg(long)]
+    pub overwrite: bool,
+    /// Also write range-equal-area.gpkg (see `areal range --vector-crs`).
+    #[arg(long, value_name = "CRS", num_args = 0..=1, default_missing_value = "auto")]
+    pub vector_crs: Option<String>,
+    /// Simplify polygon boundaries by up to M metres (topology-preserving; off by default).
+    #[arg(long, value_name = "M", allow_negative_numbers = true)]
+    pub simplify_m: Option<f64>,
+}
+
+impl PolygonsArgs {
+    pub(crate) fn access(&self) -> AccessSpec {
+        AccessSpec {
+            polygon: self.accessible.clone(),
+            buffer_km: self.buffer_km,
+            hull_buffer_km: self.hull_buffer_km,
+        }
+    }
+
+    pub(crate) fn connectivity(&self) -> Option<Connectivity> {
+        self.connectivity.as_deref().map(|c| {
+            if c == "4" {
+                Connectivity::Four
+            } else {
+                Connectivity::Eight
+            }
+        })
+    }
+
+    pub(crate) fn vector_options(&self) -> areal::vectors::VectorOptions {
+        VectorArgs {
+            vectors: true,
+            vector_crs: self.vector_crs.clone(),
+            simplify_m: self.simplify_m,
+        }
+        .to_options()
+    }
 }
 
 impl RangeArgs {
@@ -104,6 +201,11 @@ impl RangeArgs {
                 crs: self.records_crs.clone(),
                 layer: self.records_layer.clone(),
             },
+            progress: crate::cli::progress::bar(self.quiet),
+            vectors: (self.vectors.vectors
+                || self.vectors.vector_crs.is_some()
+                || self.vectors.simplify_m.is_some())
+            .then(|| self.vectors.to_options()),
         })
     }
 }

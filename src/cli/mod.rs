@@ -5,12 +5,14 @@
 //! could not be completed on accepted inputs); 101 an internal error (a panic: a bug).
 //!
 //! stderr carries one `areal: error: ...` line on failure, and on success one
-//! `areal: warning: ...` line per warning of summary.json (unless `--quiet`). GDAL's own
+//! `areal: warning: ...` line per warning of summary.json (unless `--quiet`, which also
+//! turns off the progress bars). GDAL's own
 //! messages are routed through a handler: its failures are kept and, when a run fails,
 //! the last one is added to the error line if our message does not already hold it; its warnings are
 //! printed once each as `areal: GDAL warning: ...` (unless `--quiet`).
 
 mod args;
+pub(crate) mod progress;
 
 use args::{Cli, Command};
 use clap::Parser;
@@ -59,8 +61,13 @@ pub(crate) fn main() -> ExitCode {
     report_panics_as_bugs();
     route_gdal_messages();
     let cli = Cli::parse();
+    // areal reads each block once, in strips; a large block cache only costs memory.
+    if std::env::var_os("GDAL_CACHEMAX").is_none() {
+        let _ = gdal::config::set_config_option("GDAL_CACHEMAX", "32");
+    }
     let quiet = match &cli.command {
         Command::Range(a) => a.quiet,
+        Command::Polygons(_) => false,
     };
     let result = run(cli);
     let gdal = gdal_messages();
@@ -106,6 +113,28 @@ fn run(cli: Cli) -> areal::Result<()> {
                 write!(out, "{}", result.summary.to_text())
                     .and_then(|_| writeln!(out, "  outputs         {}", a.out.display()))
             };
+            Ok(())
+        }
+        Command::Polygons(a) => {
+            let r = areal::vectors::run_polygons(
+                &a.classes,
+                &a.access(),
+                a.connectivity(),
+                &a.vector_options(),
+                &a.out,
+                a.overwrite,
+            )?;
+            let mut out = std::io::stdout().lock();
+            let mut text = format!(
+                "areal polygons: {} patch(es), {} unreachable, {} record(s)\n",
+                r.patches, r.unreachable, r.records
+            );
+            if let Some(c) = &r.equal_area_crs {
+                text += &format!("  equal-area CRS  {c}\n");
+            }
+            text += &format!("  files           {}\n", r.files.join(", "));
+            text += &format!("  outputs         {}\n", a.out.display());
+            let _ = out.write_all(text.as_bytes());
             Ok(())
         }
     }

@@ -1,5 +1,6 @@
 //! Hostile suitability rasters.
 
+use super::common;
 use super::fixture::*;
 
 #[test]
@@ -200,4 +201,77 @@ fn missing_raster_file_is_refused_naming_it() {
     c.suitability = c.path("nope.tif");
     let o = c.run(&["--omission", "0"]);
     c.refused(&o, 3, &["nope.tif: suitability raster not found"]);
+}
+
+#[test]
+fn geotiff_with_a_corrupt_first_strip_is_refused_without_hanging() {
+    use gdal::Metadata;
+    let c = Case::new();
+    // 16 strips of 256 rows; the tiles of the first strip are overwritten with garbage, so
+    // decoding fails there while the later strips decode (and queue up) fine.
+    let (w, h) = (512, 4096);
+    let v: Vec<f32> = (0..w * h)
+        .map(|i| ((i * 7919) % 1000) as f32 / 1000.0)
+        .collect();
+    write_typed(
+        &c.suitability,
+        w,
+        h,
+        [-5.0, 10.0 / w as f64, 0.0, 50.0, 0.0, -10.0 / h as f64],
+        Some(4326),
+        Some(-9999.0),
+        &v,
+        &["TILED=YES", "COMPRESS=DEFLATE"],
+    );
+    let offsets: Vec<u64> = {
+        let ds = gdal::Dataset::open(&c.suitability).unwrap();
+        let band = ds.rasterband(1).unwrap();
+        (0..2)
+            .map(|bx| {
+                band.metadata_item(&format!("BLOCK_OFFSET_{bx}_0"), "TIFF")
+                    .unwrap()
+                    .parse()
+                    .unwrap()
+            })
+            .collect()
+    };
+    let mut bytes = std::fs::read(&c.suitability).unwrap();
+    for off in offsets {
+        for b in &mut bytes[off as usize..off as usize + 64] {
+            *b = 0xA5;
+        }
+    }
+    std::fs::write(&c.suitability, bytes).unwrap();
+    let mut child = common::areal()
+        .env("AREAL_THREADS", "2")
+        .args([
+            "range",
+            "--suitability",
+            c.suitability.to_str().unwrap(),
+            "--records",
+            c.records.to_str().unwrap(),
+            "--threshold",
+            "0.5",
+            "--out",
+            c.out.to_str().unwrap(),
+        ])
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let deadline = std::time::Instant::now() + std::time::Duration::from_secs(60);
+    while child.try_wait().unwrap().is_none() {
+        if std::time::Instant::now() > deadline {
+            child.kill().unwrap();
+            panic!("areal hung on a strip that fails to decode");
+        }
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    let o = child.wait_with_output().unwrap();
+    let o = Outcome {
+        code: o.status.code(),
+        stdout: String::new(),
+        stderr: String::from_utf8_lossy(&o.stderr).into_owned(),
+    };
+    c.refused(&o, 3, &["suitability.tif", "reading rows 0..256"]);
 }

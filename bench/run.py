@@ -1,0 +1,132 @@
+#!/usr/bin/env python3
+"""Benchmark runner: the GDAL decode floor, areal, and the numpy/scipy/rasterio peer on
+the same inputs, each under /usr/bin/time -v, side by side in one run.
+
+  bench/run.py [--sizes S,M,L] [--modes polygon,buffer] [--out docs/bench-results.md]
+
+Inputs come from ../shared/tools/make-landscape.py (seed 42; L with 10,000 points) into
+bench-data/ and are reused when present. The peer runs under an address-space limit
+(--peer-limit-gb, default 20) so that it fails cleanly instead of exhausting the machine.
+"""
+import argparse
+import json
+import os
+import platform
+import re
+import subprocess
+import sys
+import time
+
+ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+DATA = os.path.join(ROOT, "bench-data")
+PY = os.path.join(ROOT, ".venv", "bin", "python")
+GEN = os.path.join(ROOT, "..", "shared", "tools", "make-landscape.py")
+AREAL = os.path.join(ROOT, "target", "release", "areal")
+FLOOR = os.path.join(ROOT, "target", "release", "examples", "decode_floor")
+POINTS = {"tiny": None, "S": None, "M": None, "L": "10000"}
+
+
+def timed(cmd, limit_kb=None, env=None):
+    """Run cmd under /usr/bin/time -v; return (ok, wall_s, peak_rss_mb, stdout, stderr_tail)."""
+    pre = f"ulimit -v {limit_kb}; " if limit_kb else ""
+    shell = pre + "exec /usr/bin/time -v " + " ".join(f"'{c}'" for c in cmd)
+    p = subprocess.run(["bash", "-c", shell], capture_output=True, text=True, env=env)
+    err = p.stderr
+    m = re.search(r"Elapsed \(wall clock\) time \(h:mm:ss or m:ss\): (\S+)", err)
+    parts = [float(x) for x in m.group(1).split(":")] if m else [float("nan")]
+    wall = sum(v * 60 ** i for i, v in enumerate(reversed(parts)))
+    rss = re.search(r"Maximum resident set size \(kbytes\): (\d+)", err)
+    rss_mb = int(rss.group(1)) / 1024 if rss else float("nan")
+    tail = "\n".join(l for l in err.splitlines() if "Command being timed" not in l)[-400:]
+    return p.returncode == 0, wall, rss_mb, p.stdout, tail
+
+
+def ensure_inputs(size):
+    prefix = os.path.join(DATA, size)
+    if not os.path.exists(prefix + ".tif"):
+        os.makedirs(DATA, exist_ok=True)
+        cmd = [PY, GEN, "--preset", size, "--seed", "42", "--out", prefix, "--quiet"]
+        if POINTS[size]:
+            cmd += ["--points", POINTS[size]]
+        print("generating", size, file=sys.stderr)
+        subprocess.run(cmd, check=True)
+    return prefix
+
+
+def main():
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--sizes", default="S")
+    ap.add_argument("--modes", default="polygon,buffer")
+    ap.add_argument("--buffer-km", default="200")
+    ap.add_argument("--out", default=os.path.join(ROOT, "docs", "bench-results.md"))
+    ap.add_argument("--peer-limit-gb", type=float, default=20.0)
+    ap.add_argument("--no-peer", action="store_true")
+    a = ap.parse_args()
+    rows = []
+    env = dict(os.environ)
+    env.setdefault("GDAL_CACHEMAX", "32")
+    for size in a.sizes.split(","):
+        prefix = ensure_inputs(size)
+        tif, occ, m = prefix + ".tif", prefix + ".occ.csv", prefix + ".m.geojson"
+        ok, floor_s, floor_mb, _, tail = timed([FLOOR, tif, "2"], env=env)
+        if not ok:
+            sys.exit("decode floor failed: " + tail)
+        rows.append((size, "-", "GDAL decode floor (2 threads)", floor_s, floor_mb, 1.0, None, None))
+        for mode in a.modes.split(","):
+            marg = ["--accessible", m] if mode == "polygon" else ["--buffer-km", a.buffer_km]
+            out = os.path.join(DATA, f"out-{size}-{mode}")
+            ok, s, mb, stdout, tail = timed([AREAL, "range", "--suitability", tif, "--records", occ,
+                                            "--omission", "5", *marg, "--out", out, "--overwrite", "--json"])
+            if not ok:
+                sys.exit(f"areal failed on {size} {mode}: {tail}")
+            summary = json.loads(stdout)
+            peer = None
+            if not a.no_peer:
+                pout = os.path.join(DATA, f"peer-{size}-{mode}")
+                pm = ["--accessible", m] if mode == "polygon" else ["--buffer-km", a.buffer_km]
+                pok, ps, pmb, pstdout, ptail = timed([PY, os.path.join(ROOT, "bench", "peer.py"), tif, occ, pout, *pm],
+                                                     limit_kb=int(a.peer_limit_gb * 1024 * 1024))
+                peer = (pok, ps, pmb, ptail)
+                if pok:
+                    pj = json.loads(pstdout.strip().splitlines()[-1])
+                    agree = abs(pj["inside_km2"] - summary["area_km2"]["inside_accessible"]) / max(1.0, pj["inside_km2"])
+                    print(f"{size} {mode}: peer inside {pj['inside_km2']:.1f} km2, areal "
+                          f"{summary['area_km2']['inside_accessible']:.1f} km2 (rel. diff {agree:.2e})", file=sys.stderr)
+            rows.append((size, mode, "areal", s, mb, s / floor_s, peer, None))
+            if peer:
+                pok, ps, pmb, ptail = peer
+                label = "numpy/scipy/rasterio peer" + ("" if pok else f" (FAILED: {ptail.splitlines()[-1] if ptail else '?'})")
+                rows.append((size, mode, label, ps, pmb, ps / floor_s, None, None))
+    write_table(a.out, rows)
+
+
+def write_table(path, rows):
+    cpu = "unknown CPU"
+    try:
+        with open("/proc/cpuinfo") as f:
+            cpu = next(l.split(":", 1)[1].strip() for l in f if l.startswith("model name"))
+    except Exception:
+        pass
+    mem = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES") / 2**30
+    lines = [
+        "| size | mode | program | wall s | peak RSS MB | wall / floor | peer wall / areal wall | peer RSS / areal RSS |",
+        "|---|---|---|---:|---:|---:|---:|---:|",
+    ]
+    for size, mode, prog, s, mb, rf, peer, _ in rows:
+        pr = rm = ""
+        if peer and peer[0]:
+            pr, rm = f"{peer[1] / s:.2f}", f"{peer[2] / mb:.1f}"
+        elif peer:
+            pr, rm = "peer failed", "peer failed"
+        lines.append(f"| {size} | {mode} | {prog} | {s:.2f} | {mb:.0f} | {rf:.2f} | {pr} | {rm} |")
+    text = "\n".join(lines) + "\n"
+    header = (f"Run {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())} on {platform.node()}: {os.cpu_count()} cores "
+              f"({cpu}), {mem:.0f} GiB, {platform.system()} {platform.release()}.\n\n")
+    with open(path + ".tmp", "w") as f:
+        f.write(header + text)
+    os.replace(path + ".tmp", path)
+    print(header + text)
+
+
+if __name__ == "__main__":
+    main()

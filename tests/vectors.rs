@@ -1,0 +1,487 @@
+//! End to end: `areal range --vectors` and `areal polygons`, read back through GDAL.
+//!
+//! Outside checks: geodesic polygon areas from GeographicLib (geographiclib-rs, Karney 2013)
+//! against the cell-area sums of patches.csv (closed form, CHECKS.md section 2); GEOS validity
+//! through GDAL; RFC 7946 winding (section 3.1.6) and antimeridian cutting (section 3.1.9)
+//! checked on the GeoJSON text itself; EPSG:6933 is equal-area on WGS84 (CHECKS.md section 6).
+
+mod common;
+mod vectors_common;
+use common::*;
+use vectors_common::*;
+
+use gdal::vector::LayerAccess;
+use std::path::Path;
+
+#[test]
+fn layers_fields_counts_validity_and_areas_on_a_lonlat_grid() {
+    let t = tempfile::tempdir().unwrap();
+    let out = regional_run(t.path(), &["--vectors"]);
+    let summary = json(&out.join("summary.json"));
+    let (ph, prows) = read_csv(&out.join("patches.csv"));
+    let (rh, rrows) = read_csv(&out.join("records.csv"));
+    let n2 = prows.iter().filter(|r| r[col(&ph, "class")] == "2").count();
+    assert!(
+        n2 >= 2 && prows.len() >= 8,
+        "fixture has class-2 patches and several patches"
+    );
+
+    let layers = read_gpkg(&out.join("range.gpkg"));
+    let names: Vec<&str> = layers.iter().map(|l| l.name.as_str()).collect();
+    assert_eq!(
+        names,
+        ["range", "patches", "unreachable", "accessible", "records"]
+    );
+    let by = |n: &str| layers.iter().find(|l| l.name == n).unwrap();
+    assert_eq!(by("range").features.len(), 1);
+    assert_eq!(by("patches").features.len(), prows.len());
+    assert_eq!(by("unreachable").features.len(), n2);
+    assert_eq!(by("accessible").features.len(), 1);
+    assert_eq!(by("records").features.len(), rrows.len());
+    for h in &ph {
+        assert!(by("patches").fields.contains(h), "patches lacks {h}");
+        assert!(
+            by("unreachable").fields.contains(h),
+            "unreachable lacks {h}"
+        );
+    }
+    assert!(by("unreachable")
+        .fields
+        .contains(&"distance_km".to_string()));
+    for h in &rh {
+        assert!(by("records").fields.contains(h), "records lacks {h}");
+    }
+    for l in &layers {
+        for f in &l.features {
+            assert!(
+                f.valid,
+                "invalid geometry in layer {} ({:?})",
+                l.name, f.attrs
+            );
+        }
+    }
+
+    // Geodesic area of every patch polygon = its area_km2 (GeographicLib, parallels densified
+    // to 0.002 degree: the chord-vs-parallel error is below 1e-7 here, see area_km2_geodesic).
+    let ia = col(&ph, "area_km2");
+    for (f, row) in by("patches").features.iter().zip(&prows) {
+        assert_eq!(f.attrs["patch_id"], row[col(&ph, "patch_id")]);
+        let want: f64 = row[ia].parse().unwrap();
+        let got = area_km2_geodesic(&f.polygons);
+        assert!(rel(got, want) < 1e-6, "patch {}: {got} vs {want}", row[0]);
+    }
+    let inside = summary["area_km2"]["inside_accessible"].as_f64().unwrap();
+    let range = &by("range").features[0];
+    assert!(rel(area_km2_geodesic(&range.polygons), inside) < 1e-6);
+    assert!(rel(range.attrs["area_km2"].parse().unwrap(), inside) < 1e-12);
+    let m = summary["area_km2"]["accessible"].as_f64().unwrap();
+    assert!(rel(area_km2_geodesic(&by("accessible").features[0].polygons), m) < 1e-6);
+
+    // records: dropped_by_threshold is exactly the below-threshold status.
+    let st = col(&rh, "status");
+    for (f, row) in by("records").features.iter().zip(&rrows) {
+        let dropped = f.attrs["dropped_by_threshold"] == "1";
+        assert_eq!(dropped, row[st] == "below_threshold");
+    }
+    assert!(rrows.iter().any(|r| r[st] == "below_threshold"));
+
+    // Pixel edges by default: every vertex is a cell corner of the 0.25 degree grid.
+    for f in &by("patches").features {
+        for ring in f.polygons.iter().flatten() {
+            for &(x, y) in ring {
+                assert!(((x - 10.0) * 4.0 - ((x - 10.0) * 4.0).round()).abs() < 1e-9);
+                assert!(((50.0 - y) * 4.0 - ((50.0 - y) * 4.0).round()).abs() < 1e-9);
+            }
+        }
+    }
+
+    // Unreachable distances: the nearest class-1 cell centre, by brute force over all class-1
+    // cells with GeographicLib (the module uses boundary cells and an R-tree).
+    let (w, _h, classes) = read_u8(&out.join("classes.tif"));
+    let centre = |i: usize| {
+        (
+            10.0 + 0.25 * ((i % w) as f64 + 0.5),
+            50.0 - 0.25 * ((i / w) as f64 + 0.5),
+        )
+    };
+    let ones: Vec<(f64, f64)> = (0..classes.len())
+        .filter(|&i| classes[i] == 1)
+        .map(centre)
+        .collect();
+    let labels = label_cells(&classes, w);
+    for f in &by("unreachable").features {
+        let id: u32 = f.attrs["patch_id"].parse().unwrap();
+        let mut best = f64::INFINITY;
+        for i in (0..classes.len()).filter(|&i| labels[i] == id) {
+            for &q in &ones {
+                best = best.min(geodesic_m(centre(i), q));
+            }
+        }
+        let got: f64 = f.attrs["distance_km"].parse().unwrap();
+        assert!(
+            (got - best / 1000.0).abs() < 1e-9,
+            "patch {id}: {got} vs {}",
+            best / 1000.0
+        );
+    }
+}
+
+#[test]
+fn geojson_is_rfc7946_lonlat_ccw_and_rounded() {
+    let t = tempfile::tempdir().unwrap();
+    let out = regional_run(t.path(), &["--vectors"]);
+    let (ph, prows) = read_csv(&out.join("patches.csv"));
+    for name in ["range", "patches", "unreachable", "accessible", "records"] {
+        let path = out.join(format!("{name}.geojson"));
+        let text = std::fs::read_to_string(&path).unwrap();
+        let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+        assert_eq!(v["type"], "FeatureCollection");
+        // RFC 7946 section 4: no "crs" member.
+        assert!(v.get("crs").is_none(), "{name} has a crs member");
+        for f in v["features"].as_array().unwrap() {
+            for poly in polygons_of_geojson(&f["geometry"]) {
+                check_winding(&poly, name);
+            }
+        }
+        assert_decimals_at_most(&text, areal::vectors::GEOJSON_DECIMALS, name);
+    }
+    let v = json(&out.join("patches.geojson"));
+    let feats = v["features"].as_array().unwrap();
+    assert_eq!(feats.len(), prows.len());
+    let ia = col(&ph, "area_km2");
+    for (f, row) in feats.iter().zip(&prows) {
+        assert_eq!(f["properties"]["patch_id"].to_string(), row[0]);
+        let want: f64 = row[ia].parse().unwrap();
+        let got = area_km2_geodesic(&polygons_of_geojson(&f["geometry"]));
+        // 9 decimals move a 0.25 degree cell's edge by < 5e-10 degree: < 1e-8 relative.
+        assert!(rel(got, want) < 1e-6, "patch {}: {got} vs {want}", row[0]);
+    }
+}
+
+#[test]
+fn standalone_polygons_rebuilds_the_same_layers_and_checks_m() {
+    let t = tempfile::tempdir().unwrap();
+    let with = regional_run(t.path(), &["--vectors"]);
+    let plain = t.path().join("plain");
+    let o = areal()
+        .args(regional_args(t.path(), &plain, &[]))
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        !plain.join("range.gpkg").exists(),
+        "no vectors without --vectors"
+    );
+    let classes = plain.join("classes.tif");
+    let m = t.path().join("m.geojson");
+
+    // Without the run's M options: refused, naming the options.
+    let vout = t.path().join("vec");
+    let o = run(&[
+        "polygons",
+        "--classes",
+        classes.to_str().unwrap(),
+        "--out",
+        vout.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("--accessible"), "{}", stderr(&o));
+    assert!(!vout.exists());
+    // A different M: refused.
+    let o = run(&[
+        "polygons",
+        "--classes",
+        classes.to_str().unwrap(),
+        "--accessible",
+        m.to_str().unwrap(),
+        "--buffer-km",
+        "50",
+        "--out",
+        vout.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    // The wrong connectivity: refused.
+    let o = run(&[
+        "polygons",
+        "--classes",
+        classes.to_str().unwrap(),
+        "--accessible",
+        m.to_str().unwrap(),
+        "--connectivity",
+        "4",
+        "--out",
+        vout.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+
+    let o = run(&[
+        "polygons",
+        "--classes",
+        classes.to_str().unwrap(),
+        "--accessible",
+        m.to_str().unwrap(),
+        "--out",
+        vout.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let a = read_gpkg(&with.join("range.gpkg"));
+    let b = read_gpkg(&vout.join("range.gpkg"));
+    assert_eq!(a.len(), b.len());
+    for (la, lb) in a.iter().zip(&b) {
+        assert_eq!(la.name, lb.name);
+        assert_eq!(la.features.len(), lb.features.len());
+        for (fa, fb) in la.features.iter().zip(&lb.features) {
+            assert_eq!(fa.polygons, fb.polygons, "layer {}", la.name);
+            assert_eq!(fa.attrs, fb.attrs, "layer {}", la.name);
+        }
+    }
+    for n in ["range", "patches", "unreachable", "accessible", "records"] {
+        assert_eq!(
+            std::fs::read(with.join(format!("{n}.geojson"))).unwrap(),
+            std::fs::read(vout.join(format!("{n}.geojson"))).unwrap(),
+            "{n}.geojson differs"
+        );
+    }
+}
+
+#[test]
+fn simplify_is_off_by_default_and_keeps_valid_geometry() {
+    let t = tempfile::tempdir().unwrap();
+    let out = regional_run(t.path(), &["--vectors", "--simplify-m", "30000"]);
+    let simple = read_gpkg(&out.join("range.gpkg"));
+    let full = read_gpkg(&regional_run(&t.path().join("b"), &["--vectors"]).join("range.gpkg"));
+    let count = |ls: &[GpkgLayer]| -> usize {
+        ls[1]
+            .features
+            .iter()
+            .flat_map(|f| f.polygons.iter().flatten())
+            .map(|r| r.len())
+            .sum()
+    };
+    assert!(
+        count(&simple) < count(&full),
+        "{} vs {}",
+        count(&simple),
+        count(&full)
+    );
+    for l in &simple {
+        for f in &l.features {
+            assert!(f.valid, "{}", l.name);
+        }
+    }
+    let o = areal()
+        .args(regional_args(
+            t.path(),
+            &t.path().join("bad"),
+            &["--simplify-m", "-1"],
+        ))
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("--simplify-m"));
+}
+
+#[test]
+fn regional_equal_area_is_laea_centred_on_the_data() {
+    let t = tempfile::tempdir().unwrap();
+    let out = regional_run(t.path(), &["--vectors", "--vector-crs"]);
+    let ds = gdal::Dataset::open(out.join("range-equal-area.gpkg")).unwrap();
+    let layer = ds.layer_by_name("patches").unwrap();
+    let proj4 = layer.spatial_ref().unwrap().to_proj4().unwrap();
+    // Grid extent 10..22 E, 40..50 N: centre (16, 45).
+    assert!(
+        proj4.contains("+proj=laea") && proj4.contains("+lat_0=45") && proj4.contains("+lon_0=16"),
+        "{proj4}"
+    );
+    let (ph, prows) = read_csv(&out.join("patches.csv"));
+    let lay = read_gpkg(&out.join("range-equal-area.gpkg"));
+    for (f, row) in lay[1].features.iter().zip(&prows) {
+        let want: f64 = row[col(&ph, "area_km2")].parse().unwrap();
+        // Vertices at every cell corner, straight between them in LAEA: the chord error is
+        // ~1e-5 on 100 km edges (CHECKS.md section 6, n = 1 row), far less on 0.25 degree cells.
+        assert!(rel(planar_km2(&f.polygons), want) < 1e-4, "{}", row[0]);
+        assert!(f.valid);
+    }
+    let o = areal()
+        .args(regional_args(
+            t.path(),
+            &t.path().join("merc"),
+            &["--vector-crs", "EPSG:3857"],
+        ))
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("equal-area"), "{}", stderr(&o));
+}
+
+#[test]
+fn global_patch_across_the_antimeridian() {
+    for west in [-180.0, 0.0] {
+        let t = tempfile::tempdir().unwrap();
+        let out = global_run(t.path(), west);
+        let (ph, prows) = read_csv(&out.join("patches.csv"));
+        let ia = col(&ph, "area_km2");
+        let v = json(&out.join("patches.geojson"));
+        let feats = v["features"].as_array().unwrap();
+        assert_eq!(feats.len(), prows.len());
+        let mut crossing = 0;
+        for (f, row) in feats.iter().zip(&prows) {
+            let polys = polygons_of_geojson(&f["geometry"]);
+            let xs: Vec<f64> = polys.iter().flatten().flatten().map(|p| p.0).collect();
+            assert!(
+                xs.iter().all(|x| (-180.0..=180.0).contains(x)),
+                "west {west}: lon out of range"
+            );
+            let (lo, hi) = xs
+                .iter()
+                .fold((f64::MAX, f64::MIN), |a, &x| (a.0.min(x), a.1.max(x)));
+            if lo == -180.0 && hi == 180.0 {
+                crossing += 1;
+                // RFC 7946 3.1.9: a MultiPolygon with parts on both sides of the antimeridian.
+                assert_eq!(f["geometry"]["type"], "MultiPolygon");
+                assert!(
+                    polys.iter().all(|p| {
+                        let e = &p[0];
+                        e.iter().all(|q| q.0 >= 0.0) || e.iter().all(|q| q.0 <= 0.0)
+                    }),
+                    "a part still crosses 180"
+                );
+            }
+            for p in &polys {
+                check_winding(p, "patches");
+            }
+            let want: f64 = row[ia].parse().unwrap();
+            assert!(
+                rel(area_km2_geodesic(&polys), want) < 1e-6,
+                "west {west}, patch {}",
+                row[0]
+            );
+        }
+        assert_eq!(crossing, 1, "west {west}: one patch crosses 180");
+        // Global extent: the equal-area file is EPSG:6933 (CHECKS.md section 6), whose cells
+        // are exact rectangles, so the planar area of each patch is its true area.
+        let lay = read_gpkg(&out.join("range-equal-area.gpkg"));
+        for (f, row) in lay[1].features.iter().zip(&prows) {
+            let want: f64 = row[ia].parse().unwrap();
+            assert!(
+                rel(planar_km2(&f.polygons), want) < 1e-9,
+                "6933 patch {}",
+                row[0]
+            );
+            assert!(f.valid, "6933 patch {} invalid", row[0]);
+        }
+        let native = read_gpkg(&out.join("range.gpkg"));
+        for f in native.iter().flat_map(|l| &l.features) {
+            assert!(f.valid);
+        }
+    }
+}
+
+#[test]
+fn too_large_grids_are_refused_before_writing() {
+    let t = tempfile::tempdir().unwrap();
+    let plain = t.path().join("plain");
+    let o = areal()
+        .args(regional_args(t.path(), &plain, &[]))
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    let opts = areal::vectors::VectorOptions {
+        max_cells: 100,
+        ..Default::default()
+    };
+    let access = areal::access::AccessSpec {
+        polygon: Some(t.path().join("m.geojson")),
+        ..Default::default()
+    };
+    let vout = t.path().join("v");
+    let e = areal::vectors::run_polygons(
+        &plain.join("classes.tif"),
+        &access,
+        None,
+        &opts,
+        &vout,
+        false,
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(e.contains("1920 cells") && e.contains("100"), "{e}");
+    assert!(!vout.exists() && !Path::new(&vout).exists());
+}
+
+#[test]
+fn projected_grid_lonlat_outputs_keep_the_true_areas() {
+    // EPSG:3035 (ETRS89-LAEA Europe, natural origin 52 N 10 E at x 4 321 000, y 3 210 000:
+    // CHECKS.md section 6), 1 km cells around the origin.
+    let t = tempfile::tempdir().unwrap();
+    let (w, h) = (30usize, 20usize);
+    let mut v = vec![0.1f32; w * h];
+    for r in 4..16 {
+        for c in 5..25 {
+            if !((8..11).contains(&r) && (10..14).contains(&c)) {
+                v[r * w + c] = 0.9;
+            }
+        }
+    }
+    v[w + 28] = 0.9;
+    let tif = t.path().join("p.tif");
+    write_raster(
+        &tif,
+        w,
+        h,
+        [4_306_000.0, 1000.0, 0.0, 3_220_000.0, 0.0, -1000.0],
+        Some(3035),
+        None,
+        &v,
+    );
+    let rec = t.path().join("r.csv");
+    std::fs::write(&rec, "lon,lat\n10.0,52.0\n").unwrap();
+    let out = t.path().join("out");
+    let o = run(&[
+        "range",
+        "--suitability",
+        tif.to_str().unwrap(),
+        "--records",
+        rec.to_str().unwrap(),
+        "--threshold",
+        "0.5",
+        "--buffer-km",
+        "8",
+        "--out",
+        out.to_str().unwrap(),
+        "--vectors",
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let (ph, prows) = read_csv(&out.join("patches.csv"));
+    assert!(
+        prows.len() >= 3,
+        "a patch cut by the buffer, and the lone cell"
+    );
+    let v = json(&out.join("patches.geojson"));
+    for (f, row) in v["features"].as_array().unwrap().iter().zip(&prows) {
+        let polys = polygons_of_geojson(&f["geometry"]);
+        for p in &polys {
+            check_winding(p, "patches");
+        }
+        // Vertices every 1 km along the LAEA edges, geodesic between them: CHECKS.md section 6
+        // gives +3.5e-9 for 1 km segments on a LAEA square; 9 decimals move 1 km edges by
+        // < 0.06 mm, below 1e-7 relative.
+        let want: f64 = row[col(&ph, "area_km2")].parse().unwrap();
+        let got = area_km2_geodesic(&polys);
+        assert!(rel(got, want) < 1e-6, "patch {}: {got} vs {want}", row[0]);
+    }
+    let native = read_gpkg(&out.join("range.gpkg"));
+    let recs = &native[4].features;
+    let (x, y) = recs[0].point.unwrap();
+    // The record at the natural origin lands on (4 321 000, 3 210 000).
+    assert!(
+        (x - 4_321_000.0).abs() < 1e-3 && (y - 3_210_000.0).abs() < 1e-3,
+        "{x} {y}"
+    );
+    let range = &native[0].features[0];
+    let inside = json(&out.join("summary.json"))["area_km2"]["inside_accessible"]
+        .as_f64()
+        .unwrap();
+    // EPSG:3035 is equal-area: the planar area of the native polygons is the true area.
+    assert!(rel(planar_km2(&range.polygons), inside) < 1e-12);
+}

@@ -8,11 +8,11 @@
 //! be filled) or an input/option error whose message names the file or an option.
 //!
 //! CI runs proptest's default 256 cases per property. A longer session (see
-//! docs/hostile-input.md) sets `PROPTEST_CASES`. Inputs that once failed are kept by
-//! proptest in `tests/proptest-regressions/fuzz_readers.txt` and replayed first; each is also a named
-//! case in tests/hostile/found_by_fuzzing.rs. The bytes of the case being run are written to
-//! `$CARGO_TARGET_TMPDIR/fuzz-last-*` first, so a crash inside GDAL (which no
-//! `catch_unwind` can catch) still leaves its input behind.
+//! docs/hostile-input.md) sets `PROPTEST_CASES`. Inputs that fail are kept by proptest in
+//! `tests/proptest-regressions/fuzz_readers.txt` and replayed first; each fixed one also
+//! becomes a named case of the catalogue (tests/hostile/). The bytes of the case being run
+//! are written to `$CARGO_TARGET_TMPDIR/fuzz-last-*` first, so a crash inside GDAL (which
+//! no `catch_unwind` can catch) still leaves its input behind.
 
 use areal::access::{AccessMask, AccessSpec};
 use areal::records::{read_records, RecordOptions};

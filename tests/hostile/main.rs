@@ -9,7 +9,6 @@ mod common;
 mod fixture;
 
 mod accessible;
-mod found_by_fuzzing;
 mod options;
 mod output;
 mod raster;

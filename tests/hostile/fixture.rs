@@ -159,6 +159,51 @@ impl Case {
         }
     }
 
+    /// Run as [`Case::run`] with extra environment, killing the run (and failing the
+    /// test) if it has not ended after `secs` seconds: for inputs that once hung.
+    pub fn run_within(&self, secs: u64, env: &[(&str, &str)], extra: &[&str]) -> Outcome {
+        let mut args: Vec<String> = vec![
+            "range".into(),
+            "--suitability".into(),
+            self.suitability.display().to_string(),
+            "--records".into(),
+            self.records.display().to_string(),
+            "--out".into(),
+            self.out.display().to_string(),
+        ];
+        args.extend(extra.iter().map(|s| s.to_string()));
+        let mut cmd = areal();
+        for (k, v) in env {
+            cmd.env(k, v);
+        }
+        let mut child = cmd
+            .args(&args)
+            .stdout(std::process::Stdio::piped())
+            .stderr(std::process::Stdio::piped())
+            .spawn()
+            .unwrap();
+        let deadline = std::time::Instant::now() + std::time::Duration::from_secs(secs);
+        while child.try_wait().unwrap().is_none() {
+            if std::time::Instant::now() > deadline {
+                child.kill().unwrap();
+                panic!("areal {} did not end within {secs} s", extra.join(" "));
+            }
+            std::thread::sleep(std::time::Duration::from_millis(20));
+        }
+        let o = child.wait_with_output().unwrap();
+        let stderr = String::from_utf8_lossy(&o.stderr).into_owned();
+        println!(
+            "areal {}\n=> exit {:?}\n{stderr}",
+            extra.join(" "),
+            o.status.code()
+        );
+        Outcome {
+            code: o.status.code(),
+            stdout: String::from_utf8_lossy(&o.stdout).into_owned(),
+            stderr,
+        }
+    }
+
     /// The run must fail with `code`, one clean message holding every needle, and leave
     /// no output and no temporary folder.
     pub fn refused(&self, o: &Outcome, code: i32, needles: &[&str]) {

@@ -9,6 +9,7 @@ mod common;
 mod fixture;
 
 mod accessible;
+mod found_by_fuzzing;
 mod options;
 mod output;
 mod raster;

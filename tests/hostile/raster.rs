@@ -1,6 +1,5 @@
 //! Hostile suitability rasters.
 
-use super::common;
 use super::fixture::*;
 
 #[test]
@@ -242,36 +241,6 @@ fn geotiff_with_a_corrupt_first_strip_is_refused_without_hanging() {
         }
     }
     std::fs::write(&c.suitability, bytes).unwrap();
-    let mut child = common::areal()
-        .env("AREAL_THREADS", "2")
-        .args([
-            "range",
-            "--suitability",
-            c.suitability.to_str().unwrap(),
-            "--records",
-            c.records.to_str().unwrap(),
-            "--threshold",
-            "0.5",
-            "--out",
-            c.out.to_str().unwrap(),
-        ])
-        .stdout(std::process::Stdio::null())
-        .stderr(std::process::Stdio::piped())
-        .spawn()
-        .unwrap();
-    let deadline = std::time::Instant::now() + std::time::Duration::from_secs(60);
-    while child.try_wait().unwrap().is_none() {
-        if std::time::Instant::now() > deadline {
-            child.kill().unwrap();
-            panic!("areal hung on a strip that fails to decode");
-        }
-        std::thread::sleep(std::time::Duration::from_millis(50));
-    }
-    let o = child.wait_with_output().unwrap();
-    let o = Outcome {
-        code: o.status.code(),
-        stdout: String::new(),
-        stderr: String::from_utf8_lossy(&o.stderr).into_owned(),
-    };
+    let o = c.run_within(60, &[("AREAL_THREADS", "2")], &["--threshold", "0.5"]);
     c.refused(&o, 3, &["suitability.tif", "reading rows 0..256"]);
 }

@@ -177,6 +177,12 @@ impl AooCounter {
         }
     }
 
+    /// Occupied cells at each origin, in the order ox (outer), oy (inner), each increasing.
+    #[cfg(test)]
+    pub(crate) fn per_origin(&self) -> Vec<usize> {
+        self.sets.iter().map(HashSet::len).collect()
+    }
+
     /// The figures over the origins.
     pub(crate) fn figures(&self) -> AooFigures {
         let mut min_k = 0;

@@ -241,7 +241,7 @@ pub fn range_metrics(
     let near = reach::nearest(&c, |_| true);
     let near_occ = reach::nearest(&c, |p| occupied[p]);
     let jumps = opts.gap_km.map(|g| reach::reach(&c, |p| occupied[p], g));
-    let mut cols: Vec<PatchMetrics> = (0..n)
+    let cols: Vec<PatchMetrics> = (0..n)
         .map(|p| PatchMetrics {
             nearest_patch_km: near[p],
             nearest_occupied_km: near_occ[p],

@@ -138,9 +138,7 @@ pub(crate) fn fmt_km2(x: f64) -> String {
     if !x.is_finite() {
         return format!("{x}");
     }
-    let s = if x.abs() >= 10_000.0 {
-        format!("{:.0}", x)
-    } else if x.fract() == 0.0 {
+    let s = if x.abs() >= 10_000.0 || x.fract() == 0.0 {
         format!("{:.0}", x)
     } else {
         format!("{:.1}", x)

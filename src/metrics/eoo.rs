@@ -66,6 +66,17 @@ pub(crate) fn distinct_points(points: &[(f64, f64)]) -> Vec<(f64, f64)> {
 }
 
 /// The convex hull of `points` and its geodesic area. See the module documentation.
+///
+/// ```
+/// use areal::metrics::hull_area;
+/// // A 1-degree square at the equator across the antimeridian, with an inner point: the
+/// // hull is the square, 12,308.778 km2 with geodesic edges (GeographicLib PolygonArea).
+/// let h = hull_area(&[(179.5, 0.0), (-179.5, 0.0), (-179.5, 1.0), (179.5, 1.0), (180.0, 0.5)]);
+/// assert_eq!(h.vertices, 4);
+/// assert!((h.area_km2.unwrap() - 12_308.778_361).abs() < 1e-5);
+/// // Two distinct points: no area.
+/// assert_eq!(hull_area(&[(0.0, 0.0), (1.0, 1.0), (1.0, 1.0)]).area_km2, Some(0.0));
+/// ```
 pub fn hull_area(points: &[(f64, f64)]) -> HullArea {
     let pts = distinct_points(points);
     let n = pts.len();

@@ -261,8 +261,9 @@ pub(crate) fn scan(
         prev: 0..0,
     };
     let mut strip = Vec::new();
-    let (mut above, mut mid): (Option<Vec<u8>>, Option<(Vec<u8>, std::ops::Range<usize>)>) =
-        (None, None);
+    // The rows above and being finished (with its runs), for the boundary test.
+    type Row = (Vec<u8>, std::ops::Range<usize>);
+    let (mut above, mut mid): (Option<Vec<u8>>, Option<Row>) = (None, None);
     for y0 in (0..height).step_by(STRIP) {
         let n = STRIP.min(height - y0);
         rows_in.read_class_rows(y0, n, &mut strip)?;

@@ -96,7 +96,7 @@ fn criterion_b_comparison_is_strict_and_worded_as_below_a_threshold() {
 #[test]
 fn km2_formatting() {
     // Hand-worked ([DER]).
-    assert_eq!(fmt_km2(12_713.0253), "12,713");
+    assert_eq!(fmt_km2(12_713.025_3), "12,713");
     assert_eq!(fmt_km2(232.0), "232");
     assert_eq!(fmt_km2(0.04), "0.0");
     assert_eq!(fmt_km2(1234.56), "1,234.6");

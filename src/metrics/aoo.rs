@@ -17,7 +17,6 @@
 
 use crate::{Error, Result};
 use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
-use std::collections::HashSet;
 
 /// Grid-origin offsets as fractions of the cell width, for x and for y.
 pub const ORIGIN_FRACTIONS: [f64; 4] = [0.0, 0.25, 0.5, 0.75];
@@ -119,10 +118,25 @@ pub(crate) fn transform(
     Ok(())
 }
 
-/// Occupied-cell sets for the 16 grid origins.
+/// Occupied cells for the 16 grid origins.
+///
+/// Every origin is a multiple of a quarter cell, so a point's cell under origin
+/// (k·w/4, l·w/4) follows from its quarter-cell `(a, b) = (floor(4x/w), floor(4y/w))`:
+/// `(floor((a - k)/4), floor((b - l)/4))` (floor(floor(v)/n) = floor(v/n) for integer n).
+/// The distinct quarter cells are kept as packed keys, sorted and deduplicated as they grow,
+/// so memory follows the occupied area, not the number of points.
 pub(crate) struct AooCounter {
     cell_m: f64,
-    sets: Vec<HashSet<(i64, i64)>>,
+    fine: Vec<u64>,
+    clean: usize,
+}
+
+fn pack(a: i64, b: i64) -> u64 {
+    ((a as i32 as u32 as u64) << 32) | (b as i32 as u32 as u64)
+}
+
+fn unpack(k: u64) -> (i64, i64) {
+    ((k >> 32) as u32 as i32 as i64, k as u32 as i32 as i64)
 }
 
 /// AOO over the 16 origins.
@@ -150,11 +164,12 @@ impl AooFigures {
 }
 
 impl AooCounter {
-    /// Empty sets for cells `cell_m` metres wide.
+    /// No cells yet, for cells `cell_m` metres wide (>= 10 m, so quarter cells fit in i32).
     pub(crate) fn new(cell_m: f64) -> AooCounter {
         AooCounter {
             cell_m,
-            sets: vec![HashSet::new(); ORIGIN_FRACTIONS.len() * ORIGIN_FRACTIONS.len()],
+            fine: Vec::new(),
+            clean: 0,
         }
     }
 
@@ -169,31 +184,52 @@ impl AooCounter {
 
     /// Mark the cell holding projected point (x, y) metres, for every origin.
     pub(crate) fn add(&mut self, x: f64, y: f64) {
-        for k in 0..self.sets.len() {
-            let (ox, oy) = self.origin(k);
-            let i = ((x - ox) / self.cell_m).floor() as i64;
-            let j = ((y - oy) / self.cell_m).floor() as i64;
-            self.sets[k].insert((i, j));
+        let q = self.cell_m / 4.0;
+        self.fine
+            .push(pack((x / q).floor() as i64, (y / q).floor() as i64));
+        if self.fine.len() >= 2 * self.clean + (1 << 20) {
+            self.compact();
         }
     }
 
+    fn compact(&mut self) {
+        self.fine.sort_unstable();
+        self.fine.dedup();
+        self.clean = self.fine.len();
+    }
+
     /// Occupied cells at each origin, in the order ox (outer), oy (inner), each increasing.
-    #[cfg(test)]
-    pub(crate) fn per_origin(&self) -> Vec<usize> {
-        self.sets.iter().map(HashSet::len).collect()
+    pub(crate) fn per_origin(&mut self) -> Vec<usize> {
+        self.compact();
+        let n = ORIGIN_FRACTIONS.len() as i64;
+        let mut coarse = Vec::with_capacity(self.fine.len());
+        (0..n * n)
+            .map(|k| {
+                let (i, j) = (k / n, k % n);
+                coarse.clear();
+                coarse.extend(self.fine.iter().map(|&f| {
+                    let (a, b) = unpack(f);
+                    pack((a - i).div_euclid(n), (b - j).div_euclid(n))
+                }));
+                coarse.sort_unstable();
+                coarse.dedup();
+                coarse.len()
+            })
+            .collect()
     }
 
     /// The figures over the origins.
-    pub(crate) fn figures(&self) -> AooFigures {
+    pub(crate) fn figures(&mut self) -> AooFigures {
+        let per = self.per_origin();
         let mut min_k = 0;
-        for k in 1..self.sets.len() {
-            if self.sets[k].len() < self.sets[min_k].len() {
+        for k in 1..per.len() {
+            if per[k] < per[min_k] {
                 min_k = k;
             }
         }
         AooFigures {
-            min_cells: self.sets[min_k].len(),
-            max_cells: self.sets.iter().map(HashSet::len).max().unwrap_or(0),
+            min_cells: per[min_k],
+            max_cells: per.iter().copied().max().unwrap_or(0),
             origin_m: self.origin(min_k),
             cell_km2: (self.cell_m / 1000.0).powi(2),
         }

@@ -27,6 +27,7 @@ pub mod criterion_b;
 mod eoo;
 mod extent;
 mod figures;
+mod kdtree;
 mod reach;
 mod scan;
 mod structure;
@@ -81,7 +82,7 @@ impl MetricsOptions {
             return Err(Error::InvalidOption {
                 option: "--aoo-cell-km",
                 reason: format!(
-                    "{} is not a usable cell width; give a width in km, > 0 and <= 1000 (the reference AOO grid is 2 km)",
+                    "{} is not a usable cell width; give a width in km, from 0.01 to 1000 (the reference AOO grid is 2 km)",
                     self.aoo_cell_km
                 ),
             });

@@ -7,23 +7,21 @@
 //! 0 for patches that touch. Distances are geodesics on WGS84 (Karney 2013, geographiclib-rs
 //! `Inverse`), in metres inside, km at the interface.
 //!
-//! Search: corners are indexed in an R-tree (rstar) by their unit normals. A geodesic of
-//! length s has an angle σ between the end points' normals with `M_MIN·σ <= s` (the smallest
-//! radius of curvature, see `access::buffer`), so the chord-distance nearest-neighbour
-//! order can stop as soon as `M_MIN·σ` exceeds the best geodesic found: the result is exact.
-//! A patch's own corners are taken out of the tree while it looks for its nearest neighbour.
+//! Search: the corners' unit normals go into a k-d tree ([`super::kdtree`]) whose nodes know
+//! when they hold one patch only, so a patch never wades through its own corners. A geodesic
+//! of length s joins points whose normals make an angle σ with `M_MIN·σ <= s` (the smallest
+//! radius of curvature, see `access::buffer`): a patch's search keeps the chord of
+//! `best / M_MIN` as its bound, and every corner pair that could be nearer than `best` is
+//! looked at. The results are exact minima over corner pairs.
 //!
 //! Reach: starting from the occupied patches (jump 0), a patch is reached when one of its
-//! corners lies within G of a corner of a reached patch; reached patches leave the tree, so
-//! each corner is found once. The jump count is the fewest jumps (breadth-first order).
+//! corners lies within G of a corner of a reached patch. Breadth-first order gives the fewest
+//! jumps; nodes holding only reached patches are skipped.
 
+use super::kdtree::KdTree;
 use crate::access::buffer::{m_min, unit};
 use geographiclib_rs::{Geodesic, InverseGeodesic};
-use rstar::primitives::GeomWithData;
-use rstar::RTree;
 use std::collections::VecDeque;
-
-type Elem = GeomWithData<[f64; 3], (u32, u32)>; // (patch index, point index)
 
 /// The corners of every patch.
 pub(crate) struct Corners {
@@ -31,8 +29,22 @@ pub(crate) struct Corners {
     pts: Vec<(f64, f64)>,
     /// Unit normals of `pts`.
     xyz: Vec<[f64; 3]>,
-    /// Points of patch p: `start[p]..start[p + 1]`.
+    /// Patch index of each corner.
+    label: Vec<u32>,
+    /// Corners of patch p: `start[p]..start[p + 1]`.
     start: Vec<usize>,
+    geod: Geodesic,
+}
+
+/// Squared chord (with a hair of margin) of the largest normal angle a geodesic of `s_m`
+/// metres can span; infinite for an infinite distance.
+fn chord2(s_m: f64) -> f64 {
+    if !s_m.is_finite() {
+        return f64::INFINITY;
+    }
+    let sigma = (s_m / m_min()).min(std::f64::consts::PI);
+    let c = 2.0 * (sigma / 2.0).sin();
+    c * c * (1.0 + 1e-9) + 1e-24
 }
 
 impl Corners {
@@ -47,70 +59,53 @@ impl Corners {
         }
         let pts: Vec<(f64, f64)> = sorted.iter().map(|&(_, la, lo)| (la, lo)).collect();
         let xyz = pts.iter().map(|&(la, lo)| unit(la, lo)).collect();
-        Corners { pts, xyz, start }
+        Corners {
+            pts,
+            xyz,
+            label: sorted.iter().map(|c| c.0).collect(),
+            start,
+            geod: Geodesic::wgs84(),
+        }
     }
 
     fn n(&self) -> usize {
         self.start.len() - 1
     }
 
-    fn elems(&self, p: usize) -> impl Iterator<Item = Elem> + '_ {
-        (self.start[p]..self.start[p + 1])
-            .map(move |i| Elem::new(self.xyz[i], (p as u32, i as u32)))
-    }
-
-    fn tree(&self, keep: impl Fn(usize) -> bool) -> RTree<Elem> {
-        RTree::bulk_load(
-            (0..self.n())
-                .filter(|&p| keep(p))
-                .flat_map(|p| self.elems(p))
-                .collect(),
-        )
-    }
-
-    fn dist(&self, g: &Geodesic, i: usize, j: usize) -> f64 {
+    fn dist(&self, i: usize, j: usize) -> f64 {
         let (a, b) = (self.pts[i], self.pts[j]);
-        g.inverse(a.0, a.1, b.0, b.1)
+        self.geod.inverse(a.0, a.1, b.0, b.1)
     }
-}
 
-/// Angle between unit vectors from their squared chord.
-fn angle(d2: f64) -> f64 {
-    2.0 * (d2.sqrt() / 2.0).min(1.0).asin()
+    /// A k-d tree over the corners of the patches `keep` selects.
+    fn tree(&self, keep: impl Fn(usize) -> bool) -> KdTree {
+        let items = (0..self.n())
+            .filter(|&p| keep(p))
+            .flat_map(|p| (self.start[p] as u32)..(self.start[p + 1] as u32))
+            .collect();
+        KdTree::new(&self.xyz, &self.label, items)
+    }
 }
 
 /// For each patch, the distance (km) to the nearest patch among those `target` selects
 /// (other than itself); None when there is none.
 pub(crate) fn nearest(c: &Corners, target: impl Fn(usize) -> bool) -> Vec<Option<f64>> {
-    let g = Geodesic::wgs84();
-    let mut tree = c.tree(&target);
-    let mmin = m_min();
+    let tree = c.tree(&target);
     let mut out = vec![None; c.n()];
     for (p, slot) in out.iter_mut().enumerate() {
-        let own: Vec<Elem> = c.elems(p).collect();
-        if own.is_empty() {
-            continue;
-        }
-        let mine = target(p);
-        if mine {
-            for e in &own {
-                tree.remove(e);
-            }
-        }
         let mut best = f64::INFINITY;
-        for e in &own {
-            let i = e.data.1 as usize;
-            for (cand, d2) in tree.nearest_neighbor_iter_with_distance_2(e.geom()) {
-                if mmin * angle(d2) > best {
-                    break;
-                }
-                best = best.min(c.dist(&g, i, cand.data.1 as usize));
-            }
-        }
-        if mine {
-            for e in own {
-                tree.insert(e);
-            }
+        for i in c.start[p]..c.start[p + 1] {
+            tree.search(
+                &c.xyz,
+                &c.label,
+                &c.xyz[i],
+                chord2(best),
+                |l| l as usize == p,
+                |j, _| {
+                    best = best.min(c.dist(i, j));
+                    chord2(best)
+                },
+            );
         }
         if best.is_finite() {
             *slot = Some(best / 1000.0);
@@ -122,11 +117,8 @@ pub(crate) fn nearest(c: &Corners, target: impl Fn(usize) -> bool) -> Vec<Option
 /// Jumps of at most `gap_km` from the patches `start` selects: for each patch the fewest
 /// jumps that reach it (0 for a start patch), None when it cannot be reached.
 pub(crate) fn reach(c: &Corners, start: impl Fn(usize) -> bool, gap_km: f64) -> Vec<Option<u32>> {
-    let g = Geodesic::wgs84();
     let gap_m = gap_km * 1000.0;
-    let sigma = (gap_m / m_min()).min(std::f64::consts::PI);
-    let chord = 2.0 * (sigma / 2.0).sin();
-    let r2 = chord * chord * (1.0 + 1e-9) + 1e-24;
+    let r2 = chord2(gap_m);
     let n = c.n();
     let mut jumps: Vec<Option<u32>> = vec![None; n];
     let mut queue = VecDeque::new();
@@ -136,25 +128,29 @@ pub(crate) fn reach(c: &Corners, start: impl Fn(usize) -> bool, gap_km: f64) -> 
             queue.push_back(p);
         }
     }
-    let mut tree = c.tree(|p| !start(p));
+    let tree = c.tree(|_| true);
+    let mut found = Vec::new();
     while let Some(p) = queue.pop_front() {
         let next = jumps[p].map(|j| j + 1);
-        let mut found = Vec::new();
-        for e in c.elems(p) {
-            let i = e.data.1 as usize;
-            for cand in tree.locate_within_distance(*e.geom(), r2) {
-                let q = cand.data.0 as usize;
-                if jumps[q].is_none() && c.dist(&g, i, cand.data.1 as usize) <= gap_m {
-                    jumps[q] = next;
-                    found.push(q);
-                }
+        for i in c.start[p]..c.start[p + 1] {
+            tree.search(
+                &c.xyz,
+                &c.label,
+                &c.xyz[i],
+                r2,
+                |l| jumps[l as usize].is_some(),
+                |j, _| {
+                    let q = c.label[j] as usize;
+                    if !found.contains(&q) && c.dist(i, j) <= gap_m {
+                        found.push(q);
+                    }
+                    r2
+                },
+            );
+            for q in found.drain(..) {
+                jumps[q] = next;
+                queue.push_back(q);
             }
-        }
-        for q in found {
-            for e in c.elems(q) {
-                tree.remove(&e);
-            }
-            queue.push_back(q);
         }
     }
     jumps

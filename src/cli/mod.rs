@@ -61,5 +61,33 @@ fn run(cli: Cli) -> areal::Result<()> {
             println!("  outputs         {}", a.out.display());
             Ok(())
         }
+        Command::Extent(a) => {
+            let opts = a.metrics.to_options(true)?;
+            let report = areal::metrics::extent(
+                &a.records,
+                &a.record_options(),
+                a.range.as_deref(),
+                a.connectivity(),
+                &opts,
+            )?;
+            if a.json {
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&report).expect("report serialises")
+                );
+            } else {
+                println!(
+                    "areal {}: extent of {}",
+                    report.areal_version, report.records_file
+                );
+                for l in report.metrics.text_lines() {
+                    println!("{l}");
+                }
+                for w in &report.warnings {
+                    println!("  warning: {w}");
+                }
+            }
+            Ok(())
+        }
     }
 }

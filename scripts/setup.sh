@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # Installs what areal needs on a fresh Debian machine (run as root): GDAL with its
-# development files and pkg-config, and python3-venv for the GeoJSON reference check.
-# Safe to run again; it installs only what is missing.
+# development files, pkg-config, and python3-venv (for the GeoJSON reference check and
+# tests/kill_test.sh, which make numpy/rasterio/shapely/pyproj venvs). Safe to run again; it
+# installs only what is missing.
 set -euo pipefail
 need=()
 for pkg in libgdal-dev pkg-config gdal-bin python3-venv; do

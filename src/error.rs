@@ -1,5 +1,16 @@
 //! One error type for the library. Every variant names what the user must look at
 //! (a file, a record, an option) and, where possible, how to fix it.
+//!
+//! Each variant belongs to exactly one [`Stage`], which sets the exit code of the CLI:
+//!
+//! | stage | exit | variants |
+//! |---|---|---|
+//! | [`Stage::Usage`] | 2 | `InvalidOption` (and clap's own usage errors) |
+//! | [`Stage::Input`] | 3 | `MissingInput`, `InputIo`, `Gdal`, `MissingCrs`, `UnsupportedRaster`, `Records`, `Accessible`, `Crs`, `NoUsableRecords` |
+//! | [`Stage::Processing`] | 5 | `Processing` |
+//! | [`Stage::Output`] | 4 | `Output`, `Io` |
+//!
+//! `Gdal` wraps GDAL failures on input files only; GDAL failures on outputs are `Output`.
 
 use std::path::PathBuf;
 
@@ -19,7 +30,7 @@ pub enum Error {
         what: &'static str,
     },
     /// GDAL failed on a file; the operation and the path give the context.
-    #[error("{path}: {operation} failed: {source}")]
+    #[error("{path}: {operation} failed: {}", gdal_text(source))]
     Gdal {
         /// The file GDAL was working on.
         path: PathBuf,
@@ -91,7 +102,26 @@ pub enum Error {
         /// What is wrong and how to fix it.
         reason: String,
     },
-    /// An I/O error on a named file.
+    /// An input file that exists but cannot be read (permissions, a folder, I/O failure).
+    #[error("{path}: cannot be read: {source}")]
+    InputIo {
+        /// The input file.
+        path: PathBuf,
+        /// The operating system's error.
+        #[source]
+        source: std::io::Error,
+    },
+    /// The inputs were accepted but the computation could not be completed (for example
+    /// a transformation of the raster grid that PROJ cannot do). Not the user's fault in
+    /// the usual case; the message says what failed.
+    #[error("{what}: {reason}")]
+    Processing {
+        /// What was being computed.
+        what: String,
+        /// What went wrong and what can be done.
+        reason: String,
+    },
+    /// An I/O error on a named output file or folder.
     #[error("{path}: {source}")]
     Io {
         /// The file or folder.
@@ -116,20 +146,130 @@ impl Error {
         }
     }
 
-    /// Wrap an I/O error with the file.
+    /// Wrap an I/O error on an input file.
+    pub fn input_io(path: impl Into<PathBuf>) -> impl FnOnce(std::io::Error) -> Error {
+        let path = path.into();
+        move |source| Error::InputIo { path, source }
+    }
+
+    /// Wrap an I/O error with the (output) file.
     pub fn io(path: impl Into<PathBuf>) -> impl FnOnce(std::io::Error) -> Error {
         let path = path.into();
         move |source| Error::Io { path, source }
     }
 
-    /// The exit-code family of this error: 3 for bad input, 4 for output trouble,
-    /// 2 for bad options (the same as a usage error).
-    pub fn exit_code(&self) -> u8 {
+    /// The stage this error belongs to.
+    pub fn stage(&self) -> Stage {
         match self {
-            Error::InvalidOption { .. } => 2,
-            Error::Output { .. } => 4,
-            Error::Io { .. } => 4,
-            _ => 3,
+            Error::InvalidOption { .. } => Stage::Usage,
+            Error::Processing { .. } => Stage::Processing,
+            Error::Output { .. } | Error::Io { .. } => Stage::Output,
+            Error::MissingInput { .. }
+            | Error::InputIo { .. }
+            | Error::Gdal { .. }
+            | Error::MissingCrs { .. }
+            | Error::UnsupportedRaster { .. }
+            | Error::Records { .. }
+            | Error::Accessible { .. }
+            | Error::Crs { .. }
+            | Error::NoUsableRecords { .. } => Stage::Input,
+        }
+    }
+
+    /// The exit code of this error: 2 usage, 3 input, 4 output, 5 processing.
+    pub fn exit_code(&self) -> u8 {
+        self.stage().exit_code()
+    }
+}
+
+/// GDAL's own message in a GDAL error, without the binding's wrapper text.
+pub(crate) fn gdal_text(e: &gdal::errors::GdalError) -> String {
+    use gdal::errors::GdalError as G;
+    let msg = match e {
+        G::CplError { msg, .. } | G::NullPointer { msg, .. } => msg.trim().to_string(),
+        G::InvalidCoordinateRange { msg, .. } => msg.clone().unwrap_or_default(),
+        _ => String::new(),
+    };
+    if msg.is_empty() {
+        e.to_string()
+    } else {
+        msg
+    }
+}
+
+/// Where an error arose, for the exit code and the documentation.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Stage {
+    /// A bad option or option value: exit 2.
+    Usage,
+    /// A missing, unreadable or unusable input file or record: exit 3.
+    Input,
+    /// An output that cannot be written: exit 4.
+    Output,
+    /// A computation that could not be completed on accepted inputs: exit 5.
+    Processing,
+}
+
+impl Stage {
+    /// The CLI exit code of the stage.
+    pub fn exit_code(self) -> u8 {
+        match self {
+            Stage::Usage => 2,
+            Stage::Input => 3,
+            Stage::Output => 4,
+            Stage::Processing => 5,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn exit_codes_follow_the_documented_table() {
+        let p = || PathBuf::from("f");
+        let io = || std::io::Error::other("x");
+        let cases = [
+            (
+                Error::InvalidOption {
+                    option: "--omission",
+                    reason: String::new(),
+                },
+                2,
+            ),
+            (Error::MissingCrs { path: p() }, 3),
+            (
+                Error::InputIo {
+                    path: p(),
+                    source: io(),
+                },
+                3,
+            ),
+            (
+                Error::Output {
+                    path: p(),
+                    reason: String::new(),
+                },
+                4,
+            ),
+            (
+                Error::Io {
+                    path: p(),
+                    source: io(),
+                },
+                4,
+            ),
+            (
+                Error::Processing {
+                    what: String::new(),
+                    reason: String::new(),
+                },
+                5,
+            ),
+        ];
+        for (e, code) in cases {
+            assert_eq!(e.exit_code(), code, "{e:?}");
         }
     }
 }

@@ -19,10 +19,11 @@ mod pipeline;
 pub mod raster_io;
 pub mod records;
 mod report;
+mod review;
 mod threshold;
 pub mod vectors;
 
-pub use error::{Error, Result};
+pub use error::{Error, Result, Stage};
 pub use grid::GridSpec;
 pub use output::{OutputDir, OUTPUT_NAMES};
 pub use pipeline::{compute_range, run_range, MemorySink, Progress, ProgressHandle, RangeOptions, RangeResult, RowSink};

@@ -6,6 +6,12 @@
 //! hidden temporary folder that the next run removes. An existing destination is
 //! replaced only with `overwrite`, only when it holds nothing but files areal writes,
 //! and never when an input lives inside it.
+//!
+//! Replacing an existing folder is one atomic exchange on Linux (`renameat2` with
+//! `RENAME_EXCHANGE`), so there is no moment at which DIR is missing or mixed. Where the
+//! exchange is not available, the old folder is first renamed aside
+//! (`.NAME.areal-old-PID`) and the new one renamed in; a run killed between the two
+//! renames leaves the old folder aside, and the next run puts it back before anything else.
 
 use crate::{Error, Result};
 use std::fs;
@@ -53,6 +59,11 @@ impl OutputDir {
             Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
             _ => PathBuf::from("."),
         };
+        let prefix = format!(".{name}.areal-tmp-");
+        let old_prefix = format!(".{name}.areal-old-");
+        if !dest.exists() {
+            restore_aside(&parent, &old_prefix, dest);
+        }
         if !parent.is_dir() {
             fs::create_dir_all(&parent).map_err(|e| {
                 out_err(format!(
@@ -68,15 +79,30 @@ impl OutputDir {
                 ));
             }
             let dest_abs = fs::canonicalize(dest).map_err(Error::io(dest))?;
-            for input in inputs {
-                if let Ok(abs) = fs::canonicalize(input) {
-                    if abs.starts_with(&dest_abs) {
-                        return Err(out_err(format!(
-                            "holds the input {}; choose an --out folder that holds no inputs",
-                            input.display()
-                        )));
-                    }
-                }
+            let inside: Vec<String> = inputs
+                .iter()
+                .filter(|input| fs::canonicalize(input).is_ok_and(|abs| abs.starts_with(&dest_abs)))
+                .map(|input| {
+                    let clash = input
+                        .file_name()
+                        .is_some_and(|n| OUTPUT_NAMES.contains(&n.to_string_lossy().as_ref()));
+                    format!(
+                        "{}{}",
+                        input.display(),
+                        if clash {
+                            " (an output has this name)"
+                        } else {
+                            ""
+                        }
+                    )
+                })
+                .collect();
+            if !inside.is_empty() {
+                return Err(out_err(format!(
+                    "holds the input{} {}; choose an --out folder that holds no inputs",
+                    if inside.len() == 1 { "" } else { "s" },
+                    inside.join(", ")
+                )));
             }
             let entries: Vec<String> = fs::read_dir(dest)
                 .map_err(Error::io(dest))?
@@ -101,11 +127,15 @@ impl OutputDir {
                 }
             }
         }
-        // Remove leftovers of killed runs of this destination.
-        let prefix = format!(".{name}.areal-tmp-");
+        // Remove leftovers of killed runs of this destination (not those of a run of the
+        // same destination that is still going: it would fail half-way).
         if let Ok(rd) = fs::read_dir(&parent) {
             for e in rd.flatten() {
-                if e.file_name().to_string_lossy().starts_with(&prefix) {
+                let n = e.file_name().to_string_lossy().into_owned();
+                let pid = n
+                    .strip_prefix(&prefix)
+                    .or_else(|| n.strip_prefix(&old_prefix));
+                if pid.is_some_and(|pid| !process_alive(pid)) {
                     let _ = fs::remove_dir_all(e.path());
                 }
             }
@@ -134,8 +164,15 @@ impl OutputDir {
         &self.dest
     }
 
-    /// Move the finished folder into place.
+    /// Move the finished folder into place: one atomic exchange where the system has
+    /// it, else two renames (see the module documentation).
     pub fn commit(mut self) -> Result<()> {
+        if self.dest.exists() && exchange(&self.tmp, &self.dest).is_ok() {
+            // The old outputs are now at the temporary path.
+            self.committed = true;
+            let _ = fs::remove_dir_all(&self.tmp);
+            return Ok(());
+        }
         let old = if self.dest.exists() {
             let old = self.tmp.with_file_name(
                 self.tmp
@@ -155,6 +192,62 @@ impl OutputDir {
             let _ = fs::remove_dir_all(old);
         }
         Ok(())
+    }
+}
+
+/// Swap two existing paths atomically (Linux `renameat2(RENAME_EXCHANGE)`).
+#[cfg(target_os = "linux")]
+fn exchange(a: &Path, b: &Path) -> std::io::Result<()> {
+    use std::ffi::CString;
+    use std::os::unix::ffi::OsStrExt;
+    let c = |p: &Path| {
+        CString::new(p.as_os_str().as_bytes())
+            .map_err(|e| std::io::Error::new(std::io::ErrorKind::InvalidInput, e))
+    };
+    let (ca, cb) = (c(a)?, c(b)?);
+    // SAFETY: both strings are valid NUL-terminated paths that outlive the call.
+    let rv = unsafe {
+        libc::renameat2(
+            libc::AT_FDCWD,
+            ca.as_ptr(),
+            libc::AT_FDCWD,
+            cb.as_ptr(),
+            libc::RENAME_EXCHANGE,
+        )
+    };
+    if rv == 0 {
+        Ok(())
+    } else {
+        Err(std::io::Error::last_os_error())
+    }
+}
+
+/// No atomic exchange here: the caller falls back to two renames.
+#[cfg(not(target_os = "linux"))]
+fn exchange(_a: &Path, _b: &Path) -> std::io::Result<()> {
+    Err(std::io::Error::from(std::io::ErrorKind::Unsupported))
+}
+
+/// Whether the process with this id (a temporary folder's suffix) is still running.
+/// Only Linux can tell (`/proc`); elsewhere every leftover counts as dead.
+fn process_alive(pid: &str) -> bool {
+    let Ok(pid) = pid.parse::<u32>() else {
+        return false;
+    };
+    cfg!(target_os = "linux")
+        && pid != std::process::id()
+        && Path::new("/proc").join(pid.to_string()).exists()
+}
+
+/// Put back a previous output folder left aside by a run killed between two renames.
+fn restore_aside(parent: &Path, old_prefix: &str, dest: &Path) {
+    let Ok(rd) = fs::read_dir(parent) else { return };
+    let aside = rd
+        .flatten()
+        .filter(|e| e.file_name().to_string_lossy().starts_with(old_prefix))
+        .find(|e| e.path().join("summary.json").is_file());
+    if let Some(e) = aside {
+        let _ = fs::rename(e.path(), dest);
     }
 }
 
@@ -212,6 +305,54 @@ mod tests {
             1,
             "no temporary folders left"
         );
+    }
+
+    #[test]
+    fn folder_left_aside_by_a_killed_commit_is_put_back() {
+        let t = tempfile::tempdir().unwrap();
+        let dest = t.path().join("out");
+        let aside = t.path().join(".out.areal-old-4242");
+        fs::create_dir(&aside).unwrap();
+        fs::write(aside.join("summary.json"), "old").unwrap();
+        let e = OutputDir::prepare(&dest, false, &[])
+            .err()
+            .unwrap()
+            .to_string();
+        assert!(e.contains("--overwrite"), "{e}");
+        assert_eq!(
+            fs::read_to_string(dest.join("summary.json")).unwrap(),
+            "old"
+        );
+        assert!(!aside.exists());
+    }
+
+    #[cfg(target_os = "linux")]
+    #[test]
+    fn exchange_swaps_two_folders() {
+        let t = tempfile::tempdir().unwrap();
+        let (a, b) = (t.path().join("a"), t.path().join("b"));
+        fs::create_dir(&a).unwrap();
+        fs::create_dir(&b).unwrap();
+        fs::write(a.join("f"), "a").unwrap();
+        fs::write(b.join("f"), "b").unwrap();
+        exchange(&a, &b).unwrap();
+        assert_eq!(fs::read_to_string(a.join("f")).unwrap(), "b");
+        assert_eq!(fs::read_to_string(b.join("f")).unwrap(), "a");
+    }
+
+    #[test]
+    fn leftovers_of_dead_runs_go_but_a_running_one_is_kept() {
+        let t = tempfile::tempdir().unwrap();
+        let dest = t.path().join("out");
+        // PID 1 is always alive on Linux; 4194304 is above the kernel's pid_max limit.
+        let dead = t.path().join(".out.areal-tmp-4194304");
+        let live = t.path().join(".out.areal-tmp-1");
+        fs::create_dir(&dead).unwrap();
+        fs::create_dir(&live).unwrap();
+        let o = OutputDir::prepare(&dest, false, &[]).unwrap();
+        assert!(!dead.exists());
+        assert_eq!(live.exists(), cfg!(target_os = "linux"));
+        drop(o);
     }
 
     #[test]

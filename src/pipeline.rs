@@ -256,6 +256,7 @@ pub fn compute_range(
         sink,
         &opts.progress,
     )?;
+    warnings.extend(raster.warnings());
     let binary = totals.all_binary;
     if binary {
         if !(threshold.value > 0.0 && threshold.value <= 1.0) {
@@ -388,7 +389,9 @@ fn classify_pass(
         progress.start("classifying, labelling and writing rows", h as u64);
         let mut pending: BTreeMap<usize, StripClasses> = BTreeMap::new();
         let mut expect = 0;
-        for msg in rx.iter() {
+        // `rx` is moved in: an early return drops it, so workers blocked on a full
+        // channel get an error instead of waiting forever for the scope to end.
+        for msg in rx {
             let strip = msg?;
             pending.insert(strip.index, strip);
             while let Some(strip) = pending.remove(&expect) {
@@ -686,6 +689,8 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
         cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
         metrics: None,
     };
+    let mut summary = summary;
+    crate::review::review(&mut summary);
     Ok(RangeResult {
         summary,
         patches,

@@ -3,7 +3,9 @@
 //! The suitability raster is opened read-only, checked (one band, north-up, a CRS) and
 //! read in row strips; it is never held whole. Values come back as `f64` (exact for every
 //! GDAL data type up to 32-bit integers and for float32/float64). Nodata (the band's
-//! nodata value) and non-finite values (NaN, +-inf) are both treated as "no data".
+//! nodata value) and non-finite values (NaN, +-inf) are both treated as "no data"; the
+//! non-finite cells met while reading are counted for a warning, and a nodata value that
+//! cannot occur in an integer band (a fraction, or out of the type's range) is warned of.
 //!
 //! `classes.tif` is written as a tiled, DEFLATE-compressed uint8 GeoTIFF on the input
 //! grid with a colour table and category names.
@@ -13,6 +15,8 @@ use gdal::raster::{ColorEntry, ColorTable, PaletteInterpretation, RasterCreation
 use gdal::{Dataset, DatasetOptions, DriverManager, GdalOpenFlags, Metadata};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::{Arc, Mutex};
 
 /// An opened suitability raster.
 pub struct SuitabilityRaster {
@@ -22,6 +26,85 @@ pub struct SuitabilityRaster {
     nodata: Option<f64>,
     data_type: String,
     fits_f32: bool,
+    /// Non-finite cells met in the rows read so far, each row counted once.
+    non_finite: NonFiniteCount,
+    /// Warnings about the raster found when opening it.
+    open_warnings: Vec<String>,
+}
+
+/// Non-finite cells seen, shared by every reader of one raster; a row read twice (a
+/// second pass) is counted once.
+#[derive(Debug, Clone)]
+struct NonFiniteCount {
+    cells: Arc<AtomicU64>,
+    rows_seen: Arc<Mutex<Vec<bool>>>,
+}
+
+impl NonFiniteCount {
+    fn new(height: usize) -> Self {
+        NonFiniteCount {
+            cells: Arc::new(AtomicU64::new(0)),
+            rows_seen: Arc::new(Mutex::new(vec![false; height])),
+        }
+    }
+
+    /// Add the non-finite values of the strip at `y0` (`rows` rows of `width`), unless
+    /// the strip was counted before.
+    fn add<T: Copy>(
+        &self,
+        y0: usize,
+        rows: usize,
+        width: usize,
+        values: &[T],
+        finite: fn(T) -> bool,
+    ) {
+        let mut seen = self.rows_seen.lock().unwrap_or_else(|e| e.into_inner());
+        let mut n = 0u64;
+        for r in 0..rows {
+            if !std::mem::replace(&mut seen[y0 + r], true) {
+                let row = &values[r * width..(r + 1) * width];
+                n += row.iter().filter(|&&v| !finite(v)).count() as u64;
+            }
+        }
+        self.cells.fetch_add(n, Ordering::Relaxed);
+    }
+
+    /// Add `n` non-finite cells counted in the strip at `y0`, unless it was counted before.
+    fn add_strip(&self, y0: usize, rows: usize, n: u64) {
+        let mut seen = self.rows_seen.lock().unwrap_or_else(|e| e.into_inner());
+        if !seen[y0] {
+            seen[y0..y0 + rows].iter_mut().for_each(|r| *r = true);
+            self.cells.fetch_add(n, Ordering::Relaxed);
+        }
+    }
+}
+
+/// The range of values of an integer GDAL band type, `None` for float types.
+fn integer_range(t: gdal::raster::GdalDataType) -> Option<(f64, f64)> {
+    use gdal::raster::GdalDataType as T;
+    Some(match t {
+        T::UInt8 => (0.0, u8::MAX as f64),
+        T::UInt16 => (0.0, u16::MAX as f64),
+        T::Int16 => (i16::MIN as f64, i16::MAX as f64),
+        T::UInt32 => (0.0, u32::MAX as f64),
+        T::Int32 => (i32::MIN as f64, i32::MAX as f64),
+        T::UInt64 => (0.0, u64::MAX as f64),
+        T::Int64 => (i64::MIN as f64, i64::MAX as f64),
+        _ => return None,
+    })
+}
+
+/// GDAL's name of a band type ("Byte", "Int16", "Float32", ...).
+fn type_name(t: gdal::raster::GdalDataType) -> String {
+    // SAFETY: GDALGetDataTypeName returns a static string or null.
+    let p = unsafe { gdal_sys::GDALGetDataTypeName(t as gdal_sys::GDALDataType::Type) };
+    if p.is_null() {
+        format!("{t:?}")
+    } else {
+        unsafe { std::ffi::CStr::from_ptr(p) }
+            .to_string_lossy()
+            .into_owned()
+    }
 }
 
 /// Rows read per strip: a multiple of the output tile height.
@@ -98,6 +181,17 @@ impl SuitabilityRaster {
         use gdal::raster::GdalDataType as T;
         // float32 holds these types exactly; wider ones are read as float64.
         let fits_f32 = matches!(band_type, T::UInt8 | T::UInt16 | T::Int16 | T::Float32);
+        let mut open_warnings = Vec::new();
+        if let (Some(nd), Some((lo, hi))) = (nodata, integer_range(band_type)) {
+            if nd.is_nan() || nd.fract() != 0.0 || nd < lo || nd > hi {
+                open_warnings.push(format!(
+                    "{}: nodata value {nd} cannot occur in a {} band (values {lo}..{hi}), so no \
+                     cell is treated as nodata; set the right one with gdal_edit.py -a_nodata",
+                    path.display(),
+                    type_name(band_type)
+                ));
+            }
+        }
         let grid = GridSpec {
             width: w,
             height: h,
@@ -112,7 +206,23 @@ impl SuitabilityRaster {
             nodata,
             data_type,
             fits_f32,
+            non_finite: NonFiniteCount::new(h),
+            open_warnings,
         })
+    }
+
+    /// Warnings about the raster: an impossible nodata value, and the non-finite cells
+    /// met in the rows read so far (call after the pass).
+    pub fn warnings(&self) -> Vec<String> {
+        let mut w = self.open_warnings.clone();
+        let n = self.non_finite.cells.load(Ordering::Relaxed);
+        if n > 0 {
+            w.push(format!(
+                "{}: {n} cell(s) are NaN or infinite; they were treated as nodata",
+                self.path.display()
+            ));
+        }
+        w
     }
 
     /// The grid.
@@ -187,7 +297,9 @@ impl SuitabilityRaster {
         buf.resize(w * rows, 0.0);
         let band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "reading band 1"))?;
         band.read_into_slice::<f64>((0, y0 as isize), (w, rows), (w, rows), &mut buf[..], None)
-            .map_err(Error::gdal(&self.path, format!("reading rows {y0}..{}", y0 + rows)))
+            .map_err(Error::gdal(&self.path, format!("reading rows {y0}..{}", y0 + rows)))?;
+        self.non_finite.add(y0, rows, w, buf, f64::is_finite);
+        Ok(())
     }
 
     /// What a worker thread needs to open its own handle.
@@ -197,6 +309,7 @@ impl SuitabilityRaster {
             width: self.grid.width,
             nodata: self.nodata,
             as_f32: self.fits_f32,
+            non_finite: self.non_finite.clone(),
         }
     }
 }
@@ -208,6 +321,7 @@ pub struct ReaderSpec {
     width: usize,
     nodata: Option<f64>,
     as_f32: bool,
+    non_finite: NonFiniteCount,
 }
 
 impl ReaderSpec {
@@ -224,6 +338,7 @@ impl ReaderSpec {
             width: self.width,
             nodata: self.nodata,
             as_f32: self.as_f32,
+            non_finite: self.non_finite.clone(),
         })
     }
 }
@@ -235,6 +350,7 @@ pub struct StripReader {
     width: usize,
     nodata: Option<f64>,
     as_f32: bool,
+    non_finite: NonFiniteCount,
 }
 
 /// Buffers a [`StripReader`] reuses between strips.
@@ -260,17 +376,19 @@ impl StripReader {
         let band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "reading band 1"))?;
         let what = || format!("reading rows {y0}..{}", y0 + rows);
         codes.resize(n, 0);
+        let mut non_finite = 0u64;
         let binary = if self.as_f32 {
             bufs.f32s.resize(n, 0.0);
             band.read_into_slice::<f32>((0, y0 as isize), (self.width, rows), (self.width, rows), &mut bufs.f32s, None)
                 .map_err(Error::gdal(&self.path, what()))?;
-            code_cells_f32(&bufs.f32s, codes, t, self.nodata)
+            code_cells_f32(&bufs.f32s, codes, t, self.nodata, &mut non_finite)
         } else {
             bufs.f64s.resize(n, 0.0);
             band.read_into_slice::<f64>((0, y0 as isize), (self.width, rows), (self.width, rows), &mut bufs.f64s, None)
                 .map_err(Error::gdal(&self.path, what()))?;
-            code_cells_f64(&bufs.f64s, codes, t, self.nodata)
+            code_cells_f64(&bufs.f64s, codes, t, self.nodata, &mut non_finite)
         };
+        self.non_finite.add_strip(y0, rows, non_finite);
         Ok(binary)
     }
 }
@@ -288,29 +406,50 @@ fn f32_threshold(t: f64) -> f32 {
 }
 
 /// Code float32 cells (branch-free, so the loop vectorises); returns whether all data
-/// cells are 0 or 1.
-fn code_cells_f32(values: &[f32], codes: &mut [u8], t: f64, nodata: Option<f64>) -> bool {
+/// cells are 0 or 1, and adds the NaN/inf cells to `non_finite`.
+fn code_cells_f32(
+    values: &[f32],
+    codes: &mut [u8],
+    t: f64,
+    nodata: Option<f64>,
+    non_finite: &mut u64,
+) -> bool {
     let t32 = f32_threshold(t);
     // As GDAL does for float32 bands, the nodata value is taken at float32 precision.
     let nd = nodata.map(|v| v as f32).unwrap_or(f32::NAN);
     let mut not_binary = 0u32;
+    let mut nf = 0u32;
     for (&v, k) in values.iter().zip(codes.iter_mut()) {
-        let missing = !v.is_finite() | (v == nd);
+        let inf_or_nan = !v.is_finite();
+        nf += inf_or_nan as u32;
+        let missing = inf_or_nan | (v == nd);
         not_binary |= (!missing & (v != 0.0) & (v != 1.0)) as u32;
         *k = if missing { class::NODATA } else { (v >= t32) as u8 };
     }
+    *non_finite += nf as u64;
     not_binary == 0
 }
 
-/// Code float64 cells; returns whether all data cells are 0 or 1.
-fn code_cells_f64(values: &[f64], codes: &mut [u8], t: f64, nodata: Option<f64>) -> bool {
+/// Code float64 cells; returns whether all data cells are 0 or 1, and adds the NaN/inf
+/// cells to `non_finite`.
+fn code_cells_f64(
+    values: &[f64],
+    codes: &mut [u8],
+    t: f64,
+    nodata: Option<f64>,
+    non_finite: &mut u64,
+) -> bool {
     let nd = nodata.unwrap_or(f64::NAN); // NaN never equals: no nodata value
     let mut not_binary = 0u32;
+    let mut nf = 0u32;
     for (&v, k) in values.iter().zip(codes.iter_mut()) {
-        let missing = !v.is_finite() | (v == nd);
+        let inf_or_nan = !v.is_finite();
+        nf += inf_or_nan as u32;
+        let missing = inf_or_nan | (v == nd);
         not_binary |= (!missing & (v != 0.0) & (v != 1.0)) as u32;
         *k = if missing { class::NODATA } else { (v >= t) as u8 };
     }
+    *non_finite += nf as u64;
     not_binary == 0
 }
 
@@ -337,15 +476,20 @@ mod tests {
         // CHECKS.md section 5: cells [0.1165, 0.118, 0.12, 0.13] with T = 0.12 -> [0, 0, 1, 1].
         let v = [0.1165f32, 0.118, 0.12, 0.13, -9999.0, f32::NAN, f32::INFINITY, f32::NEG_INFINITY];
         let mut k = [9u8; 8];
-        let binary = code_cells_f32(&v, &mut k, 0.12f32 as f64, Some(-9999.0));
+        let mut nf = 0;
+        let binary = code_cells_f32(&v, &mut k, 0.12f32 as f64, Some(-9999.0), &mut nf);
         assert_eq!(k, [0, 0, 1, 1, 255, 255, 255, 255]);
         assert!(!binary);
+        assert_eq!(nf, 3, "NaN, +inf and -inf");
         let v64: Vec<f64> = v.iter().map(|&x| x as f64).collect();
         let mut k64 = [9u8; 8];
-        code_cells_f64(&v64, &mut k64, 0.12f32 as f64, Some(-9999.0));
+        let mut nf64 = 0;
+        code_cells_f64(&v64, &mut k64, 0.12f32 as f64, Some(-9999.0), &mut nf64);
         assert_eq!(k64, k);
+        assert_eq!(nf64, 3);
         let mut kb = [9u8; 4];
-        assert!(code_cells_f32(&[0.0, 1.0, -9999.0, 1.0], &mut kb, 0.5, Some(-9999.0)));
+        let kb_binary = code_cells_f32(&[0.0, 1.0, -9999.0, 1.0], &mut kb, 0.5, Some(-9999.0), &mut nf);
+        assert!(kb_binary);
     }
 
     #[test]
@@ -353,7 +497,7 @@ mod tests {
         // A Float32 band with nodata "0.1": its cells hold 0.1f32 (0.100000001...), which
         // GDAL treats as nodata (the nodata value is cast to the band type; from memory).
         let mut k = [9u8; 2];
-        code_cells_f32(&[0.1, 0.9], &mut k, 0.5, Some(0.1));
+        code_cells_f32(&[0.1, 0.9], &mut k, 0.5, Some(0.1), &mut 0);
         assert_eq!(k, [255, 1]);
     }
 }
@@ -386,7 +530,7 @@ pub struct ClassWriter {
 impl ClassWriter {
     /// Create the GeoTIFF (tiled 256 x 256, DEFLATE, BIGTIFF if needed) on `grid`.
     pub fn create(path: &Path, grid: &GridSpec) -> Result<Self> {
-        let err = |op: &str| Error::gdal(path, op.to_string());
+        let err = |op: &str| output_error(path, op.to_string());
         let opts = RasterCreationOptions::from_iter([
             "TILED=YES",
             "BLOCKXSIZE=256",
@@ -444,10 +588,10 @@ impl ClassWriter {
     /// Write rows starting at `y0`; `rows` holds whole rows. Returns the buffer for reuse.
     pub fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         let n = rows.len() / self.width;
-        let mut band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "opening band 1"))?;
+        let mut band = self.ds.rasterband(1).map_err(output_error(&self.path, "opening band 1".into()))?;
         let mut buf = gdal::raster::Buffer::new((self.width, n), rows);
         band.write((0, y0 as isize), (self.width, n), &mut buf)
-            .map_err(Error::gdal(&self.path, format!("writing rows {y0}..{}", y0 + n)))?;
+            .map_err(output_error(&self.path, format!("writing rows {y0}..{}", y0 + n)))?;
         Ok(buf.into_shape_and_vec().1)
     }
 
@@ -456,7 +600,19 @@ impl ClassWriter {
         let path = self.path.clone();
         self.ds
             .close()
-            .map_err(Error::gdal(path, "closing the class raster"))?;
+            .map_err(output_error(&path, "closing the class raster".into()))?;
         Ok(())
+    }
+}
+
+/// A GDAL failure on an output file: an output error (exit 4), with GDAL's text.
+fn output_error(path: &Path, op: String) -> impl FnOnce(gdal::errors::GdalError) -> Error {
+    let path = path.to_path_buf();
+    move |e| Error::Output {
+        path,
+        reason: format!(
+            "{op} failed ({}); is the disk full or the folder not writable?",
+            crate::error::gdal_text(&e)
+        ),
     }
 }

@@ -80,8 +80,8 @@ pub struct Threshold {
 /// ```
 pub fn omission_threshold(values: &[f64], spec: ThresholdSpec) -> Result<Threshold> {
     if let Some(bad) = values.iter().find(|v| !v.is_finite()) {
-        return Err(Error::InvalidOption {
-            option: "--omission",
+        return Err(Error::Processing {
+            what: "threshold".into(),
             reason: format!(
                 "a record value is {bad}; nodata and non-finite cells must be excluded first"
             ),

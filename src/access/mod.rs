@@ -309,8 +309,8 @@ impl AccessMask {
     pub fn fill_row(&mut self, row: usize, out: &mut [bool]) -> Result<()> {
         let w = self.grid.width;
         if row >= self.grid.height || out.len() != w {
-            return Err(Error::InvalidOption {
-                option: "fill_row",
+            return Err(Error::Processing {
+                what: "accessible area M (fill_row)".into(),
                 reason: format!(
                     "row {row} with {} cells asked of a {}x{} grid",
                     out.len(),

@@ -128,6 +128,11 @@ pub(crate) fn read_polygons(path: &Path, grid: &GridSpec) -> Result<PolygonSourc
         }
         let mut g: Geometry = g.clone();
         g.flatten_to_2d();
+        if let Ok(geo) = g.to_geo() {
+            if let Some(why) = coordinate_problem(&geo, src.is_geographic()) {
+                return Err(bad(format!("feature {fid}: {why}")));
+            }
+        }
         if !g.is_valid() {
             g = g.make_valid(&CslStringList::new()).map_err(|e| {
                 bad(format!(
@@ -145,7 +150,8 @@ pub(crate) fn read_polygons(path: &Path, grid: &GridSpec) -> Result<PolygonSourc
             }
             g = g.transform(ct).map_err(|e| {
                 bad(format!(
-                    "feature {fid}: cannot reproject to the raster CRS ({e}); clip the polygon to the raster's area"
+                    "feature {fid}: cannot reproject to the raster CRS ({}); clip the polygon to the raster's area",
+                    crate::error::gdal_text(&e)
                 ))
             })?;
         }
@@ -172,6 +178,80 @@ pub(crate) fn read_polygons(path: &Path, grid: &GridSpec) -> Result<PolygonSourc
         )));
     }
     Ok(PolygonSource { polygons, warnings })
+}
+
+/// Largest coordinate magnitude accepted in a projected layer, in its units: no CRS in use
+/// comes near it (4e7 m, 1.3e8 ft round the Earth), and beyond it PROJ 9.1 can take
+/// endless time and densifying an edge to about a cell endless memory.
+const MAX_PROJECTED: f64 = 1e10;
+
+/// Why the coordinates of a feature cannot be used, if they cannot: a latitude outside
+/// -90..90 or an edge across the antimeridian written as a jump (geographic layers), a
+/// coordinate beyond [`MAX_PROJECTED`] (projected layers), or a non-finite value.
+fn coordinate_problem(g: &geo_types::Geometry<f64>, geographic: bool) -> Option<String> {
+    use geo::CoordsIter;
+    for c in g.coords_iter() {
+        if !c.x.is_finite() || !c.y.is_finite() {
+            return Some(format!("vertex ({}, {}) is not a finite number", c.x, c.y));
+        }
+        if geographic && c.y.abs() > 90.0 + 1e-9 {
+            return Some(format!(
+                "latitude {} is outside -90..90; check the coordinates and the layer's CRS",
+                short(c.y)
+            ));
+        }
+        if !geographic && (c.x.abs() > MAX_PROJECTED || c.y.abs() > MAX_PROJECTED) {
+            return Some(format!(
+                "vertex ({}, {}) lies beyond 1e10 units of the layer's CRS, far off the Earth; \
+                 check the coordinates and the layer's CRS",
+                short(c.x),
+                short(c.y)
+            ));
+        }
+    }
+    if geographic {
+        if let Some((a, b)) = seam_jump(g) {
+            return Some(format!(
+                "an edge goes from longitude {a} to {b}, more than 180 degrees; a polygon \
+                 crossing the antimeridian must be written with longitudes beyond 180 (e.g. 170 \
+                 to 190) or split at 180 (RFC 7946); if the edge really spans more than 180 \
+                 degrees, add vertices along it"
+            ));
+        }
+    }
+    None
+}
+
+/// A coordinate for a message: as written, or in exponent form when huge (1e20).
+fn short(v: f64) -> String {
+    if v.abs() >= 1e15 {
+        format!("{v:e}")
+    } else {
+        format!("{v}")
+    }
+}
+
+/// The first edge whose longitudes differ by more than 180 degrees: almost always a ring
+/// drawn across the antimeridian as 170 -> -170, which read literally covers the other
+/// side of the globe (or a coordinate that is no longitude at all). Edges of exactly 360
+/// degrees (-180 to 180, as in polar caps and global bands) are meant and pass.
+fn seam_jump(g: &geo_types::Geometry<f64>) -> Option<(f64, f64)> {
+    let ring_jump = |ring: &geo_types::LineString<f64>| {
+        ring.lines().find_map(|l| {
+            let d = (l.end.x - l.start.x).abs();
+            (d > 180.0 && (d - 360.0).abs() > 1e-9).then_some((l.start.x, l.end.x))
+        })
+    };
+    let poly_jump = |p: &Polygon<f64>| {
+        std::iter::once(p.exterior())
+            .chain(p.interiors())
+            .find_map(ring_jump)
+    };
+    match g {
+        geo_types::Geometry::Polygon(p) => poly_jump(p),
+        geo_types::Geometry::MultiPolygon(mp) => mp.0.iter().find_map(poly_jump),
+        _ => None,
+    }
 }
 
 /// Keep the polygons of a geometry (make_valid may return a collection with lines).

@@ -164,7 +164,8 @@ pub(crate) struct RangeArgs {
     /// Print summary.json on stdout instead of the readable summary.
     #[arg(long)]
     pub json: bool,
-    /// No progress bars on stderr (they are off anyway when stderr is not a terminal).
+    /// No progress bars and no warnings on stderr (warnings stay in summary.json; progress
+    /// bars are off anyway when stderr is not a terminal).
     #[arg(long)]
     pub quiet: bool,
     #[command(flatten)]

@@ -1,25 +1,92 @@
 //! Command-line front end. Parsing lives in `args`; this file dispatches and prints.
 //!
 //! Exit codes: 0 success; 2 usage or option error; 3 bad input (files, records, CRS);
-//! 4 output error (folder exists, not writable); 101 would be a panic (a bug).
+//! 4 output error (folder exists, not writable); 5 processing error (a computation that
+//! could not be completed on accepted inputs); 101 an internal error (a panic: a bug).
+//!
+//! stderr carries one `areal: error: ...` line on failure, and on success one
+//! `areal: warning: ...` line per warning of summary.json (unless `--quiet`, which also
+//! turns off the progress bars). GDAL's own
+//! messages are routed through a handler: its failures are kept and, when a run fails,
+//! the last one is added to the error line if our message does not already hold it; its warnings are
+//! printed once each as `areal: GDAL warning: ...` (unless `--quiet`).
 
 mod args;
 pub(crate) mod progress;
 
 use args::{Cli, Command};
 use clap::Parser;
+use gdal::errors::CplErrType;
+use std::io::Write;
 use std::process::ExitCode;
+use std::sync::Mutex;
+
+/// GDAL messages met during the run: (is_failure, text), in order, deduplicated.
+static GDAL_MESSAGES: Mutex<Vec<(bool, String)>> = Mutex::new(Vec::new());
+/// At most this many GDAL messages are kept.
+const GDAL_MESSAGES_KEPT: usize = 20;
+
+fn gdal_messages() -> Vec<(bool, String)> {
+    GDAL_MESSAGES.lock().map(|m| m.clone()).unwrap_or_default()
+}
+
+/// Keep GDAL's messages instead of letting it print `ERROR 1: ...` lines.
+fn route_gdal_messages() {
+    gdal::config::set_error_handler(|class, _no, msg| {
+        let failure = match class {
+            CplErrType::Failure | CplErrType::Fatal => true,
+            CplErrType::Warning => false,
+            CplErrType::None | CplErrType::Debug => return,
+        };
+        let msg = msg.trim().replace('\n', " ");
+        if let Ok(mut m) = GDAL_MESSAGES.lock() {
+            if m.len() < GDAL_MESSAGES_KEPT && !m.iter().any(|(_, t)| *t == msg) {
+                m.push((failure, msg));
+            }
+        }
+    });
+}
+
+/// A panic is a bug: say so in one line instead of Rust's default report.
+fn report_panics_as_bugs() {
+    std::panic::set_hook(Box::new(|info| {
+        eprintln!(
+            "areal: internal error (a bug in areal, not a problem with your data; please report \
+             it with the command line): {info}"
+        );
+    }));
+}
 
 pub(crate) fn main() -> ExitCode {
+    report_panics_as_bugs();
+    route_gdal_messages();
     let cli = Cli::parse();
     // areal reads each block once, in strips; a large block cache only costs memory.
     if std::env::var_os("GDAL_CACHEMAX").is_none() {
         let _ = gdal::config::set_config_option("GDAL_CACHEMAX", "32");
     }
-    match run(cli) {
+    let quiet = match &cli.command {
+        Command::Range(a) => a.quiet,
+        Command::Polygons(_) | Command::Extent(_) => false,
+    };
+    let result = run(cli);
+    let gdal = gdal_messages();
+    if !quiet {
+        for (_, w) in gdal.iter().filter(|(failure, _)| !failure) {
+            eprintln!("areal: GDAL warning: {w}");
+        }
+    }
+    match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("areal: error: {e}");
+            let mut line = e.to_string().replace('\n', " ");
+            // GDAL's last failure is usually the one behind the error.
+            if let Some((_, t)) = gdal.iter().rev().find(|(failure, _)| *failure) {
+                if !line.contains(t.as_str()) {
+                    line = format!("{line} (GDAL: {t})");
+                }
+            }
+            eprintln!("areal: error: {line}");
             ExitCode::from(e.exit_code())
         }
     }
@@ -30,15 +97,22 @@ fn run(cli: Cli) -> areal::Result<()> {
         Command::Range(a) => {
             let opts = a.to_options()?;
             let result = areal::run_range(&a.suitability, &a.records, &opts, &a.out, a.overwrite)?;
-            if a.json {
-                println!(
-                    "{}",
-                    serde_json::to_string_pretty(&result.summary).expect("summary serialises")
-                );
-            } else {
-                print!("{}", result.summary.to_text());
-                println!("  outputs         {}", a.out.display());
+            if !a.quiet {
+                for w in &result.summary.warnings {
+                    eprintln!("areal: warning: {}", w.replace('\n', " "));
+                }
             }
+            // The outputs are in place; a closed stdout (e.g. `| head`) is not an error.
+            let mut out = std::io::stdout().lock();
+            let _ = if a.json {
+                match serde_json::to_string_pretty(&result.summary) {
+                    Ok(j) => writeln!(out, "{j}"),
+                    Err(e) => writeln!(out, "{{\"error\": \"{e}\"}}"),
+                }
+            } else {
+                write!(out, "{}", result.summary.to_text())
+                    .and_then(|_| writeln!(out, "  outputs         {}", a.out.display()))
+            };
             Ok(())
         }
         Command::Polygons(a) => {
@@ -50,15 +124,17 @@ fn run(cli: Cli) -> areal::Result<()> {
                 &a.out,
                 a.overwrite,
             )?;
-            println!(
-                "areal polygons: {} patch(es), {} unreachable, {} record(s)",
+            let mut out = std::io::stdout().lock();
+            let mut text = format!(
+                "areal polygons: {} patch(es), {} unreachable, {} record(s)\n",
                 r.patches, r.unreachable, r.records
             );
             if let Some(c) = &r.equal_area_crs {
-                println!("  equal-area CRS  {c}");
+                text += &format!("  equal-area CRS  {c}\n");
             }
-            println!("  files           {}", r.files.join(", "));
-            println!("  outputs         {}", a.out.display());
+            text += &format!("  files           {}\n", r.files.join(", "));
+            text += &format!("  outputs         {}\n", a.out.display());
+            let _ = out.write_all(text.as_bytes());
             Ok(())
         }
         Command::Extent(a) => {

@@ -36,6 +36,19 @@ pub fn add_range_metrics(
             },
         })
         .collect();
+    let usable = records.iter().any(|r| {
+        r.usage == RecordUse::Used || (opts.metrics.keep_dropped && r.usage == RecordUse::BelowThreshold)
+    });
+    if !usable {
+        // A range run with no record left (e.g. a threshold above every record) still
+        // reports its areas; only the record-based metrics are left out, and it says so.
+        result.summary.warnings.push(
+            "no record is left for EOO and AOO (all are outside the raster, on nodata or below the threshold; \
+             --keep-dropped keeps the last): the metrics section is left out"
+                .into(),
+        );
+        return Ok(());
+    }
     let patches: Vec<PatchInfo> = result
         .patches
         .iter()

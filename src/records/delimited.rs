@@ -175,9 +175,13 @@ fn parse_coord(raw: &[u8], delimiter: u8) -> Coord {
 pub(super) fn read(path: &Path, opts: &super::RecordOptions) -> Result<RawRecords> {
     let srs = reproject::user_srs(&opts.crs, "--records-crs")?;
     let geographic = reproject::is_geographic_degrees(&srs);
-    let file = std::fs::File::open(path).map_err(Error::io(path))?;
+    let file = std::fs::File::open(path).map_err(Error::input_io(path))?;
     let mut buf = BufReader::new(file);
-    if buf.fill_buf().map_err(Error::io(path))?.starts_with(BOM) {
+    if buf
+        .fill_buf()
+        .map_err(Error::input_io(path))?
+        .starts_with(BOM)
+    {
         buf.consume(BOM.len());
     }
     // Read up to the first non-blank line (the header); the csv reader still sees every
@@ -185,7 +189,11 @@ pub(super) fn read(path: &Path, opts: &super::RecordOptions) -> Result<RawRecord
     let mut head = Vec::new();
     let header_start = loop {
         let start = head.len();
-        if buf.read_until(b'\n', &mut head).map_err(Error::io(path))? == 0 {
+        if buf
+            .read_until(b'\n', &mut head)
+            .map_err(Error::input_io(path))?
+            == 0
+        {
             return Err(Error::Records {
                 path: path.to_path_buf(),
                 reason: "no records: the file is empty".into(),

@@ -135,8 +135,8 @@ pub fn read_records(path: &Path, opts: &RecordOptions, raster_crs_wkt: &str) -> 
                  raster CRS or to WGS84; record skipped",
                 path.display(),
                 p.origin,
-                p.x,
-                p.y
+                short(p.x),
+                short(p.y)
             )),
         }
     }
@@ -199,7 +199,7 @@ fn is_delimited(path: &Path) -> Result<bool> {
     let mut head = Vec::with_capacity(4096);
     std::fs::File::open(path)
         .and_then(|f| f.take(4096).read_to_end(&mut head))
-        .map_err(Error::io(path))?;
+        .map_err(Error::input_io(path))?;
     Ok(delimited::looks_delimited(&head))
 }
 
@@ -243,6 +243,15 @@ fn check_geographic(path: &Path, raw: &mut RawRecords) -> Result<()> {
         ));
     }
     Ok(())
+}
+
+/// A coordinate for a message: as written, or in exponent form when huge (1.01e308).
+fn short(v: f64) -> String {
+    if v.abs() >= 1e15 {
+        format!("{v:e}")
+    } else {
+        format!("{v}")
+    }
 }
 
 /// The error for a file that yields no usable record.

@@ -76,7 +76,7 @@ def main():
             marg = ["--accessible", m] if mode == "polygon" else ["--buffer-km", a.buffer_km]
             out = os.path.join(DATA, f"out-{size}-{mode}")
             ok, s, mb, stdout, tail = timed([AREAL, "range", "--suitability", tif, "--records", occ,
-                                            "--omission", "5", *marg, "--out", out, "--overwrite", "--json"])
+                                            "--omission", "5", *marg, "--no-metrics", "--out", out, "--overwrite", "--json"])
             if not ok:
                 sys.exit(f"areal failed on {size} {mode}: {tail}")
             summary = json.loads(stdout)

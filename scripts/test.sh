@@ -9,5 +9,11 @@ cargo test --release --doc
 [ -x .venv/bin/python ] || python3 -m venv .venv
 .venv/bin/pip install --quiet --disable-pip-version-check 'shapely>=2' pyproj
 .venv/bin/python tests/py/check_geojson.py target/release/areal
+# EOO and AOO against shapely + pyproj (tests/py/check_eoo.py), in a venv at the repo root.
+if [ ! -x .venv/bin/python ]; then
+  python3 -m venv .venv || { echo "test: python3 -m venv failed; install python3-venv (apt-get install python3-venv) and run again" >&2; exit 1; }
+fi
+.venv/bin/python -c "import shapely, pyproj, numpy" 2>/dev/null || .venv/bin/pip install -q -r tests/py/requirements.txt
+.venv/bin/python tests/py/check_eoo.py target/release/areal
 # Atomic outputs: SIGKILL part way through runs on a large generated raster.
 bash tests/kill_test.sh

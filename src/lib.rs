@@ -12,6 +12,7 @@ pub mod access;
 pub mod area;
 mod error;
 mod grid;
+pub mod metrics;
 mod output;
 pub mod patches;
 mod pipeline;

@@ -42,6 +42,8 @@ pub struct RangeOptions {
     pub progress: ProgressHandle,
     /// Also write the vector outputs (`--vectors`): range.gpkg and GeoJSON files.
     pub vectors: Option<crate::vectors::VectorOptions>,
+    /// EOO, AOO, patch structure and reach (computed by [`run_range`]).
+    pub metrics: crate::metrics::MetricsOptions,
 }
 
 /// Receives progress of the long stages. Implementations must be cheap: `advance` is
@@ -685,6 +687,7 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
         area_method: b.areas.describe(),
         warnings,
         cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
+        metrics: None,
     };
     let mut summary = summary;
     crate::review::review(&mut summary);
@@ -773,6 +776,10 @@ impl LonLat {
             max_lon,
             max_lat,
             records: p.records,
+            nearest_patch_km: None,
+            nearest_occupied_km: None,
+            reachable: None,
+            reach_jumps: None,
         })
     }
 }
@@ -805,8 +812,12 @@ pub fn run_range(
     let grid = SuitabilityRaster::open(suitability)?.grid().clone();
     let classes_path: PathBuf = dir.file("classes.tif");
     let mut writer = crate::raster_io::ClassWriter::create(&classes_path, &grid)?;
-    let result = compute_range(suitability, records, opts, &mut writer)?;
+    let mut result = compute_range(suitability, records, opts, &mut writer)?;
     writer.close()?;
+    if opts.metrics.enabled {
+        let mut classes = SuitabilityRaster::open(&classes_path)?;
+        crate::metrics::add_range_metrics(&mut result, &grid, &mut classes, &classes_path, opts)?;
+    }
     write_csv(&dir.file("patches.csv"), &result.patches)?;
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&result.summary).expect("summary serialises");

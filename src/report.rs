@@ -40,6 +40,9 @@ pub struct Summary {
     pub warnings: Vec<String>,
     /// The usual cautions.
     pub cautions: Vec<String>,
+    /// EOO, AOO, criterion B comparison, patch structure and reach (docs/eoo-aoo.md);
+    /// null when the metrics were not computed.
+    pub metrics: Option<crate::metrics::Metrics>,
 }
 
 /// Inputs and grid.
@@ -195,6 +198,14 @@ pub struct PatchRow {
     pub max_lat: f64,
     /// Usable records inside the patch.
     pub records: u64,
+    /// Edge-to-edge geodesic distance to the nearest other patch, km (empty without metrics).
+    pub nearest_patch_km: Option<f64>,
+    /// Edge-to-edge geodesic distance to the nearest other occupied patch, km.
+    pub nearest_occupied_km: Option<f64>,
+    /// Reached from the occupied patches by jumps of at most `--gap-km` (empty without it).
+    pub reachable: Option<bool>,
+    /// Fewest jumps that reach it (0 for occupied patches; empty when unreached).
+    pub reach_jumps: Option<u32>,
 }
 
 /// One row of `records.csv`.
@@ -289,6 +300,11 @@ impl Summary {
         ));
         line(format!("  area method     {}", self.area_method));
         line(format!("  connectivity    {}-neighbour", p.connectivity));
+        if let Some(m) = &self.metrics {
+            for l in m.text_lines() {
+                line(l);
+            }
+        }
         for w in &self.warnings {
             line(format!("  warning: {w}"));
         }

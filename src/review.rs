@@ -111,6 +111,7 @@ mod tests {
             },
             area_method: String::new(),
             warnings: vec![],
+            metrics: None,
             cautions: vec![],
         }
     }

@@ -113,6 +113,7 @@ fn streaming(path: &Path, records: &Path, t: f64, eight: bool) -> (Vec<u8>, area
         records: RecordOptions::default(),
         progress: Default::default(),
         vectors: None,
+        metrics: Default::default(),
     };
     let w = Dataset::open(path).unwrap().raster_size().0;
     let mut sink = MemorySink::new(w);

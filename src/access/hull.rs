@@ -108,6 +108,18 @@ impl SphericalHull {
         })
     }
 
+    /// The hull's vertices as geodetic (lon, lat) degrees, counter-clockwise seen from
+    /// outside the sphere (one vertex for a point, the two ends for a segment).
+    pub(crate) fn vertices_lonlat(&self) -> Vec<(f64, f64)> {
+        self.verts
+            .iter()
+            .map(|&v| {
+                let (lat, lon) = lat_lon(v);
+                (lon, lat)
+            })
+            .collect()
+    }
+
     /// Number of hull vertices (1 for a point, 2 for a segment).
     pub(crate) fn n_vertices(&self) -> usize {
         self.verts.len()

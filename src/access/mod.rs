@@ -13,8 +13,8 @@
 //! cells of projected grids are transformed to WGS84 lon/lat for the geodesic parts.
 //! See docs/accessible-area.md for the methods and their exactness.
 
-mod buffer;
-mod hull;
+pub(crate) mod buffer;
+pub(crate) mod hull;
 mod polygon;
 #[cfg(test)]
 mod tests;

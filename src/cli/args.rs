@@ -1,6 +1,7 @@
 //! clap definitions: syntax only. Values are checked by the library's constructors.
 
 use areal::access::AccessSpec;
+use areal::metrics::MetricsOptions;
 use areal::patches::Connectivity;
 use areal::records::RecordOptions;
 use areal::{RangeOptions, ThresholdSpec};
@@ -22,6 +23,94 @@ pub(crate) enum Command {
     Range(RangeArgs),
     /// Write the vector outputs (range.gpkg, GeoJSON) of an earlier `areal range` run.
     Polygons(PolygonsArgs),
+    /// Extent of occurrence (EOO) and area of occupancy (AOO) of records, optionally with a
+    /// range raster (classes.tif) for the modelled-range figures, patch distances and reach.
+    Extent(ExtentArgs),
+}
+
+/// Options of the range metrics, shared by `range` and `extent`.
+#[derive(clap::Args, Debug)]
+pub(crate) struct MetricsArgs {
+    /// AOO grid cell width in km (the reference grid is 2 km).
+    #[arg(
+        long,
+        value_name = "KM",
+        default_value_t = 2.0,
+        allow_negative_numbers = true
+    )]
+    pub aoo_cell_km: f64,
+    /// Patches smaller than this area (km2) count as small in the patch structure.
+    #[arg(long, value_name = "KM2", allow_negative_numbers = true)]
+    pub min_patch_km2: Option<f64>,
+    /// Stepping-stone reach: largest jump between patches, km (edge to edge).
+    #[arg(long, value_name = "KM", allow_negative_numbers = true)]
+    pub gap_km: Option<f64>,
+    /// Keep records dropped by the threshold in EOO and AOO.
+    #[arg(long)]
+    pub keep_dropped: bool,
+}
+
+impl MetricsArgs {
+    pub(crate) fn to_options(&self, enabled: bool) -> areal::Result<MetricsOptions> {
+        let m = MetricsOptions {
+            enabled,
+            aoo_cell_km: self.aoo_cell_km,
+            min_patch_km2: self.min_patch_km2,
+            gap_km: self.gap_km,
+            keep_dropped: self.keep_dropped,
+        };
+        m.check()?;
+        Ok(m)
+    }
+}
+
+#[derive(clap::Args, Debug)]
+pub(crate) struct ExtentArgs {
+    /// Occurrence records: CSV (Darwin Core or lon/lat columns) or a GDAL point layer.
+    #[arg(long, value_name = "FILE")]
+    pub records: PathBuf,
+    /// A range raster written by `areal range` (classes.tif) for the modelled-range figures.
+    #[arg(long, value_name = "FILE")]
+    pub range: Option<PathBuf>,
+    /// Patch connectivity of the range: 8 (queen, default) or 4 (rook).
+    #[arg(long, value_name = "8|4", default_value = "8", value_parser = ["8", "4"])]
+    pub connectivity: String,
+    #[command(flatten)]
+    pub metrics: MetricsArgs,
+    /// Column holding record longitudes (or x).
+    #[arg(long, value_name = "NAME")]
+    pub lon_col: Option<String>,
+    /// Column holding record latitudes (or y).
+    #[arg(long, value_name = "NAME")]
+    pub lat_col: Option<String>,
+    /// CRS of CSV record coordinates.
+    #[arg(long, value_name = "CRS", default_value = "EPSG:4326")]
+    pub records_crs: String,
+    /// Layer of a multi-layer records file.
+    #[arg(long, value_name = "NAME")]
+    pub records_layer: Option<String>,
+    /// Print the figures as JSON.
+    #[arg(long)]
+    pub json: bool,
+}
+
+impl ExtentArgs {
+    pub(crate) fn record_options(&self) -> RecordOptions {
+        RecordOptions {
+            lon_col: self.lon_col.clone(),
+            lat_col: self.lat_col.clone(),
+            crs: self.records_crs.clone(),
+            layer: self.records_layer.clone(),
+        }
+    }
+
+    pub(crate) fn connectivity(&self) -> Connectivity {
+        if self.connectivity == "4" {
+            Connectivity::Four
+        } else {
+            Connectivity::Eight
+        }
+    }
 }
 
 #[derive(clap::Args, Debug)]
@@ -81,6 +170,11 @@ pub(crate) struct RangeArgs {
     pub quiet: bool,
     #[command(flatten)]
     pub vectors: VectorArgs,
+    #[command(flatten)]
+    pub metrics: MetricsArgs,
+    /// Skip the range metrics (EOO, AOO, patch distances, reach).
+    #[arg(long)]
+    pub no_metrics: bool,
 }
 
 /// Options of the vector outputs, shared by `range` and `polygons`.
@@ -206,6 +300,7 @@ impl RangeArgs {
                 || self.vectors.vector_crs.is_some()
                 || self.vectors.simplify_m.is_some())
             .then(|| self.vectors.to_options()),
+            metrics: self.metrics.to_options(!self.no_metrics)?,
         })
     }
 }

@@ -67,7 +67,7 @@ pub(crate) fn main() -> ExitCode {
     }
     let quiet = match &cli.command {
         Command::Range(a) => a.quiet,
-        Command::Polygons(_) => false,
+        Command::Polygons(_) | Command::Extent(_) => false,
     };
     let result = run(cli);
     let gdal = gdal_messages();
@@ -135,6 +135,34 @@ fn run(cli: Cli) -> areal::Result<()> {
             text += &format!("  files           {}\n", r.files.join(", "));
             text += &format!("  outputs         {}\n", a.out.display());
             let _ = out.write_all(text.as_bytes());
+            Ok(())
+        }
+        Command::Extent(a) => {
+            let opts = a.metrics.to_options(true)?;
+            let report = areal::metrics::extent(
+                &a.records,
+                &a.record_options(),
+                a.range.as_deref(),
+                a.connectivity(),
+                &opts,
+            )?;
+            if a.json {
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&report).expect("report serialises")
+                );
+            } else {
+                println!(
+                    "areal {}: extent of {}",
+                    report.areal_version, report.records_file
+                );
+                for l in report.metrics.text_lines() {
+                    println!("{l}");
+                }
+                for w in &report.warnings {
+                    println!("  warning: {w}");
+                }
+            }
             Ok(())
         }
     }

@@ -1,0 +1,188 @@
+//! A static k-d tree over labelled 3-D points (unit normals of patch corners), whose nodes
+//! know when all their points carry one label.
+//!
+//! Searches skip whole nodes whose single label the caller rejects: a patch looking for its
+//! nearest neighbour skips the parts of the tree that hold only its own corners, and reach
+//! skips the parts that hold only patches already reached. Distances are squared chords
+//! (Euclidean in 3-D); the caller turns them into geodesics and keeps its own bound.
+
+/// Points per leaf.
+const BUCKET: usize = 16;
+/// Label of a node holding several labels.
+const MIXED: u32 = u32::MAX;
+
+struct Node {
+    lo: [f64; 3],
+    hi: [f64; 3],
+    start: u32,
+    end: u32,
+    /// Children (0 for a leaf; the root is never a child).
+    kids: [u32; 2],
+    label: u32,
+}
+
+/// The tree: nodes and the points' order.
+pub(crate) struct KdTree {
+    nodes: Vec<Node>,
+    items: Vec<u32>,
+}
+
+fn d2(a: &[f64; 3], b: &[f64; 3]) -> f64 {
+    (a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2) + (a[2] - b[2]).powi(2)
+}
+
+impl Node {
+    fn min_d2(&self, x: &[f64; 3]) -> f64 {
+        (0..3)
+            .map(|k| (self.lo[k] - x[k]).max(x[k] - self.hi[k]).max(0.0).powi(2))
+            .sum()
+    }
+}
+
+impl KdTree {
+    /// A tree over points `items` (indices into `xyz` and `label`).
+    pub(crate) fn new(xyz: &[[f64; 3]], label: &[u32], mut items: Vec<u32>) -> KdTree {
+        let mut nodes = Vec::with_capacity(2 * items.len() / BUCKET + 1);
+        if !items.is_empty() {
+            build(xyz, label, &mut items, 0, &mut nodes);
+        }
+        KdTree { nodes, items }
+    }
+
+    /// Visit, nearest nodes first, every point whose label `skip` does not reject and whose
+    /// squared chord to `x` is at most the bound. `visit(point, d2)` returns the new bound
+    /// (it may only shrink).
+    pub(crate) fn search(
+        &self,
+        xyz: &[[f64; 3]],
+        label: &[u32],
+        x: &[f64; 3],
+        mut bound: f64,
+        skip: impl Fn(u32) -> bool,
+        mut visit: impl FnMut(usize, f64) -> f64,
+    ) {
+        if self.nodes.is_empty() {
+            return;
+        }
+        let mut stack: Vec<(u32, f64)> = vec![(0, self.nodes[0].min_d2(x))];
+        while let Some((n, dmin)) = stack.pop() {
+            let node = &self.nodes[n as usize];
+            if dmin > bound || (node.label != MIXED && skip(node.label)) {
+                continue;
+            }
+            if node.kids[0] == 0 {
+                for &i in &self.items[node.start as usize..node.end as usize] {
+                    let i = i as usize;
+                    if skip(label[i]) {
+                        continue;
+                    }
+                    let d = d2(&xyz[i], x);
+                    if d <= bound {
+                        bound = visit(i, d);
+                    }
+                }
+            } else {
+                let (a, b) = (node.kids[0], node.kids[1]);
+                let (da, db) = (
+                    self.nodes[a as usize].min_d2(x),
+                    self.nodes[b as usize].min_d2(x),
+                );
+                // Nearer child last, so it is searched first.
+                if da <= db {
+                    stack.push((b, db));
+                    stack.push((a, da));
+                } else {
+                    stack.push((a, da));
+                    stack.push((b, db));
+                }
+            }
+        }
+    }
+}
+
+fn build(
+    xyz: &[[f64; 3]],
+    label: &[u32],
+    items: &mut [u32],
+    offset: usize,
+    nodes: &mut Vec<Node>,
+) -> u32 {
+    let mut lo = [f64::INFINITY; 3];
+    let mut hi = [f64::NEG_INFINITY; 3];
+    let first = label[items[0] as usize];
+    let mut one = true;
+    for &i in items.iter() {
+        let p = &xyz[i as usize];
+        for k in 0..3 {
+            lo[k] = lo[k].min(p[k]);
+            hi[k] = hi[k].max(p[k]);
+        }
+        one &= label[i as usize] == first;
+    }
+    let id = nodes.len() as u32;
+    nodes.push(Node {
+        lo,
+        hi,
+        start: offset as u32,
+        end: (offset + items.len()) as u32,
+        kids: [0, 0],
+        label: if one { first } else { MIXED },
+    });
+    if items.len() > BUCKET {
+        let axis = (0..3)
+            .max_by(|&a, &b| (hi[a] - lo[a]).total_cmp(&(hi[b] - lo[b])))
+            .unwrap_or(0);
+        let mid = items.len() / 2;
+        items.select_nth_unstable_by(mid, |&a, &b| {
+            xyz[a as usize][axis].total_cmp(&xyz[b as usize][axis])
+        });
+        let (left, right) = items.split_at_mut(mid);
+        let l = build(xyz, label, left, offset, nodes);
+        let r = build(xyz, label, right, offset + mid, nodes);
+        nodes[id as usize].kids = [l, r];
+    }
+    id
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // Against brute force (no outside source: every point is compared by hand-written loop).
+    #[test]
+    fn nearest_with_a_skipped_label_matches_brute_force() {
+        // A deterministic scatter of 2,000 points on a patch of the unit sphere, 7 labels.
+        let mut s = 12345u64;
+        let mut rnd = || {
+            s = s
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (s >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let xyz: Vec<[f64; 3]> = (0..2000)
+            .map(|_| crate::access::buffer::unit(40.0 + 5.0 * rnd(), 10.0 + 5.0 * rnd()))
+            .collect();
+        let label: Vec<u32> = (0..2000).map(|i| (i * 7 / 2000) as u32).collect();
+        let tree = KdTree::new(&xyz, &label, (0..2000).collect());
+        for q in (0..2000).step_by(97) {
+            let own = label[q];
+            let brute = (0..2000)
+                .filter(|&j| label[j] != own)
+                .map(|j| d2(&xyz[j], &xyz[q]))
+                .fold(f64::INFINITY, f64::min);
+            let mut best = f64::INFINITY;
+            tree.search(
+                &xyz,
+                &label,
+                &xyz[q],
+                best,
+                |l| l == own,
+                |_, d| {
+                    best = best.min(d);
+                    best
+                },
+            );
+            assert_eq!(best, brute);
+        }
+    }
+}

@@ -1,0 +1,269 @@
+//! Metrics pass, distances and stepping-stone reach on hand-made class grids.
+
+use super::scan::{scan, InMemoryClasses};
+use super::*;
+use crate::patches::{label_grid, Connectivity};
+use crate::GridSpec;
+use geographiclib_rs::{Geodesic, InverseGeodesic};
+use std::path::Path;
+
+fn cells_per_patch(classes: &[u8], width: usize, conn: Connectivity, wrap: bool) -> Vec<u64> {
+    let h = classes.len() / width;
+    let mut src = InMemoryClasses { classes, width };
+    let sc = scan(&mut src, width, h, wrap, conn, Path::new("mem")).unwrap();
+    let mut cells = vec![0u64; sc.patches];
+    for (r, &p) in sc.runs.iter().zip(&sc.run_patch) {
+        cells[p as usize - 1] += (r.end - r.start) as u64;
+    }
+    cells
+}
+
+// The CHECKS.md §7 6×6 grid ([DER], checked there with scipy.ndimage.label [REF]):
+// 8-connectivity sizes [3, 2, 7, 1], 4-connectivity [3, 1, 1, 1, 1, 3, 1, 1, 1], scan order.
+#[rustfmt::skip]
+const SIX: [u8; 36] = [
+    1, 1, 0, 0, 0, 1,
+    1, 0, 0, 0, 1, 0,
+    0, 0, 1, 0, 0, 0,
+    0, 1, 0, 1, 1, 0,
+    0, 0, 0, 0, 1, 0,
+    1, 0, 0, 1, 0, 1,
+];
+
+#[test]
+fn scan_numbers_patches_like_the_published_grid() {
+    assert_eq!(
+        cells_per_patch(&SIX, 6, Connectivity::Eight, false),
+        [3, 2, 7, 1]
+    );
+    assert_eq!(
+        cells_per_patch(&SIX, 6, Connectivity::Four, false),
+        [3, 1, 1, 1, 1, 3, 1, 1, 1]
+    );
+    // Wrapping joins column 0 and column 5 ([DER]): with 8 neighbours, (0,5)-(0,0) joins
+    // the first two patches and (5,5)-(5,0) the last two: 2 patches of 5 and 8 cells.
+    assert_eq!(cells_per_patch(&SIX, 6, Connectivity::Eight, true), [5, 8]);
+}
+
+#[test]
+fn boundary_cells_are_the_rim_of_a_block() {
+    // A 4×4 block in a 6×6 grid: the 12 rim cells are boundary cells, the 4 inner ones not;
+    // on the raster edge every patch cell is a boundary cell ([DER]).
+    let mut g = [0u8; 36];
+    for r in 1..5 {
+        for c in 1..5 {
+            g[r * 6 + c] = 1;
+        }
+    }
+    let mut src = InMemoryClasses {
+        classes: &g,
+        width: 6,
+    };
+    let sc = scan(&mut src, 6, 6, false, Connectivity::Eight, Path::new("m")).unwrap();
+    assert_eq!(sc.boundary.len(), 12);
+    assert!(!sc
+        .boundary
+        .iter()
+        .any(|&(r, c, _)| (2..4).contains(&r) && (2..4).contains(&c)));
+    let full = [2u8; 9];
+    let mut src = InMemoryClasses {
+        classes: &full,
+        width: 3,
+    };
+    let sc = scan(&mut src, 3, 3, false, Connectivity::Eight, Path::new("m")).unwrap();
+    assert_eq!(sc.boundary.len(), 8);
+}
+
+/// One row of patches at the equator, 0.01-degree cells, in row 1 of a 3-row grid:
+/// A cols 0-1 (class 1, one record), gap 2, B cols 4-5 (class 1), gap 5, C cols 11-12
+/// (class 2), gap 2, D cols 15-16 (class 2), gap 10, E cols 27-28 (class 1).
+fn strip_grid() -> (GridSpec, Vec<u8>, Vec<PatchInfo>) {
+    let w = 30;
+    let mut g = vec![0u8; 3 * w];
+    for (cols, k) in [
+        (0..2, 1u8),
+        (4..6, 1),
+        (11..13, 2),
+        (15..17, 2),
+        (27..29, 1),
+    ] {
+        for c in cols {
+            g[w + c] = k;
+        }
+    }
+    let (_, patches) = label_grid(&g, w, Connectivity::Eight, false);
+    let info = patches
+        .iter()
+        .map(|p| PatchInfo {
+            id: p.id,
+            class: p.class,
+            cells: p.cells,
+            area_km2: p.cells as f64,
+            records: u64::from(p.id == 1),
+        })
+        .collect();
+    (GridSpec::lonlat(w, 3, 0.0, 0.015, 0.01), g, info)
+}
+
+/// GeographicLib distance (km) between corners at latitude 0.005 separated by `cells` columns
+/// from column `c0` (the nearest corners of two patches in one row).
+fn gap_km(c0: usize, cells: usize) -> f64 {
+    let g = Geodesic::wgs84();
+    let d: f64 = g.inverse(0.005, c0 as f64 * 0.01, 0.005, (c0 + cells) as f64 * 0.01);
+    d / 1000.0
+}
+
+fn run(gap: Option<f64>) -> (Metrics, Vec<PatchMetrics>) {
+    let (grid, g, info) = strip_grid();
+    let recs = [MetricRecord {
+        lon: 0.005,
+        lat: 0.0,
+        usage: RecordUse::Used,
+    }];
+    let opts = MetricsOptions {
+        gap_km: gap,
+        min_patch_km2: Some(2.5),
+        ..Default::default()
+    };
+    let mut src = InMemoryClasses {
+        classes: &g,
+        width: grid.width,
+    };
+    range_metrics(
+        &grid,
+        &mut src,
+        Path::new("mem"),
+        Connectivity::Eight,
+        Path::new("r.csv"),
+        &recs,
+        &info,
+        &opts,
+    )
+    .unwrap()
+}
+
+#[test]
+fn edge_to_edge_distances_between_patches() {
+    // Sources: GeographicLib Inverse (geographiclib-rs) between the facing corners.
+    let (_, cols) = run(None);
+    let close = |a: Option<f64>, b: f64| (a.unwrap() - b).abs() < 1e-9;
+    assert!(close(cols[0].nearest_patch_km, gap_km(2, 2))); // A-B
+    assert!(close(cols[1].nearest_patch_km, gap_km(2, 2))); // B-A
+    assert!(close(cols[2].nearest_patch_km, gap_km(13, 2))); // C-D, not C-B (5 cells)
+    assert!(close(cols[4].nearest_patch_km, gap_km(17, 10))); // E-D
+                                                              // Only A is occupied: its nearest other occupied patch does not exist.
+    assert_eq!(cols[0].nearest_occupied_km, None);
+    assert!(close(cols[2].nearest_occupied_km, gap_km(2, 9))); // C-A
+    assert!(close(cols[3].nearest_occupied_km, gap_km(2, 13))); // D-A
+    assert!(cols.iter().all(|c| c.reachable.is_none()));
+}
+
+#[test]
+fn stepping_stone_reach_with_known_gaps() {
+    // Gaps (cells of 0.01 degree at the equator, about 1.11 km): A-B 2, B-C 5, C-D 2, D-E 10
+    // ([DER] by construction; distances from GeographicLib as above).
+    let g2 = gap_km(2, 2);
+    let g5 = gap_km(6, 5);
+    // Just above 2 cells: A reaches B only.
+    let (m, cols) = run(Some(g2 + 0.01));
+    let jumps: Vec<Option<u32>> = cols.iter().map(|c| c.reach_jumps).collect();
+    assert_eq!(jumps, [Some(0), Some(1), None, None, None]);
+    let r = m.reach.unwrap();
+    assert_eq!((r.reachable_patches, r.reachable_km2), (2, 4.0));
+    assert_eq!(r.reachable_outside_accessible_km2, 0.0);
+    // Just above 5 cells: A -> B -> C -> D in successive jumps; E (10 cells away) is not reached.
+    let (m, cols) = run(Some(g5 + 0.01));
+    let jumps: Vec<Option<u32>> = cols.iter().map(|c| c.reach_jumps).collect();
+    assert_eq!(jumps, [Some(0), Some(1), Some(2), Some(3), None]);
+    assert_eq!(cols[4].reachable, Some(false));
+    let r = m.reach.unwrap();
+    assert_eq!((r.reachable_patches, r.unreachable_patches), (4, 1));
+    assert_eq!(r.reachable_outside_accessible_km2, 4.0); // C and D, 2 "km2" each here
+                                                         // Just below 5 cells: C stays out, and D with it.
+    let (_, cols) = run(Some(g5 - 0.01));
+    assert_eq!(cols[2].reachable, Some(false));
+    assert_eq!(cols[3].reachable, Some(false));
+}
+
+#[test]
+fn modelled_figures_of_the_occupied_patch() {
+    let (m, _) = run(None);
+    let md = m.modelled.unwrap();
+    assert_eq!(md.occupied_patches, 1);
+    // A is 2 cells whose centres are 0.01 degree (1.11 km) apart: 1 grid cell at some of the
+    // 16 origins, 2 at others ([DER]).
+    assert_eq!((md.figures.aoo_min_km2, md.figures.aoo_max_km2), (4.0, 8.0));
+    // Modelled hull: A's rectangle lon 0..0.02, lat -0.005..0.005; its area from
+    // GeographicLib PolygonArea of the 4 corners (geographiclib-rs).
+    let rect =
+        geodesic_polygon_area_km2(&[(0.0, -0.005), (0.02, -0.005), (0.02, 0.005), (0.0, 0.005)]);
+    assert!((md.figures.eoo_hull_km2.unwrap() - rect).abs() < 1e-9 * rect);
+    // 2.46 km2 < AOO 4 km2: EOO := AOO (Guidelines §4.9, from memory).
+    assert!(md.figures.eoo_set_to_aoo);
+    assert_eq!(md.figures.eoo_km2, Some(4.0));
+    // Structure of the class-1 patches A, B, E (2 "km2" each in this grid).
+    let s = m.structure.unwrap();
+    assert_eq!((s.inside_accessible.patches, s.suitable.patches), (3, 5));
+    assert_eq!(s.suitable.share_below_min, Some(1.0));
+}
+
+#[test]
+fn touching_patches_are_zero_apart_and_mismatched_lists_are_refused() {
+    // With 4 neighbours two diagonal cells are two patches sharing a corner: 0 km apart.
+    let g = [1u8, 0, 0, 1];
+    let (_, patches) = label_grid(&g, 2, Connectivity::Four, false);
+    let info: Vec<PatchInfo> = patches
+        .iter()
+        .map(|p| PatchInfo {
+            id: p.id,
+            class: p.class,
+            cells: p.cells,
+            area_km2: 1.0,
+            records: 1,
+        })
+        .collect();
+    let grid = GridSpec::lonlat(2, 2, 10.0, 45.0, 0.01);
+    let recs = [MetricRecord {
+        lon: 10.005,
+        lat: 44.995,
+        usage: RecordUse::Used,
+    }];
+    let opts = MetricsOptions::default();
+    let mut src = InMemoryClasses {
+        classes: &g,
+        width: 2,
+    };
+    let (_, cols) = range_metrics(
+        &grid,
+        &mut src,
+        Path::new("m"),
+        Connectivity::Four,
+        Path::new("r"),
+        &recs,
+        &info,
+        &opts,
+    )
+    .unwrap();
+    assert_eq!(cols[0].nearest_patch_km, Some(0.0));
+    assert_eq!(cols[1].nearest_occupied_km, Some(0.0));
+    // The same classes read with 8 neighbours make one patch: the list no longer matches.
+    let mut src = InMemoryClasses {
+        classes: &g,
+        width: 2,
+    };
+    let e = range_metrics(
+        &grid,
+        &mut src,
+        Path::new("classes.tif"),
+        Connectivity::Eight,
+        Path::new("r"),
+        &recs,
+        &info,
+        &opts,
+    )
+    .unwrap_err();
+    assert!(
+        e.to_string().contains("classes.tif") && e.to_string().contains("--connectivity"),
+        "{e}"
+    );
+}

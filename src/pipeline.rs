@@ -9,7 +9,7 @@
 //! Memory: one strip of values and classes, the labeller's two-row state and per-patch
 //! accumulators. The raster is never held whole.
 
-use crate::access::{AccessMask, AccessSpec};
+use crate::access::{AccessMask, AccessSpec, RowFiller};
 use crate::area::CellAreas;
 use crate::area::RowAreas;
 use crate::patches::{Connectivity, Patch, PatchLabeler};
@@ -341,6 +341,9 @@ fn classify_pass(
     // Strip buffers go round between the workers and the consumer: fresh pages cost
     // more to touch than the work done on them.
     let pool: Mutex<Vec<Vec<u8>>> = Mutex::new(Vec::new());
+    // A record buffer on a lon/lat grid is the costly M: the workers apply it themselves.
+    let filler = access.row_filler();
+    let prefilled = filler.is_some();
     let (tx, rx) = mpsc::sync_channel::<Result<StripClasses>>(2 * threads);
     std::thread::scope(|scope| {
         for _ in 0..threads {
@@ -348,6 +351,7 @@ fn classify_pass(
             let next = &next;
             let pool = &pool;
             let spec = raster.reader_spec();
+            let mut filler = filler.clone();
             scope.spawn(move || {
                 let reader = match spec.open() {
                     Ok(r) => r,
@@ -367,6 +371,12 @@ fn classify_pass(
                     let rows = STRIP_ROWS.min(h - y0);
                     let out = reader
                         .classify_rows(y0, rows, t, &mut bufs, &mut codes)
+                        .map(|coded| {
+                            if let Some(f) = filler.as_mut() {
+                                apply_m_in_worker(f, y0, w, &mut codes);
+                            }
+                            coded
+                        })
                         .map(|binary| StripClasses { index: i, codes, binary });
                     let failed = out.is_err();
                     if tx.send(out).is_err() || failed {
@@ -385,6 +395,7 @@ fn classify_pass(
             labeler: PatchLabeler::new(w, *connectivity, grid.wraps_antimeridian()),
             in_m: vec![false; w],
             rec_counts: Vec::new(),
+            prefilled,
         };
         progress.start("classifying, labelling and writing rows", h as u64);
         let mut pending: BTreeMap<usize, StripClasses> = BTreeMap::new();
@@ -432,7 +443,28 @@ fn decode_threads() -> usize {
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
 }
 
-/// A decoded strip: 0 below T, 1 suitable, 255 nodata.
+/// Worker code for a cell below the threshold but inside M (only between worker and consumer).
+const UNSUITABLE_IN_M: u8 = 3;
+
+/// Apply M in a worker: codes 0/1 become 0 (below T, outside M), 3 (below T, in M),
+/// 1 (suitable, in M) or 2 (suitable, beyond M); 255 stays.
+fn apply_m_in_worker(filler: &mut RowFiller, y0: usize, w: usize, codes: &mut [u8]) {
+    let mut in_m = vec![false; w];
+    for (r, row) in codes.chunks_mut(w).enumerate() {
+        filler.fill_row(y0 + r, &mut in_m);
+        for (k, &m) in row.iter_mut().zip(&in_m) {
+            let m = m as u8;
+            *k = match *k {
+                class::NODATA => class::NODATA,
+                1 => 2 - m,
+                _ => UNSUITABLE_IN_M * m,
+            };
+        }
+    }
+}
+
+/// A decoded strip: 0 below T, 1 suitable, 255 nodata (and, when the workers apply M,
+/// the codes of [`apply_m_in_worker`]).
 struct StripClasses {
     index: usize,
     codes: Vec<u8>,
@@ -445,6 +477,8 @@ struct Consumer {
     labeler: PatchLabeler,
     in_m: Vec<bool>,
     rec_counts: Vec<(usize, u64)>,
+    /// The workers applied M already (codes 0..=3, see [`apply_m_in_worker`]).
+    prefilled: bool,
 }
 
 impl Consumer {
@@ -466,16 +500,20 @@ impl Consumer {
         let whole = access.is_whole_raster();
         for (r, cls) in classes.chunks_mut(w).enumerate() {
             let row = y0 + r;
-            if !whole {
+            if self.prefilled {
+                // Codes from the workers: 3 = below threshold in M, back to 0.
+                for (k, m) in cls.iter_mut().zip(self.in_m.iter_mut()) {
+                    *m = (*k == class::INSIDE) | (*k == UNSUITABLE_IN_M);
+                    *k -= (*k == UNSUITABLE_IN_M) as u8 * UNSUITABLE_IN_M;
+                }
+            } else if !whole {
                 access.fill_row(row, &mut self.in_m)?;
-            }
-            let row_areas = areas.row_allow_outside(row)?;
-            // Suitable cells outside M become class 2 (branch-free so the loops vectorise).
-            if !whole {
+                // Suitable cells outside M become class 2 (branch-free so the loops vectorise).
                 for (k, &m) in cls.iter_mut().zip(&self.in_m) {
                     *k += (*k == class::INSIDE) as u8 & (m as u8 ^ 1);
                 }
             }
+            let row_areas = areas.row_allow_outside(row)?;
             // u32 sums widen less than u64 counts in the vector loops (a row has < 2^32 cells).
             let count = |v: u8| cls.iter().map(|&k| (k == v) as u32).sum::<u32>() as u64;
             let (n0, n1, nd) = (count(0), count(1), count(class::NODATA));

@@ -308,3 +308,56 @@ fn large_raster_from_the_environment() {
     let n = assert_equal(Path::new(&tif), Path::new(&rec), 0.5, true);
     eprintln!("{tif}: streaming equals in-memory, {n} patches");
 }
+
+#[test]
+fn buffer_m_applied_in_the_workers_matches_geographiclib_per_cell() {
+    // M = cells within 800 km of a record (geodesic, WGS84), applied by the decode workers.
+    // Reference: GeographicLib (geographiclib-rs) Inverse from every cell centre to every
+    // record, in the test. A 1-degree global grid over three strips (720 rows at 0.25 deg).
+    use geographiclib_rs::{Geodesic, InverseGeodesic};
+    let t = tempfile::tempdir().unwrap();
+    let (w, h) = (1440usize, 720usize);
+    let hash = |i: usize| ((i as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15) >> 40) as f64 / (1u64 << 24) as f64;
+    let v: Vec<f32> = (0..w * h).map(|i| hash(i) as f32).collect();
+    let tif = t.path().join("g.tif");
+    write_raster(&tif, w, h, [-180.0, 0.25, 0.0, 90.0, 0.0, -0.25], Some(4326), None, &v);
+    let recs = [(179.9, 10.0), (-60.0, -45.0), (20.0, 88.0)];
+    let rec = t.path().join("r.csv");
+    let body: String = recs.iter().map(|(x, y)| format!("{x},{y}\n")).collect();
+    std::fs::write(&rec, format!("lon,lat\n{body}")).unwrap();
+    let opts = RangeOptions {
+        threshold: ThresholdSpec::fixed(0.5).unwrap(),
+        access: AccessSpec { buffer_km: Some(800.0), ..Default::default() },
+        connectivity: Connectivity::Eight,
+        keep_duplicates: false,
+        records: RecordOptions::default(),
+        progress: Default::default(),
+        vectors: None,
+        metrics: Default::default(),
+    };
+    let mut sink = MemorySink::new(w);
+    let res = compute_range(&tif, &rec, &opts, &mut sink).unwrap();
+    let g = Geodesic::wgs84();
+    let mut in_m_cells = 0u64;
+    for r in 0..h {
+        let lat = 90.0 - (r as f64 + 0.5) * 0.25;
+        for c in 0..w {
+            let lon = -180.0 + (c as f64 + 0.5) * 0.25;
+            let near = recs.iter().any(|&(x, y)| {
+                let s: f64 = g.inverse(lat, lon, y, x);
+                s <= 800_000.0
+            });
+            in_m_cells += near as u64;
+            let suitable = v[r * w + c] >= 0.5;
+            let want = match (suitable, near) {
+                (false, _) => 0,
+                (true, true) => 1,
+                (true, false) => 2,
+            };
+            assert_eq!(sink.classes[r * w + c], want, "row {r} col {c}");
+        }
+    }
+    assert!(in_m_cells > 1000);
+    assert_eq!(res.summary.cells.inside_accessible, sink.classes.iter().filter(|&&k| k == 1).count() as u64);
+    assert!(res.summary.area_km2.accessible > 0.0);
+}

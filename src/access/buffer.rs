@@ -57,6 +57,7 @@ pub(crate) fn lat_lon(v: [f64; 3]) -> (f64, f64) {
 type Indexed = GeomWithData<[f64; 3], usize>;
 
 /// Points with a geodesic buffer distance, indexed for row and point queries.
+#[derive(Clone)]
 pub(crate) struct PointBuffer {
     /// (lat, lon) degrees, longitudes in [-180, 180].
     pts: Vec<(f64, f64)>,

@@ -56,6 +56,22 @@ struct HullPart {
     edge: Option<PointBuffer>,
 }
 
+/// A thread's own copy of a record-buffer M on a lon/lat grid (see
+/// [`AccessMask::row_filler`]); fills rows exactly as [`AccessMask::fill_row`] does.
+#[derive(Clone)]
+pub struct RowFiller {
+    grid: GridSpec,
+    buffer: PointBuffer,
+}
+
+impl RowFiller {
+    /// Set `out[col] = true` for each cell of `row` whose centre lies in M, false otherwise.
+    pub fn fill_row(&mut self, row: usize, out: &mut [bool]) {
+        out.iter_mut().for_each(|v| *v = false);
+        self.buffer.fill_row_lonlat_grid(&self.grid, row, out);
+    }
+}
+
 /// M, rasterised row by row on the grid (a cell is in M when its centre is).
 pub struct AccessMask {
     grid: GridSpec,
@@ -303,6 +319,17 @@ impl AccessMask {
     /// The polygon part of M in the raster CRS, when a polygon file was given.
     pub fn polygons(&self) -> Option<&geo_types::MultiPolygon<f64>> {
         self.polygon.as_ref().map(|p| &p.polygons)
+    }
+
+    /// A copy of M that another thread can fill rows with, when M is a record buffer alone
+    /// on a lon/lat grid (the costly case: it then runs on every core). `None` otherwise.
+    pub fn row_filler(&self) -> Option<RowFiller> {
+        match (&self.polygon, &self.buffer, &self.hull) {
+            (None, Some(b), None) if self.grid.geographic => {
+                Some(RowFiller { grid: self.grid.clone(), buffer: b.clone() })
+            }
+            _ => None,
+        }
     }
 
     /// Set `out[col] = true` for each cell of `row` whose centre lies in M, false otherwise.

@@ -26,7 +26,10 @@ pub mod vectors;
 pub use error::{Error, Result, Stage};
 pub use grid::GridSpec;
 pub use output::{OutputDir, OUTPUT_NAMES};
-pub use pipeline::{compute_range, run_range, MemorySink, Progress, ProgressHandle, RangeOptions, RangeResult, RowSink};
+pub use pipeline::{
+    compute_range, run_range, MemorySink, Progress, ProgressHandle, RangeOptions, RangeResult,
+    RowSink,
+};
 pub use report::{
     AccessReport, AreaReport, CellReport, ExcludedRecord, InputsReport, PatchReport, PatchRow,
     RecordRow, RecordsReport, Summary, ThresholdReport, CAUTIONS,

@@ -22,8 +22,8 @@ use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicUsize, Ordering};
-use std::sync::Mutex;
 use std::sync::mpsc;
+use std::sync::Mutex;
 
 /// Everything `areal range` needs besides the files.
 #[derive(Debug, Clone)]
@@ -63,7 +63,11 @@ pub struct ProgressHandle(pub Option<std::sync::Arc<dyn Progress>>);
 
 impl std::fmt::Debug for ProgressHandle {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(if self.0.is_some() { "ProgressHandle(Some)" } else { "ProgressHandle(None)" })
+        f.write_str(if self.0.is_some() {
+            "ProgressHandle(Some)"
+        } else {
+            "ProgressHandle(None)"
+        })
     }
 }
 
@@ -362,7 +366,12 @@ fn classify_pass(
                 };
                 let mut bufs = StripBuffers::default();
                 loop {
-                    let mut codes = pool.lock().map(|mut p| p.pop()).ok().flatten().unwrap_or_default();
+                    let mut codes = pool
+                        .lock()
+                        .map(|mut p| p.pop())
+                        .ok()
+                        .flatten()
+                        .unwrap_or_default();
                     let i = next.fetch_add(1, Ordering::Relaxed);
                     if i >= n_strips {
                         return;
@@ -377,7 +386,11 @@ fn classify_pass(
                             }
                             coded
                         })
-                        .map(|binary| StripClasses { index: i, codes, binary });
+                        .map(|binary| StripClasses {
+                            index: i,
+                            codes,
+                            binary,
+                        });
                     let failed = out.is_err();
                     if tx.send(out).is_err() || failed {
                         return; // the consumer stopped, or this worker failed
@@ -521,7 +534,10 @@ impl Consumer {
             let m_cells = if whole {
                 w as u64 - nd
             } else {
-                cls.iter().zip(&self.in_m).map(|(&k, &m)| (m as u32) & (k != class::NODATA) as u32).sum::<u32>() as u64
+                cls.iter()
+                    .zip(&self.in_m)
+                    .map(|(&k, &m)| (m as u32) & (k != class::NODATA) as u32)
+                    .sum::<u32>() as u64
             };
             for k in 0..4 {
                 self.totals.cells[k] += counts[k];

@@ -249,7 +249,13 @@ impl SuitabilityRaster {
     /// float32 the comparison is at float32 precision, as in the strip pass).
     pub fn is_data(&self, v: f64) -> bool {
         v.is_finite()
-            && self.nodata.is_none_or(|nd| if self.fits_f32 { v as f32 != nd as f32 } else { v != nd })
+            && self.nodata.is_none_or(|nd| {
+                if self.fits_f32 {
+                    v as f32 != nd as f32
+                } else {
+                    v != nd
+                }
+            })
     }
 
     /// The value of each cell (row, col), `None` where it is nodata or non-finite.
@@ -295,9 +301,15 @@ impl SuitabilityRaster {
     pub fn read_rows(&self, y0: usize, rows: usize, buf: &mut Vec<f64>) -> Result<()> {
         let w = self.grid.width;
         buf.resize(w * rows, 0.0);
-        let band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "reading band 1"))?;
+        let band = self
+            .ds
+            .rasterband(1)
+            .map_err(Error::gdal(&self.path, "reading band 1"))?;
         band.read_into_slice::<f64>((0, y0 as isize), (w, rows), (w, rows), &mut buf[..], None)
-            .map_err(Error::gdal(&self.path, format!("reading rows {y0}..{}", y0 + rows)))?;
+            .map_err(Error::gdal(
+                &self.path,
+                format!("reading rows {y0}..{}", y0 + rows),
+            ))?;
         self.non_finite.add(y0, rows, w, buf, f64::is_finite);
         Ok(())
     }
@@ -373,19 +385,34 @@ impl StripReader {
         codes: &mut Vec<u8>,
     ) -> Result<bool> {
         let n = self.width * rows;
-        let band = self.ds.rasterband(1).map_err(Error::gdal(&self.path, "reading band 1"))?;
+        let band = self
+            .ds
+            .rasterband(1)
+            .map_err(Error::gdal(&self.path, "reading band 1"))?;
         let what = || format!("reading rows {y0}..{}", y0 + rows);
         codes.resize(n, 0);
         let mut non_finite = 0u64;
         let binary = if self.as_f32 {
             bufs.f32s.resize(n, 0.0);
-            band.read_into_slice::<f32>((0, y0 as isize), (self.width, rows), (self.width, rows), &mut bufs.f32s, None)
-                .map_err(Error::gdal(&self.path, what()))?;
+            band.read_into_slice::<f32>(
+                (0, y0 as isize),
+                (self.width, rows),
+                (self.width, rows),
+                &mut bufs.f32s,
+                None,
+            )
+            .map_err(Error::gdal(&self.path, what()))?;
             code_cells_f32(&bufs.f32s, codes, t, self.nodata, &mut non_finite)
         } else {
             bufs.f64s.resize(n, 0.0);
-            band.read_into_slice::<f64>((0, y0 as isize), (self.width, rows), (self.width, rows), &mut bufs.f64s, None)
-                .map_err(Error::gdal(&self.path, what()))?;
+            band.read_into_slice::<f64>(
+                (0, y0 as isize),
+                (self.width, rows),
+                (self.width, rows),
+                &mut bufs.f64s,
+                None,
+            )
+            .map_err(Error::gdal(&self.path, what()))?;
             code_cells_f64(&bufs.f64s, codes, t, self.nodata, &mut non_finite)
         };
         self.non_finite.add_strip(y0, rows, non_finite);
@@ -424,7 +451,11 @@ fn code_cells_f32(
         nf += inf_or_nan as u32;
         let missing = inf_or_nan | (v == nd);
         not_binary |= (!missing & (v != 0.0) & (v != 1.0)) as u32;
-        *k = if missing { class::NODATA } else { (v >= t32) as u8 };
+        *k = if missing {
+            class::NODATA
+        } else {
+            (v >= t32) as u8
+        };
     }
     *non_finite += nf as u64;
     not_binary == 0
@@ -447,7 +478,11 @@ fn code_cells_f64(
         nf += inf_or_nan as u32;
         let missing = inf_or_nan | (v == nd);
         not_binary |= (!missing & (v != 0.0) & (v != 1.0)) as u32;
-        *k = if missing { class::NODATA } else { (v >= t) as u8 };
+        *k = if missing {
+            class::NODATA
+        } else {
+            (v >= t) as u8
+        };
     }
     *non_finite += nf as u64;
     not_binary == 0
@@ -474,7 +509,16 @@ mod tests {
     #[test]
     fn cells_are_coded_with_nodata_nan_and_inf() {
         // CHECKS.md section 5: cells [0.1165, 0.118, 0.12, 0.13] with T = 0.12 -> [0, 0, 1, 1].
-        let v = [0.1165f32, 0.118, 0.12, 0.13, -9999.0, f32::NAN, f32::INFINITY, f32::NEG_INFINITY];
+        let v = [
+            0.1165f32,
+            0.118,
+            0.12,
+            0.13,
+            -9999.0,
+            f32::NAN,
+            f32::INFINITY,
+            f32::NEG_INFINITY,
+        ];
         let mut k = [9u8; 8];
         let mut nf = 0;
         let binary = code_cells_f32(&v, &mut k, 0.12f32 as f64, Some(-9999.0), &mut nf);
@@ -488,7 +532,13 @@ mod tests {
         assert_eq!(k64, k);
         assert_eq!(nf64, 3);
         let mut kb = [9u8; 4];
-        let kb_binary = code_cells_f32(&[0.0, 1.0, -9999.0, 1.0], &mut kb, 0.5, Some(-9999.0), &mut nf);
+        let kb_binary = code_cells_f32(
+            &[0.0, 1.0, -9999.0, 1.0],
+            &mut kb,
+            0.5,
+            Some(-9999.0),
+            &mut nf,
+        );
         assert!(kb_binary);
     }
 
@@ -588,10 +638,16 @@ impl ClassWriter {
     /// Write rows starting at `y0`; `rows` holds whole rows. Returns the buffer for reuse.
     pub fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         let n = rows.len() / self.width;
-        let mut band = self.ds.rasterband(1).map_err(output_error(&self.path, "opening band 1".into()))?;
+        let mut band = self
+            .ds
+            .rasterband(1)
+            .map_err(output_error(&self.path, "opening band 1".into()))?;
         let mut buf = gdal::raster::Buffer::new((self.width, n), rows);
         band.write((0, y0 as isize), (self.width, n), &mut buf)
-            .map_err(output_error(&self.path, format!("writing rows {y0}..{}", y0 + n)))?;
+            .map_err(output_error(
+                &self.path,
+                format!("writing rows {y0}..{}", y0 + n),
+            ))?;
         Ok(buf.into_shape_and_vec().1)
     }
 

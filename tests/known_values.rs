@@ -192,31 +192,69 @@ fn projected_equal_area_raster_uses_the_cell_size_and_reports_lonlat() {
             .unwrap()
             .create_with_band_type::<f32, _>(&tif, 10, 10, 1)
             .unwrap();
-        ds.set_geo_transform(&[-50_000.0, 10_000.0, 0.0, 50_000.0, 0.0, -10_000.0]).unwrap();
-        let srs = SpatialRef::from_proj4("+proj=laea +lat_0=45 +lon_0=10 +x_0=0 +y_0=0 +ellps=WGS84 +units=m +no_defs")
+        ds.set_geo_transform(&[-50_000.0, 10_000.0, 0.0, 50_000.0, 0.0, -10_000.0])
             .unwrap();
+        let srs = SpatialRef::from_proj4(
+            "+proj=laea +lat_0=45 +lon_0=10 +x_0=0 +y_0=0 +ellps=WGS84 +units=m +no_defs",
+        )
+        .unwrap();
         ds.set_spatial_ref(&srs).unwrap();
         let mut band = ds.rasterband(1).unwrap();
-        band.write((0, 0), (10, 10), &mut Buffer::new((10, 10), vec![0.8f32; 100])).unwrap();
+        band.write(
+            (0, 0),
+            (10, 10),
+            &mut Buffer::new((10, 10), vec![0.8f32; 100]),
+        )
+        .unwrap();
     }
     let rec = t.path().join("r.csv");
     std::fs::write(&rec, "decimalLongitude,decimalLatitude\n10.0,45.0\n").unwrap();
     let out = t.path().join("out");
     let o = run(&[
-        "range", "--suitability", tif.to_str().unwrap(), "--records", rec.to_str().unwrap(),
-        "--omission", "0", "--out", out.to_str().unwrap(),
+        "range",
+        "--suitability",
+        tif.to_str().unwrap(),
+        "--records",
+        rec.to_str().unwrap(),
+        "--omission",
+        "0",
+        "--out",
+        out.to_str().unwrap(),
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
     let s = json(&out.join("summary.json"));
     assert!((s["area_km2"]["suitable"].as_f64().unwrap() - 10_000.0).abs() < 1e-6);
-    assert!(s["area_method"].as_str().unwrap().to_lowercase().contains("equal"), "{}", s["area_method"]);
+    assert!(
+        s["area_method"]
+            .as_str()
+            .unwrap()
+            .to_lowercase()
+            .contains("equal"),
+        "{}",
+        s["area_method"]
+    );
     let (h, rows) = read_csv(&out.join("patches.csv"));
     assert_eq!(rows.len(), 1);
     let g = |n: &str| rows[0][col(&h, n)].parse::<f64>().unwrap();
-    assert!((g("min_lon") - 9.3608595213).abs() < 1e-6, "{}", g("min_lon"));
-    assert!((g("max_lon") - 10.6391404787).abs() < 1e-6, "{}", g("max_lon"));
-    assert!((g("min_lat") - 44.5483289527).abs() < 1e-6, "{}", g("min_lat"));
-    assert!(g("max_lat") > 45.4481297914, "the top edge bulges north of its corners");
+    assert!(
+        (g("min_lon") - 9.3608595213).abs() < 1e-6,
+        "{}",
+        g("min_lon")
+    );
+    assert!(
+        (g("max_lon") - 10.6391404787).abs() < 1e-6,
+        "{}",
+        g("max_lon")
+    );
+    assert!(
+        (g("min_lat") - 44.5483289527).abs() < 1e-6,
+        "{}",
+        g("min_lat")
+    );
+    assert!(
+        g("max_lat") > 45.4481297914,
+        "the top edge bulges north of its corners"
+    );
     // The centroid of the square is the projection centre (10 E, 45 N).
     assert!((g("centroid_lon") - 10.0).abs() < 1e-9 && (g("centroid_lat") - 45.0).abs() < 1e-9);
     assert_eq!(g("records"), 1.0);
@@ -225,20 +263,44 @@ fn projected_equal_area_raster_uses_the_cell_size_and_reports_lonlat() {
 #[test]
 fn binary_raster_skips_thresholding() {
     let t = tempfile::tempdir().unwrap();
-    let v: Vec<f32> = (0..100).map(|i| if i % 10 < 4 { 1.0 } else { 0.0 }).collect();
+    let v: Vec<f32> = (0..100)
+        .map(|i| if i % 10 < 4 { 1.0 } else { 0.0 })
+        .collect();
     let tif = t.path().join("bin.tif");
-    write_raster(&tif, 10, 10, [0.0, 0.1, 0.0, 1.0, 0.0, -0.1], Some(4326), None, &v);
+    write_raster(
+        &tif,
+        10,
+        10,
+        [0.0, 0.1, 0.0, 1.0, 0.0, -0.1],
+        Some(4326),
+        None,
+        &v,
+    );
     // Records on a 1 cell and on a 0 cell: the omission rule would give T = 0 (all suitable).
     let rec = t.path().join("r.csv");
     std::fs::write(&rec, "lon,lat\n0.05,0.95\n0.95,0.95\n").unwrap();
     let out = t.path().join("out");
     let o = run(&[
-        "range", "--suitability", tif.to_str().unwrap(), "--records", rec.to_str().unwrap(),
-        "--omission", "0", "--out", out.to_str().unwrap(),
+        "range",
+        "--suitability",
+        tif.to_str().unwrap(),
+        "--records",
+        rec.to_str().unwrap(),
+        "--omission",
+        "0",
+        "--out",
+        out.to_str().unwrap(),
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
     let s = json(&out.join("summary.json"));
     assert_eq!(s["threshold"]["binary_input"], true);
-    assert_eq!(s["cells"]["inside_accessible"], 40, "only the 1 cells are suitable");
-    assert!(s["warnings"].as_array().unwrap().iter().any(|w| w.as_str().unwrap().contains("binary")));
+    assert_eq!(
+        s["cells"]["inside_accessible"], 40,
+        "only the 1 cells are suitable"
+    );
+    assert!(s["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|w| w.as_str().unwrap().contains("binary")));
 }

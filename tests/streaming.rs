@@ -317,17 +317,30 @@ fn buffer_m_applied_in_the_workers_matches_geographiclib_per_cell() {
     use geographiclib_rs::{Geodesic, InverseGeodesic};
     let t = tempfile::tempdir().unwrap();
     let (w, h) = (1440usize, 720usize);
-    let hash = |i: usize| ((i as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15) >> 40) as f64 / (1u64 << 24) as f64;
+    let hash = |i: usize| {
+        ((i as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15) >> 40) as f64 / (1u64 << 24) as f64
+    };
     let v: Vec<f32> = (0..w * h).map(|i| hash(i) as f32).collect();
     let tif = t.path().join("g.tif");
-    write_raster(&tif, w, h, [-180.0, 0.25, 0.0, 90.0, 0.0, -0.25], Some(4326), None, &v);
+    write_raster(
+        &tif,
+        w,
+        h,
+        [-180.0, 0.25, 0.0, 90.0, 0.0, -0.25],
+        Some(4326),
+        None,
+        &v,
+    );
     let recs = [(179.9, 10.0), (-60.0, -45.0), (20.0, 88.0)];
     let rec = t.path().join("r.csv");
     let body: String = recs.iter().map(|(x, y)| format!("{x},{y}\n")).collect();
     std::fs::write(&rec, format!("lon,lat\n{body}")).unwrap();
     let opts = RangeOptions {
         threshold: ThresholdSpec::fixed(0.5).unwrap(),
-        access: AccessSpec { buffer_km: Some(800.0), ..Default::default() },
+        access: AccessSpec {
+            buffer_km: Some(800.0),
+            ..Default::default()
+        },
         connectivity: Connectivity::Eight,
         keep_duplicates: false,
         records: RecordOptions::default(),
@@ -358,6 +371,9 @@ fn buffer_m_applied_in_the_workers_matches_geographiclib_per_cell() {
         }
     }
     assert!(in_m_cells > 1000);
-    assert_eq!(res.summary.cells.inside_accessible, sink.classes.iter().filter(|&&k| k == 1).count() as u64);
+    assert_eq!(
+        res.summary.cells.inside_accessible,
+        sink.classes.iter().filter(|&&k| k == 1).count() as u64
+    );
     assert!(res.summary.area_km2.accessible > 0.0);
 }

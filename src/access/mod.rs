@@ -325,9 +325,10 @@ impl AccessMask {
     /// on a lon/lat grid (the costly case: it then runs on every core). `None` otherwise.
     pub fn row_filler(&self) -> Option<RowFiller> {
         match (&self.polygon, &self.buffer, &self.hull) {
-            (None, Some(b), None) if self.grid.geographic => {
-                Some(RowFiller { grid: self.grid.clone(), buffer: b.clone() })
-            }
+            (None, Some(b), None) if self.grid.geographic => Some(RowFiller {
+                grid: self.grid.clone(),
+                buffer: b.clone(),
+            }),
             _ => None,
         }
     }

@@ -37,5 +37,7 @@ pub(crate) fn bar(quiet: bool) -> ProgressHandle {
     if quiet || !std::io::stderr().is_terminal() {
         return ProgressHandle::default();
     }
-    ProgressHandle(Some(Arc::new(Bars { bar: Mutex::new(None) })))
+    ProgressHandle(Some(Arc::new(Bars {
+        bar: Mutex::new(None),
+    })))
 }

@@ -37,7 +37,8 @@ pub fn add_range_metrics(
         })
         .collect();
     let usable = records.iter().any(|r| {
-        r.usage == RecordUse::Used || (opts.metrics.keep_dropped && r.usage == RecordUse::BelowThreshold)
+        r.usage == RecordUse::Used
+            || (opts.metrics.keep_dropped && r.usage == RecordUse::BelowThreshold)
     });
     if !usable {
         // A range run with no record left (e.g. a threshold above every record) still

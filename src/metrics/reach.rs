@@ -98,12 +98,19 @@ pub(crate) fn nearest(c: &Corners, target: impl Fn(usize) -> bool) -> Vec<Option
         // 0.7 % of the geodesic one), not for every corner's first candidates.
         let (mut cbest, mut pair) = (f64::INFINITY, None);
         for i in c.start[p]..c.start[p + 1] {
-            tree.search(&c.xyz, &c.label, &c.xyz[i], cbest, |l| l as usize == p, |j, d| {
-                if d < cbest {
-                    (cbest, pair) = (d, Some((i, j)));
-                }
-                cbest
-            });
+            tree.search(
+                &c.xyz,
+                &c.label,
+                &c.xyz[i],
+                cbest,
+                |l| l as usize == p,
+                |j, d| {
+                    if d < cbest {
+                        (cbest, pair) = (d, Some((i, j)));
+                    }
+                    cbest
+                },
+            );
             if cbest == 0.0 {
                 break; // touching patches: nothing is nearer
             }

@@ -77,6 +77,16 @@ pub(crate) struct ExtentArgs {
     pub connectivity: String,
     #[command(flatten)]
     pub metrics: MetricsArgs,
+    #[command(flatten)]
+    pub record_columns: RecordArgs,
+    /// Print the figures as JSON.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// How the records file is read, shared by `range` and `extent`.
+#[derive(clap::Args, Debug)]
+pub(crate) struct RecordArgs {
     /// Column holding record longitudes (or x).
     #[arg(long, value_name = "NAME")]
     pub lon_col: Option<String>,
@@ -89,19 +99,22 @@ pub(crate) struct ExtentArgs {
     /// Layer of a multi-layer records file.
     #[arg(long, value_name = "NAME")]
     pub records_layer: Option<String>,
-    /// Print the figures as JSON.
-    #[arg(long)]
-    pub json: bool,
 }
 
-impl ExtentArgs {
-    pub(crate) fn record_options(&self) -> RecordOptions {
+impl RecordArgs {
+    pub(crate) fn to_options(&self) -> RecordOptions {
         RecordOptions {
             lon_col: self.lon_col.clone(),
             lat_col: self.lat_col.clone(),
             crs: self.records_crs.clone(),
             layer: self.records_layer.clone(),
         }
+    }
+}
+
+impl ExtentArgs {
+    pub(crate) fn record_options(&self) -> RecordOptions {
+        self.record_columns.to_options()
     }
 
     pub(crate) fn connectivity(&self) -> Connectivity {
@@ -149,18 +162,8 @@ pub(crate) struct RangeArgs {
     /// Count every record in the threshold rule (default: one value per occupied cell).
     #[arg(long)]
     pub keep_duplicates: bool,
-    /// Column holding record longitudes (or x).
-    #[arg(long, value_name = "NAME")]
-    pub lon_col: Option<String>,
-    /// Column holding record latitudes (or y).
-    #[arg(long, value_name = "NAME")]
-    pub lat_col: Option<String>,
-    /// CRS of CSV record coordinates.
-    #[arg(long, value_name = "CRS", default_value = "EPSG:4326")]
-    pub records_crs: String,
-    /// Layer of a multi-layer records file.
-    #[arg(long, value_name = "NAME")]
-    pub records_layer: Option<String>,
+    #[command(flatten)]
+    pub record_columns: RecordArgs,
     /// Print summary.json on stdout instead of the readable summary.
     #[arg(long)]
     pub json: bool,
@@ -289,12 +292,7 @@ impl RangeArgs {
                 Connectivity::Eight
             },
             keep_duplicates: self.keep_duplicates,
-            records: RecordOptions {
-                lon_col: self.lon_col.clone(),
-                lat_col: self.lat_col.clone(),
-                crs: self.records_crs.clone(),
-                layer: self.records_layer.clone(),
-            },
+            records: self.record_columns.to_options(),
             progress: crate::cli::progress::bar(self.quiet),
             vectors: (self.vectors.vectors
                 || self.vectors.vector_crs.is_some()

@@ -432,52 +432,46 @@ fn f32_threshold(t: f64) -> f32 {
     t32
 }
 
-/// Code float32 cells (branch-free, so the loop vectorises); returns whether all data
-/// cells are 0 or 1, and adds the NaN/inf cells to `non_finite`.
-fn code_cells_f32(
-    values: &[f32],
-    codes: &mut [u8],
-    t: f64,
-    nodata: Option<f64>,
-    non_finite: &mut u64,
-) -> bool {
-    let t32 = f32_threshold(t);
-    // As GDAL does for float32 bands, the nodata value is taken at float32 precision.
-    let nd = nodata.map(|v| v as f32).unwrap_or(f32::NAN);
-    let mut not_binary = 0u32;
-    let mut nf = 0u32;
-    for (&v, k) in values.iter().zip(codes.iter_mut()) {
-        let inf_or_nan = !v.is_finite();
-        nf += inf_or_nan as u32;
-        let missing = inf_or_nan | (v == nd);
-        not_binary |= (!missing & (v != 0.0) & (v != 1.0)) as u32;
-        *k = if missing {
-            class::NODATA
-        } else {
-            (v >= t32) as u8
-        };
-    }
-    *non_finite += nf as u64;
-    not_binary == 0
+/// The two sample types the pass reads.
+trait Sample: Copy + PartialEq + PartialOrd {
+    const ZERO: Self;
+    const ONE: Self;
+    fn finite(self) -> bool;
 }
 
-/// Code float64 cells; returns whether all data cells are 0 or 1, and adds the NaN/inf
-/// cells to `non_finite`.
-fn code_cells_f64(
-    values: &[f64],
+impl Sample for f32 {
+    const ZERO: Self = 0.0;
+    const ONE: Self = 1.0;
+    fn finite(self) -> bool {
+        self.is_finite()
+    }
+}
+
+impl Sample for f64 {
+    const ZERO: Self = 0.0;
+    const ONE: Self = 1.0;
+    fn finite(self) -> bool {
+        self.is_finite()
+    }
+}
+
+/// Code cells against `t` in their own type (branch-free, so the loop vectorises): 255 for
+/// NaN, +-inf and `nd` (NaN: no nodata value), else `v >= t`. Returns whether all data
+/// cells are 0 or 1, and adds the NaN/inf cells to `non_finite`.
+fn code_cells<T: Sample>(
+    values: &[T],
     codes: &mut [u8],
-    t: f64,
-    nodata: Option<f64>,
+    t: T,
+    nd: T,
     non_finite: &mut u64,
 ) -> bool {
-    let nd = nodata.unwrap_or(f64::NAN); // NaN never equals: no nodata value
     let mut not_binary = 0u32;
     let mut nf = 0u32;
     for (&v, k) in values.iter().zip(codes.iter_mut()) {
-        let inf_or_nan = !v.is_finite();
+        let inf_or_nan = !v.finite();
         nf += inf_or_nan as u32;
         let missing = inf_or_nan | (v == nd);
-        not_binary |= (!missing & (v != 0.0) & (v != 1.0)) as u32;
+        not_binary |= (!missing & (v != T::ZERO) & (v != T::ONE)) as u32;
         *k = if missing {
             class::NODATA
         } else {
@@ -486,6 +480,30 @@ fn code_cells_f64(
     }
     *non_finite += nf as u64;
     not_binary == 0
+}
+
+/// Code float32 cells; `t` is compared exactly as in float64 (see [`f32_threshold`]) and,
+/// as GDAL does for float32 bands, the nodata value is taken at float32 precision.
+fn code_cells_f32(
+    values: &[f32],
+    codes: &mut [u8],
+    t: f64,
+    nodata: Option<f64>,
+    non_finite: &mut u64,
+) -> bool {
+    let nd = nodata.map(|v| v as f32).unwrap_or(f32::NAN);
+    code_cells(values, codes, f32_threshold(t), nd, non_finite)
+}
+
+/// Code float64 cells.
+fn code_cells_f64(
+    values: &[f64],
+    codes: &mut [u8],
+    t: f64,
+    nodata: Option<f64>,
+    non_finite: &mut u64,
+) -> bool {
+    code_cells(values, codes, t, nodata.unwrap_or(f64::NAN), non_finite)
 }
 
 #[cfg(test)]

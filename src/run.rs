@@ -169,6 +169,7 @@ pub fn run_range(
     if let Some(p) = &opts.access.polygon {
         inputs.push(p);
     }
+    let mut clock = crate::progress::StageClock::new();
     let dir = crate::output::OutputDir::prepare(out, overwrite, &inputs)?;
     // Open the raster once up front so a bad raster fails before anything is created.
     let grid = SuitabilityRaster::open(suitability)?.grid().clone();
@@ -179,8 +180,10 @@ pub fn run_range(
     }
     let (mut result, model) = compute_range(suitability, records, &opts_here, &mut writer)?;
     writer.close()?;
+    clock.lap("pass");
     if opts.metrics.enabled {
         crate::metrics::add_range_metrics(&mut result, &model, &opts.metrics)?;
+        clock.lap("metrics");
     }
     write_csv(&dir.file("patches.csv"), &result.patches)?;
     write_csv(&dir.file("records.csv"), &result.records)?;
@@ -192,5 +195,6 @@ pub fn run_range(
     }
     drop(model); // removes its spill file before the folder is committed
     dir.commit()?;
+    clock.lap("tables and commit");
     Ok(result)
 }

@@ -20,6 +20,7 @@ pub mod raster_io;
 pub mod records;
 mod report;
 mod review;
+pub mod styles;
 mod threshold;
 pub mod vectors;
 
@@ -30,6 +31,7 @@ pub use pipeline::{
     compute_range, run_range, MemorySink, Progress, ProgressHandle, RangeOptions, RangeResult,
     RowSink,
 };
+pub use report::summary_schema;
 pub use report::{
     AccessReport, AreaReport, CellReport, ExcludedRecord, InputsReport, PatchReport, PatchRow,
     RecordRow, RecordsReport, Summary, ThresholdReport, CAUTIONS,

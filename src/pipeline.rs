@@ -867,6 +867,7 @@ pub fn run_range(
     let classes_path: PathBuf = dir.file("classes.tif");
     let mut writer = crate::raster_io::ClassWriter::create(&classes_path, &grid)?;
     let mut result = compute_range(suitability, records, opts, &mut writer)?;
+    crate::styles::describe_classes(writer.dataset(), &classes_path, &result.summary)?;
     writer.close()?;
     if opts.metrics.enabled {
         let mut classes = SuitabilityRaster::open(&classes_path)?;
@@ -881,6 +882,7 @@ pub fn run_range(
             .parent()
             .expect("classes.tif is inside the output folder");
         crate::vectors::write_vectors(run_dir, run_dir, &opts.access, None, v)?;
+        crate::styles::write_layer_styles(run_dir)?;
     }
     dir.commit()?;
     Ok(result)

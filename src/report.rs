@@ -15,7 +15,7 @@ pub const CAUTIONS: [&str; 4] = [
     "A threat assessment is for the responsible authority and its reviewers; this tool only computes the figures.",
 ];
 
-/// `summary.json`.
+/// `summary.json`: the report of one `areal range` run (docs/summary.schema.json).
 #[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct Summary {
     /// Version of areal that wrote it.

@@ -261,7 +261,9 @@ pub struct Metrics {
     pub structure: Option<StructureReport>,
     /// Stepping-stone reach; null without a range or without `--gap-km`.
     pub reach: Option<ReachReport>,
-    /// General notes.
+    /// General notes (`general_notes` in JSON: the flattened record figures already have
+    /// a `notes` key, and a second one would be a duplicate key).
+    #[serde(rename = "general_notes")]
     pub notes: Vec<String>,
 }
 

@@ -56,7 +56,10 @@ Examples:
 /// Write the completion script for `shell` to stdout.
 pub(crate) fn completions(shell: clap_complete::Shell) {
     let mut cmd = Cli::command();
-    clap_complete::generate(shell, &mut cmd, "areal", &mut std::io::stdout());
+    let mut buf = Vec::new();
+    clap_complete::generate(shell, &mut cmd, "areal", &mut buf);
+    // A closed stdout (e.g. `| head`) is not an error.
+    let _ = std::io::stdout().lock().write_all(&buf);
 }
 
 /// Write the man page (roff) of areal and its subcommands to stdout.

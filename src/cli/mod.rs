@@ -159,23 +159,24 @@ fn run(cli: Cli) -> areal::Result<()> {
                 a.connectivity(),
                 &opts,
             )?;
-            if a.json {
-                println!(
-                    "{}",
-                    serde_json::to_string_pretty(&report).expect("report serialises")
-                );
+            // A closed stdout (e.g. `| head`) is not an error.
+            let mut out = std::io::stdout().lock();
+            let text = if a.json {
+                serde_json::to_string_pretty(&report).expect("report serialises") + "\n"
             } else {
-                println!(
-                    "areal {}: extent of {}",
+                let mut t = format!(
+                    "areal {}: extent of {}\n",
                     report.areal_version, report.records_file
                 );
                 for l in report.metrics.text_lines() {
-                    println!("{l}");
+                    t += &format!("{l}\n");
                 }
                 for w in &report.warnings {
-                    println!("  warning: {w}");
+                    t += &format!("  warning: {w}\n");
                 }
-            }
+                t
+            };
+            let _ = out.write_all(text.as_bytes());
             Ok(())
         }
     }

@@ -119,6 +119,7 @@ fn run_range(
         progress: Default::default(),
         vectors,
         metrics,
+        model: Default::default(),
     };
     let result = py
         .detach(|| areal::run_range(&suitability, &records, &opts, &out, overwrite))
@@ -183,8 +184,7 @@ fn cell_areas_km2<'py>(
 /// The grid of a raster file: (width, height, geotransform, CRS WKT), as areal reads it.
 #[pyfunction]
 fn raster_grid(py: Python<'_>, path: PathBuf) -> PyResult<(usize, usize, [f64; 6], String)> {
-    let r = areal::raster_io::SuitabilityRaster::open(&path).map_err(|e| err(py, e))?;
-    let g = r.grid();
+    let g = areal::GridSpec::of_raster(&path).map_err(|e| err(py, e))?;
     Ok((g.width, g.height, g.geo_transform, g.crs_wkt.clone()))
 }
 

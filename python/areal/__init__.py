@@ -40,6 +40,11 @@ OUTPUT_FILES = {
     "unreachable_geojson": "unreachable.geojson",
     "accessible_geojson": "accessible.geojson",
     "records_geojson": "records.geojson",
+    "range_style": "range.qml",
+    "patches_style": "patches.qml",
+    "unreachable_style": "unreachable.qml",
+    "accessible_style": "accessible.qml",
+    "records_style": "records.qml",
 }
 
 

@@ -179,6 +179,7 @@ pub fn run_range(
         opts_here.model.spill_dir = Some(dir.file(""));
     }
     let (mut result, model) = compute_range(suitability, records, &opts_here, &mut writer)?;
+    crate::styles::describe_classes(writer.dataset(), &dir.file("classes.tif"), &result.summary)?;
     writer.close()?;
     clock.lap("pass");
     if opts.metrics.enabled {
@@ -192,6 +193,7 @@ pub fn run_range(
     if let Some(v) = &opts.vectors {
         let run_dir = dir.file("");
         crate::vectors::write_vectors(&run_dir, &run_dir, &opts.access, None, v)?;
+        crate::styles::write_layer_styles(&run_dir)?;
     }
     drop(model); // removes its spill file before the folder is committed
     dir.commit()?;

@@ -259,6 +259,11 @@ impl AooCounter {
     /// The figures over the origins.
     pub(crate) fn figures(&mut self) -> AooFigures {
         let per = self.per_origin();
+        self.figures_of(per)
+    }
+
+    /// The figures from the occupied cells of each origin (in [`Self::per_origin`]'s order).
+    pub(crate) fn figures_of(&self, per: Vec<usize>) -> AooFigures {
         let mut min_k = 0;
         for k in 1..per.len() {
             if per[k] < per[min_k] {

@@ -37,6 +37,8 @@ pub(crate) struct Corners {
     pts: Vec<(f64, f64)>,
     /// Earth-centred coordinates of `pts`, metres.
     xyz: Vec<[f64; 3]>,
+    /// Unit normals of the ellipsoid at `pts`.
+    normal: Vec<[f64; 3]>,
     /// Patch index of each corner.
     label: Vec<u32>,
     /// Corners of patch p: `start[p]..start[p + 1]`.
@@ -110,8 +112,8 @@ fn search_bound(s_m: f64) -> f64 {
     b * b
 }
 
-/// A lower bound on the geodesic between corners `a` and `b` (ECEF metres), with `n` the
-/// ellipsoid's unit normal at `a`.
+/// Whether the geodesic between corners `a` and `b` (ECEF metres) may be shorter than `bound`
+/// metres, with `n` the ellipsoid's unit normal at `a`: false when a lower bound reaches it.
 ///
 /// Every principal radius of curvature of WGS84 is at least ρ = a(1 - e²), so by Blaschke's
 /// rolling-ball theorem the ball of radius ρ touching the ellipsoid from inside at `a` (centre
@@ -120,20 +122,22 @@ fn search_bound(s_m: f64) -> f64 {
 /// so the geodesic is at least the great-circle arc between them: ρ times the angle they make
 /// at the centre. The bound is far tighter than the chord at long range (about 40 m short at
 /// 1,000 km, where the chord is 1 km short), so few pairs need a geodesic of their own.
-fn geodesic_lower_bound(a: &[f64; 3], b: &[f64; 3], n: &[f64; 3]) -> f64 {
+fn may_be_below(a: &[f64; 3], b: &[f64; 3], n: &[f64; 3], bound: f64) -> bool {
     let rho = m_min();
-    let u = [rho * n[0], rho * n[1], rho * n[2]]; // a - centre
-    let v = [b[0] - a[0] + u[0], b[1] - a[1] + u[1], b[2] - a[2] + u[2]]; // b - centre
-    let cross = [
-        u[1] * v[2] - u[2] * v[1],
-        u[2] * v[0] - u[0] * v[2],
-        u[0] * v[1] - u[1] * v[0],
-    ];
-    let sin = (cross[0] * cross[0] + cross[1] * cross[1] + cross[2] * cross[2]).sqrt();
-    let cos = u[0] * v[0] + u[1] * v[1] + u[2] * v[2];
-    let arc = rho * sin.atan2(cos);
-    // Rounding margin: far below any distance that matters, far above f64 noise.
-    arc * (1.0 - 1e-9) - 1e-6
+    // The angle at the ball's centre is below bound / ρ (with a rounding margin) exactly when
+    // its cosine is above the cosine of that angle; u = a - centre = ρ n.
+    let theta = (bound + 1e-6) / (rho * (1.0 - 1e-9));
+    if theta >= std::f64::consts::PI {
+        return true;
+    }
+    let v = [
+        b[0] - a[0] + rho * n[0],
+        b[1] - a[1] + rho * n[1],
+        b[2] - a[2] + rho * n[2],
+    ]; // b - centre
+    let dot = rho * (n[0] * v[0] + n[1] * v[1] + n[2] * v[2]);
+    let vlen = (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt();
+    dot > rho * vlen * theta.cos()
 }
 
 /// The longest geodesic whose chord is `d_m` metres (Schur's comparison theorem with the
@@ -159,9 +163,14 @@ impl Corners {
         }
         let pts: Vec<(f64, f64)> = ll.iter().map(|&(lon, lat)| (lat, lon)).collect();
         let xyz = pts.iter().map(|&(la, lo)| ecef(la, lo)).collect();
+        let normal = pts
+            .iter()
+            .map(|&(la, lo)| crate::access::buffer::unit(la, lo))
+            .collect();
         Ok(Corners {
             pts,
             xyz,
+            normal,
             label,
             start: bc.start,
             geod: Geodesic::wgs84(),
@@ -176,9 +185,7 @@ impl Corners {
     /// The geodesic between corners `i` and `j` when it may be below `bound` metres, else
     /// `None` (a lower bound already reaches `bound`).
     fn dist_below(&self, i: usize, j: usize, bound: f64) -> Option<f64> {
-        let (la, lo) = self.pts[i];
-        let n = crate::access::buffer::unit(la, lo);
-        if geodesic_lower_bound(&self.xyz[i], &self.xyz[j], &n) >= bound {
+        if !may_be_below(&self.xyz[i], &self.xyz[j], &self.normal[i], bound) {
             return None;
         }
         Some(self.dist(i, j))

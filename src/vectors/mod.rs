@@ -30,6 +30,9 @@ mod lonlat;
 mod polygonize;
 #[cfg(test)]
 mod tests;
+mod trace;
+#[cfg(test)]
+mod trace_tests;
 mod write;
 
 pub use crs::VectorCrs;

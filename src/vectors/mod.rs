@@ -27,6 +27,9 @@ mod distance;
 mod inputs;
 mod layers;
 mod lonlat;
+mod parallels;
+#[cfg(test)]
+mod parallels_tests;
 mod polygonize;
 #[cfg(test)]
 mod tests;

@@ -6,9 +6,13 @@
 //! else text; empty cells are nulls. So every column of the tables reaches the vector layers,
 //! whatever columns a run writes.
 
-use crate::patches::Connectivity;
+use super::layers::RunTables;
+use super::source::LabelRuns;
+use super::tables::{read_table, PATCH_FIELDS, RECORD_FIELDS};
+use crate::access::{AccessMask, AccessSpec};
+use crate::patches::{label_grid, Connectivity};
 use crate::raster_io::{class, SuitabilityRaster, STRIP_ROWS};
-use crate::{Error, GridSpec, Result};
+use crate::{Error, Result};
 use std::path::{Path, PathBuf};
 
 /// The type of a table column.
@@ -40,65 +44,6 @@ pub(crate) struct Table {
 }
 
 impl Table {
-    /// Read a CSV file with a header, typing each column from its values.
-    pub(crate) fn read_csv(path: &Path) -> Result<Table> {
-        let bad = |e: csv::Error| Error::Records {
-            path: path.to_path_buf(),
-            reason: format!("cannot read this areal table: {e}"),
-        };
-        let mut r = csv::Reader::from_path(path).map_err(bad)?;
-        let names: Vec<String> = r.headers().map_err(bad)?.iter().map(String::from).collect();
-        let mut raw: Vec<Vec<String>> = Vec::new();
-        for rec in r.records() {
-            let rec = rec.map_err(bad)?;
-            raw.push(rec.iter().map(String::from).collect());
-        }
-        let kinds: Vec<Kind> = (0..names.len())
-            .map(|c| {
-                let vals = || {
-                    raw.iter()
-                        .map(|row| row[c].as_str())
-                        .filter(|v| !v.is_empty())
-                };
-                if vals().count() == 0 {
-                    Kind::Text
-                } else if vals().all(|v| v.parse::<i64>().is_ok()) {
-                    Kind::Int
-                } else if vals().all(|v| v.parse::<f64>().is_ok()) {
-                    Kind::Real
-                } else {
-                    Kind::Text
-                }
-            })
-            .collect();
-        let rows = raw
-            .into_iter()
-            .map(|row| {
-                row.into_iter()
-                    .zip(&kinds)
-                    .map(|(v, k)| match (v.is_empty(), k) {
-                        (true, _) => Value::Null,
-                        (_, Kind::Int) => Value::Int(v.parse().unwrap()),
-                        (_, Kind::Real) => Value::Real(v.parse().unwrap()),
-                        _ => Value::Text(v),
-                    })
-                    .collect()
-            })
-            .collect();
-        Ok(Table { names, kinds, rows })
-    }
-
-    /// Index of a column, or an error naming the file.
-    pub(crate) fn col(&self, name: &str, path: &Path) -> Result<usize> {
-        self.names
-            .iter()
-            .position(|n| n == name)
-            .ok_or_else(|| Error::Records {
-                path: path.to_path_buf(),
-                reason: format!("has no column {name}; give the table areal wrote for this run"),
-            })
-    }
-
     /// A numeric cell as f64 (None when null or text).
     pub(crate) fn num(&self, row: usize, col: usize) -> Option<f64> {
         match &self.rows[row][col] {
@@ -129,33 +74,60 @@ pub(crate) struct SummaryFacts {
     pub access_description: String,
 }
 
-/// A run's outputs, read for the vector step.
-pub(crate) struct RunInputs {
-    pub classes_path: PathBuf,
-    pub grid: GridSpec,
-    pub classes: Vec<u8>,
-    pub patches: Table,
-    pub patches_path: PathBuf,
-    pub records: Option<Table>,
-    pub records_path: PathBuf,
-    pub summary: SummaryFacts,
+impl SummaryFacts {
+    /// The facts of a summary in memory.
+    pub(crate) fn of(s: &crate::report::Summary) -> SummaryFacts {
+        SummaryFacts {
+            connectivity: Some(if s.patches.connectivity == 4 {
+                Connectivity::Four
+            } else {
+                Connectivity::Eight
+            }),
+            inside_km2: s.area_km2.inside_accessible,
+            accessible_km2: s.area_km2.accessible,
+            whole_raster: s.accessible.whole_raster,
+            access_description: s.accessible.description.clone(),
+        }
+    }
 }
 
-/// Read `classes.tif` and the tables beside it. Refuses grids above `max_cells`.
-pub(crate) fn read_run(classes_path: &Path, max_cells: u64) -> Result<RunInputs> {
+/// An earlier run's folder, read for the vector step: the range rebuilt from `classes.tif`
+/// (labelled with the run's connectivity, M rebuilt from `access` and checked against the
+/// classes) and the tables beside it.
+pub(crate) fn read_run(
+    classes_path: &Path,
+    access: &AccessSpec,
+    connectivity: Option<Connectivity>,
+) -> Result<(LabelRuns, RunTables)> {
     let dir = classes_path.parent().unwrap_or(Path::new("."));
+    let need = |name: &str| -> Result<PathBuf> {
+        let p = dir.join(name);
+        if p.exists() {
+            Ok(p)
+        } else {
+            Err(Error::MissingInput {
+                path: p,
+                what: if name == "patches.csv" {
+                    "patches.csv (written beside classes.tif by areal range)"
+                } else {
+                    "summary.json (written beside classes.tif by areal range)"
+                },
+            })
+        }
+    };
+    let patches_path = need("patches.csv")?;
+    let summary_path = need("summary.json")?;
+    let facts = read_summary(&summary_path)?;
+    let conn = super::connectivity_of(facts.connectivity, connectivity, &summary_path)?;
+    let patches = read_table(&patches_path, &PATCH_FIELDS)?;
+    let records_path = dir.join("records.csv");
+    let records = if records_path.exists() {
+        Some(read_table(&records_path, &RECORD_FIELDS)?)
+    } else {
+        None
+    };
     let raster = SuitabilityRaster::open(classes_path)?;
     let grid = raster.grid().clone();
-    if grid.n_cells() > max_cells {
-        return Err(Error::UnsupportedRaster {
-            path: classes_path.to_path_buf(),
-            reason: format!(
-                "has {} cells, more than the {max_cells} the vector step handles (it holds the grid \
-                 in memory, about 5 bytes a cell); polygonize a coarser or cropped run, or leave out --vectors",
-                grid.n_cells()
-            ),
-        });
-    }
     let mut classes = Vec::with_capacity(grid.width * grid.height);
     let mut buf = Vec::new();
     for y0 in (0..grid.height).step_by(STRIP_ROWS) {
@@ -178,41 +150,83 @@ pub(crate) fn read_run(classes_path: &Path, max_cells: u64) -> Result<RunInputs>
             classes.push(k as u8);
         }
     }
-    let need = |name: &str| -> Result<PathBuf> {
-        let p = dir.join(name);
-        if p.exists() {
-            Ok(p)
-        } else {
-            Err(Error::MissingInput {
-                path: p,
-                what: if name == "patches.csv" {
-                    "patches.csv (written beside classes.tif by areal range)"
-                } else {
-                    "summary.json (written beside classes.tif by areal range)"
-                },
-            })
+    let (labels, found) = label_grid(&classes, grid.width, conn, grid.wraps_antimeridian());
+
+    // M as used: rebuilt row by row as the run built it, from the run's records.
+    let no_m_options = access == &AccessSpec::default();
+    if no_m_options && !facts.whole_raster {
+        return Err(Error::InvalidOption {
+            option: "--accessible",
+            reason: format!(
+                "the run's M was \"{}\"; give the same --accessible / --buffer-km / --hull-buffer-km to rebuild it",
+                facts.access_description
+            ),
+        });
+    }
+    let lonlat: Vec<(f64, f64)> = match &records {
+        Some(r) => {
+            let (lon, lat) = (2, 3); // RECORD_FIELDS: lon, lat
+            (0..r.rows.len())
+                .map(|i| {
+                    (
+                        r.num(i, lon).unwrap_or(f64::NAN),
+                        r.num(i, lat).unwrap_or(f64::NAN),
+                    )
+                })
+                .collect()
         }
+        None => Vec::new(),
     };
-    let patches_path = need("patches.csv")?;
-    let summary_path = need("summary.json")?;
-    let patches = Table::read_csv(&patches_path)?;
-    let records_path = dir.join("records.csv");
-    let records = if records_path.exists() {
-        Some(Table::read_csv(&records_path)?)
-    } else {
-        None
-    };
-    let summary = read_summary(&summary_path)?;
-    Ok(RunInputs {
-        classes_path: classes_path.to_path_buf(),
+    let mut mask = AccessMask::build(&grid, access, &lonlat)?;
+    if mask.description() != facts.access_description {
+        return Err(Error::InvalidOption {
+            option: "--accessible",
+            reason: format!(
+                "these M options give \"{}\", but the run's M was \"{}\"; give the run's own M options",
+                mask.description(),
+                facts.access_description
+            ),
+        });
+    }
+    let mut m = Vec::with_capacity(grid.height);
+    let mut row = vec![false; grid.width];
+    for r in 0..grid.height {
+        mask.fill_row(r, &mut row)?;
+        let mut runs: Vec<(u32, u32)> = Vec::new();
+        for (c, &in_m) in row.iter().enumerate() {
+            let k = classes[r * grid.width + c];
+            if (k == class::INSIDE && !in_m) || (k == class::OUTSIDE && in_m) {
+                return Err(Error::InvalidOption {
+                    option: "--accessible",
+                    reason: format!(
+                        "the rebuilt M disagrees with {} at row {r}, column {c} (class {k}); give the run's own M options and inputs",
+                        classes_path.display()
+                    ),
+                });
+            }
+            if in_m && k != class::NODATA {
+                match runs.last_mut() {
+                    Some(x) if x.1 == c as u32 => x.1 += 1,
+                    _ => runs.push((c as u32, c as u32 + 1)),
+                }
+            }
+        }
+        m.push(runs);
+    }
+    let src = LabelRuns {
         grid,
-        classes,
-        patches,
-        patches_path,
-        records,
-        records_path,
-        summary,
-    })
+        labels,
+        patches: found,
+        m,
+    };
+    Ok((
+        src,
+        RunTables {
+            patches,
+            records,
+            facts,
+        },
+    ))
 }
 
 fn read_summary(path: &Path) -> Result<SummaryFacts> {

@@ -1,7 +1,8 @@
 //! The run tracer against GDAL's polygonizer (GDALPolygonize, GDAL 3.6, through the gdal
 //! crate) and GEOS validity (through GDAL): same cells per id, valid polygons.
 
-use super::polygonize::{is_valid_quiet, polygonize_labels};
+use super::gdal_ref::polygonize_labels;
+use super::polygonize::is_valid_quiet;
 use super::trace::{IdRun, PixelPolygon, Tracer};
 use crate::patches::{label_grid, Connectivity};
 use crate::GridSpec;

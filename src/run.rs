@@ -187,8 +187,13 @@ pub fn run_range(
     let json = serde_json::to_string_pretty(&result.summary).expect("summary serialises");
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
     if let Some(v) = &opts.vectors {
-        let run_dir = dir.file("");
-        crate::vectors::write_vectors(&run_dir, &run_dir, &opts.access, None, v)?;
+        let rows = crate::vectors::RunRows {
+            patches: &result.patches,
+            nearest_range_km: &[],
+            records: &result.records,
+            summary: &result.summary,
+        };
+        crate::vectors::write_vectors(&model, &rows, &dir.file(""), v)?;
     }
     drop(model); // removes its spill file before the folder is committed
     dir.commit()?;

@@ -1,18 +1,15 @@
-//! Reading a run's outputs for the vector step: `classes.tif` (whole, 1 byte a cell),
-//! `patches.csv`, `records.csv` (optional) and `summary.json`, all from one folder.
-//!
-//! CSV columns are carried over as they are: a column whose every non-empty value is an
-//! integer becomes an integer field, one whose values are all numbers a real field, anything
-//! else text; empty cells are nulls. So every column of the tables reaches the vector layers,
-//! whatever columns a run writes.
+//! What `areal polygons` reads from an earlier run's folder: the range model rebuilt from
+//! `classes.tif`, `patches.csv`, `records.csv` (optional) and `summary.json`; and the table
+//! types every layer is written from.
 
 use super::layers::RunTables;
-use super::source::LabelRuns;
 use super::tables::{read_table, PATCH_FIELDS, RECORD_FIELDS};
 use crate::access::{AccessMask, AccessSpec};
-use crate::patches::{label_grid, Connectivity};
-use crate::raster_io::{class, SuitabilityRaster, STRIP_ROWS};
+use crate::model::RangeModel;
+use crate::patches::Connectivity;
+use crate::raster_io::SuitabilityRaster;
 use crate::{Error, Result};
+use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 /// The type of a table column.
@@ -91,14 +88,15 @@ impl SummaryFacts {
     }
 }
 
-/// An earlier run's folder, read for the vector step: the range rebuilt from `classes.tif`
-/// (labelled with the run's connectivity, M rebuilt from `access` and checked against the
-/// classes) and the tables beside it.
+/// An earlier run's folder, read for `areal polygons`: the range model rebuilt from
+/// `classes.tif` through the pass's labeller (with the run's connectivity, and M rebuilt from
+/// `access` and the run's records, checked against the classes by the model), and the tables
+/// beside it.
 pub(crate) fn read_run(
     classes_path: &Path,
     access: &AccessSpec,
     connectivity: Option<Connectivity>,
-) -> Result<(LabelRuns, RunTables)> {
+) -> Result<(RangeModel, RunTables)> {
     let dir = classes_path.parent().unwrap_or(Path::new("."));
     let need = |name: &str| -> Result<PathBuf> {
         let p = dir.join(name);
@@ -126,31 +124,7 @@ pub(crate) fn read_run(
     } else {
         None
     };
-    let raster = SuitabilityRaster::open(classes_path)?;
-    let grid = raster.grid().clone();
-    let mut classes = Vec::with_capacity(grid.width * grid.height);
-    let mut buf = Vec::new();
-    for y0 in (0..grid.height).step_by(STRIP_ROWS) {
-        let rows = STRIP_ROWS.min(grid.height - y0);
-        raster.read_rows(y0, rows, &mut buf)?;
-        for &v in &buf {
-            let k = if raster.is_data(v) {
-                v
-            } else {
-                class::NODATA as f64
-            };
-            if ![0.0, 1.0, 2.0, 255.0].contains(&k) {
-                return Err(Error::UnsupportedRaster {
-                    path: classes_path.to_path_buf(),
-                    reason: format!(
-                        "holds the value {k}, not a class code (0, 1, 2, 255); give the classes.tif areal wrote"
-                    ),
-                });
-            }
-            classes.push(k as u8);
-        }
-    }
-    let (labels, found) = label_grid(&classes, grid.width, conn, grid.wraps_antimeridian());
+    let grid = SuitabilityRaster::open(classes_path)?.grid().clone();
 
     // M as used: rebuilt row by row as the run built it, from the run's records.
     let no_m_options = access == &AccessSpec::default();
@@ -188,39 +162,10 @@ pub(crate) fn read_run(
             ),
         });
     }
-    let mut m = Vec::with_capacity(grid.height);
-    let mut row = vec![false; grid.width];
-    for r in 0..grid.height {
-        mask.fill_row(r, &mut row)?;
-        let mut runs: Vec<(u32, u32)> = Vec::new();
-        for (c, &in_m) in row.iter().enumerate() {
-            let k = classes[r * grid.width + c];
-            if (k == class::INSIDE && !in_m) || (k == class::OUTSIDE && in_m) {
-                return Err(Error::InvalidOption {
-                    option: "--accessible",
-                    reason: format!(
-                        "the rebuilt M disagrees with {} at row {r}, column {c} (class {k}); give the run's own M options and inputs",
-                        classes_path.display()
-                    ),
-                });
-            }
-            if in_m && k != class::NODATA {
-                match runs.last_mut() {
-                    Some(x) if x.1 == c as u32 => x.1 += 1,
-                    _ => runs.push((c as u32, c as u32 + 1)),
-                }
-            }
-        }
-        m.push(runs);
-    }
-    let src = LabelRuns {
-        grid,
-        labels,
-        patches: found,
-        m,
-    };
+    let model =
+        RangeModel::from_class_raster(classes_path, conn, &BTreeMap::new(), Some(&mut mask))?;
     Ok((
-        src,
+        model,
         RunTables {
             patches,
             records,

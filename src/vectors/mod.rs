@@ -46,7 +46,9 @@ pub use crs::VectorCrs;
 pub use write::GEOJSON_DECIMALS;
 
 use crate::access::AccessSpec;
+use crate::model::RangeModel;
 use crate::patches::Connectivity;
+use crate::report::{PatchRow, RecordRow, Summary};
 use crate::{Error, Result};
 use std::path::{Path, PathBuf};
 
@@ -85,27 +87,34 @@ pub struct VectorReport {
     pub equal_area_crs: Option<String>,
 }
 
-/// Write the vector outputs of the run in `run_dir` into `out_dir`.
-///
-/// `access` must be the M options of that run (checked against summary.json and the classes);
-/// `connectivity` overrides summary.json's when given (it must agree with the patches).
+/// The tables of a run in memory, as `areal range` made them.
+#[derive(Debug, Clone, Copy)]
+pub struct RunRows<'a> {
+    /// patches.csv rows, in id order.
+    pub patches: &'a [PatchRow],
+    /// Per patch (index id - 1): the edge-to-edge distance to the nearest class-1 patch, km,
+    /// from the metrics; empty when they were not computed.
+    pub nearest_range_km: &'a [Option<f64>],
+    /// records.csv rows.
+    pub records: &'a [RecordRow],
+    /// The summary.
+    pub summary: &'a Summary,
+}
+
+/// Write the vector outputs of a run into `out_dir`, from its model and tables in memory.
 pub fn write_vectors(
-    run_dir: &Path,
+    model: &RangeModel,
+    rows: &RunRows<'_>,
     out_dir: &Path,
-    access: &AccessSpec,
-    connectivity: Option<Connectivity>,
     opts: &VectorOptions,
 ) -> Result<VectorReport> {
     check_options(opts)?;
-    let classes = run_dir.join("classes.tif");
-    if !classes.exists() {
-        return Err(Error::MissingInput {
-            path: classes,
-            what: "classes.tif of an areal run",
-        });
-    }
-    let (src, tables) = inputs::read_run(&classes, access, connectivity)?;
-    layers::build_and_write(&src, &tables, opts, out_dir, &classes)
+    let tables = layers::RunTables {
+        patches: tables::patch_table(rows.patches, rows.nearest_range_km),
+        records: Some(tables::record_table(rows.records)),
+        facts: inputs::SummaryFacts::of(rows.summary),
+    };
+    layers::build_and_write(model, &tables, opts, out_dir, out_dir)
 }
 
 fn check_options(opts: &VectorOptions) -> Result<()> {
@@ -184,7 +193,16 @@ pub fn run_polygons(
     let dir = crate::output::OutputDir::prepare(out, overwrite, &inputs)?;
     let tmp = dir.file("x");
     let tmp = tmp.parent().expect("the temporary folder has a parent");
-    let report = write_vectors(&run_dir, tmp, access, connectivity, opts)?;
+    check_options(opts)?;
+    let classes = run_dir.join("classes.tif");
+    if !classes.exists() {
+        return Err(Error::MissingInput {
+            path: classes,
+            what: "classes.tif of an areal run",
+        });
+    }
+    let (model, tables) = inputs::read_run(&classes, access, connectivity)?;
+    let report = layers::build_and_write(&model, &tables, opts, tmp, &classes)?;
     dir.commit()?;
     Ok(report)
 }

@@ -2,6 +2,7 @@
 //! patches, and M as runs; traced here into pixel polygons, one region at a time.
 
 use super::trace::{IdRun, PixelPolygon, Tracer};
+use crate::model::RangeModel;
 use crate::patches::Patch;
 use crate::{GridSpec, Result};
 
@@ -64,45 +65,26 @@ pub(crate) fn trace(src: &dyn RunSource) -> Result<Traced> {
     })
 }
 
-/// A range held as a label raster and M as runs: what `areal polygons` and `areal range`
-/// rebuild until the pass hands over its run model.
-pub(crate) struct LabelRuns {
-    pub grid: GridSpec,
-    pub labels: Vec<u32>,
-    pub patches: Vec<Patch>,
-    pub m: Vec<Vec<(u32, u32)>>,
-}
-
-impl RunSource for LabelRuns {
+impl RunSource for RangeModel {
     fn grid(&self) -> &GridSpec {
-        &self.grid
+        RangeModel::grid(self)
     }
     fn patches(&self) -> &[Patch] {
-        &self.patches
+        RangeModel::patches(self)
     }
     fn for_each_row(&self, f: &mut dyn FnMut(usize, &[IdRun]) -> Result<()>) -> Result<()> {
-        let w = self.grid.width;
         let mut runs: Vec<IdRun> = Vec::new();
-        for (r, row) in self.labels.chunks_exact(w).enumerate() {
+        RangeModel::for_each_row(self, &mut |r, model_runs| {
             runs.clear();
-            for (c, &id) in row.iter().enumerate() {
-                if id == 0 {
-                    continue;
-                }
-                match runs.last_mut() {
-                    Some(x) if x.id == id && x.end == c as u32 => x.end += 1,
-                    _ => runs.push(IdRun {
-                        start: c as u32,
-                        end: c as u32 + 1,
-                        id,
-                    }),
-                }
-            }
-            f(r, &runs)?;
-        }
-        Ok(())
+            runs.extend(model_runs.iter().map(|x| IdRun {
+                start: x.start,
+                end: x.end,
+                id: x.patch,
+            }));
+            f(r, &runs)
+        })
     }
     fn m_row(&self, row: usize) -> &[(u32, u32)] {
-        self.m.get(row).map_or(&[], |v| v.as_slice())
+        RangeModel::m_row(self, row)
     }
 }

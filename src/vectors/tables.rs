@@ -83,20 +83,29 @@ pub(crate) fn patch_table(rows: &[PatchRow], nearest_range_km: &[Option<f64>]) -
     t
 }
 
+/// Text, with an empty string as null (as an empty CSV cell reads).
+fn text(s: &str) -> Value {
+    if s.is_empty() {
+        Value::Null
+    } else {
+        Value::Text(s.to_string())
+    }
+}
+
 /// The record table from the run's rows, with `dropped_by_threshold`.
 pub(crate) fn record_table(rows: &[RecordRow]) -> Table {
     let mut t = schema(&RECORD_FIELDS);
     for r in rows {
         t.rows.push(vec![
-            Value::Text(r.origin.clone()),
-            Value::Text(r.id.clone()),
+            text(&r.origin),
+            text(&r.id),
             Value::Real(r.lon),
             Value::Real(r.lat),
             opt(r.row, |v| Value::Int(v as i64)),
             opt(r.col, |v| Value::Int(v as i64)),
             opt(r.suitability, Value::Real),
             opt(r.class, |v| Value::Int(v.into())),
-            Value::Text(r.status.to_string()),
+            Value::Text(r.status.as_str().to_string()),
         ]);
     }
     add_dropped(&mut t);

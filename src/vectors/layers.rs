@@ -5,13 +5,14 @@
 //! GeoPackage. The geometries of one CRS are made, written and dropped before the next.
 
 use super::crs::{choose, Target};
+use super::geojson::write_geojson;
 use super::inputs::{Kind, SummaryFacts, Table, Value};
 use super::lonlat::{densify, grid_srs, wgs84, ToLonLat};
 use super::parallels::lonlat_polygon;
 use super::polygonize::polygons_of;
 use super::source::{trace, RunSource};
 use super::trace::PixelPolygon;
-use super::write::{write_geojson, write_gpkg, Geom, LayerData};
+use super::write::{write_gpkg, Geom, LayerData};
 use super::{VectorOptions, VectorReport};
 use crate::raster_io::class;
 use crate::{Error, GridSpec, Result};
@@ -147,7 +148,7 @@ pub(crate) fn build_and_write(
         )?;
         for l in layers_of(&ll) {
             let name = format!("{}.geojson", l.name);
-            write_geojson(&out_dir.join(&name), &w84, &l)?;
+            write_geojson(&out_dir.join(&name), &l)?;
             written.push(name);
         }
     }

@@ -26,6 +26,7 @@
 mod crs;
 #[cfg(test)]
 mod gdal_ref;
+mod geojson;
 mod inputs;
 mod layers;
 mod lonlat;

@@ -11,7 +11,6 @@ use common::*;
 use vectors_common::*;
 
 use gdal::vector::LayerAccess;
-use std::path::Path;
 
 #[test]
 fn layers_fields_counts_validity_and_areas_on_a_lonlat_grid() {

@@ -42,7 +42,7 @@ fn write_all(w: &mut impl Write, layer: &LayerData<'_>) -> std::io::Result<()> {
     write!(
         w,
         "{{\n\"type\": \"FeatureCollection\",\n\"name\": {},\n\"features\": [\n",
-        json(&layer.name)
+        json(layer.name)
     )?;
     let keys: Vec<String> = t.names.iter().map(|n| json(n)).collect();
     let mut num = String::new();

@@ -440,7 +440,7 @@ fn assemble(mut o: Open) -> std::result::Result<Vec<PixelPolygon>, String> {
         }
         shell_of[h] = s;
     }
-    if area2.iter().any(|&a| a == 0) {
+    if area2.contains(&0) {
         return Err("a ring has no area".into());
     }
     let mut out: Vec<PixelPolygon> = Vec::new();

@@ -486,3 +486,36 @@ fn projected_grid_lonlat_outputs_keep_the_true_areas() {
     // EPSG:3035 is equal-area: the planar area of the native polygons is the true area.
     assert!(rel(planar_km2(&range.polygons), inside) < 1e-12);
 }
+
+#[test]
+fn a_spilled_model_gives_the_same_vector_files() {
+    // AREAL_MODEL_BUDGET_MB=0 sends every run of the range model to its spill file; the
+    // vectors read the runs back from there and must write the same files byte for byte.
+    let t = tempfile::tempdir().unwrap();
+    let mem = regional_run(&t.path().join("mem"), &["--vectors"]);
+    let dir = t.path().join("spill");
+    std::fs::create_dir_all(&dir).unwrap();
+    let out = dir.join("out");
+    let o = areal()
+        .args(regional_args(&dir, &out, &["--vectors"]))
+        .env("AREAL_MODEL_BUDGET_MB", "0")
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    for n in ["range", "patches", "unreachable", "accessible", "records"] {
+        assert!(
+            std::fs::read(mem.join(format!("{n}.geojson"))).unwrap()
+                == std::fs::read(out.join(format!("{n}.geojson"))).unwrap(),
+            "{n}.geojson differs"
+        );
+    }
+    let (a, b) = (
+        read_gpkg(&mem.join("range.gpkg")),
+        read_gpkg(&out.join("range.gpkg")),
+    );
+    for (la, lb) in a.iter().zip(&b) {
+        for (fa, fb) in la.features.iter().zip(&lb.features) {
+            assert_eq!(fa.polygons, fb.polygons, "layer {}", la.name);
+        }
+    }
+}

@@ -519,3 +519,36 @@ fn a_spilled_model_gives_the_same_vector_files() {
         }
     }
 }
+
+#[test]
+fn polygons_refuses_a_patch_table_of_another_run() {
+    let t = tempfile::tempdir().unwrap();
+    let plain = t.path().join("plain");
+    let o = areal()
+        .args(regional_args(t.path(), &plain, &[]))
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    // Drop the last patch row: the table no longer describes the raster's patches.
+    let p = plain.join("patches.csv");
+    let text = std::fs::read_to_string(&p).unwrap();
+    let lines: Vec<&str> = text.lines().collect();
+    std::fs::write(&p, lines[..lines.len() - 1].join("\n") + "\n").unwrap();
+    let vout = t.path().join("vec");
+    let o = run(&[
+        "polygons",
+        "--classes",
+        plain.join("classes.tif").to_str().unwrap(),
+        "--accessible",
+        t.path().join("m.geojson").to_str().unwrap(),
+        "--out",
+        vout.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(3), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("patches.csv") && stderr(&o).contains("rows for"),
+        "{}",
+        stderr(&o)
+    );
+    assert!(!vout.exists());
+}

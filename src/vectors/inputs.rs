@@ -139,7 +139,8 @@ pub(crate) fn read_run(
     }
     let lonlat: Vec<(f64, f64)> = match &records {
         Some(r) => {
-            let (lon, lat) = (2, 3); // RECORD_FIELDS: lon, lat
+            let at = |n: &str| RECORD_FIELDS.iter().position(|f| f.1 == n).expect("field");
+            let (lon, lat) = (at("lon"), at("lat"));
             (0..r.rows.len())
                 .map(|i| {
                     (
@@ -164,6 +165,36 @@ pub(crate) fn read_run(
     }
     let model =
         RangeModel::from_class_raster(classes_path, conn, &BTreeMap::new(), Some(&mut mask))?;
+    // patches.csv must describe these patches (the same run's table).
+    let found = model.patches();
+    let mismatch = |what: String| {
+        Error::Records {
+        path: patches_path.clone(),
+        reason: format!(
+            "does not match {}: {what}; give the patches.csv, summary.json and classes.tif of one run",
+            classes_path.display()
+        ),
+    }
+    };
+    if patches.rows.len() != found.len() {
+        return Err(mismatch(format!(
+            "{} rows for {} patches",
+            patches.rows.len(),
+            found.len()
+        )));
+    }
+    for (i, p) in found.iter().enumerate() {
+        let (id, k, n) = (patches.num(i, 0), patches.num(i, 1), patches.num(i, 2));
+        if id != Some(p.id as f64) || k != Some(p.class as f64) || n != Some(p.cells as f64) {
+            return Err(mismatch(format!(
+                "line {} is patch {id:?} (class {k:?}, {n:?} cells), the raster's patch {} has class {} and {} cells",
+                i + 2,
+                p.id,
+                p.class,
+                p.cells
+            )));
+        }
+    }
     Ok((
         model,
         RunTables {

@@ -69,6 +69,7 @@ pub fn range_metrics(
     records: &[MetricRecord],
     opts: &MetricsOptions,
 ) -> Result<(Metrics, Vec<PatchMetrics>)> {
+    let mut clock = crate::progress::StageClock::new();
     let RecordPart {
         mut metrics,
         grid: aoo_grid,
@@ -85,13 +86,13 @@ pub fn range_metrics(
     if n_occ > 0 {
         let cell_km = opts.aoo_cell_km;
         let mut counter = modelled_aoo(model, &aoo_grid, &occupied)?;
+        clock.lap("modelled AOO cells");
+        let aoo_fig = counter.figures();
+        clock.lap("modelled AOO origins");
         let hull_pts = occupied_hull_points(model, &occupied)?;
-        let mut fig = figures(
-            &hull_pts,
-            &counter.figures(),
-            cell_km,
-            "occupied modelled range",
-        );
+        clock.lap("modelled hull points");
+        let mut fig = figures(&hull_pts, &aoo_fig, cell_km, "occupied modelled range");
+        clock.lap("modelled hull");
         let (occ_area, occ_cells) = (0..n).filter(|&i| occupied[i]).fold((0.0, 0u64), |a, i| {
             (a.0 + area_km2(i), a.1 + patches[i].cells)
         });
@@ -115,9 +116,12 @@ pub fn range_metrics(
     }
 
     let c = Corners::from_model(model)?;
+    clock.lap("boundary corners");
     let near = reach::nearest(&c, |_| true);
     let near_occ = reach::nearest(&c, |p| occupied[p]);
+    clock.lap("nearest patches");
     let jumps = opts.gap_km.map(|g| reach::reach(&c, |p| occupied[p], g));
+    clock.lap("reach");
     let cols: Vec<PatchMetrics> = (0..n)
         .map(|p| PatchMetrics {
             nearest_patch_km: near[p],

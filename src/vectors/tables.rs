@@ -161,7 +161,7 @@ pub(crate) fn read_table(path: &Path, fields: &[(&str, &str, Kind)]) -> Result<T
                 (true, _) => Some(Value::Null),
                 (_, Kind::Int) => text.parse().ok().map(Value::Int),
                 (_, Kind::Real) => text.parse().ok().map(Value::Real),
-                (_, Kind::Bool) => match text {
+                (_, Kind::Bool) => match text.to_ascii_lowercase().as_str() {
                     "true" | "1" => Some(Value::Bool(true)),
                     "false" | "0" => Some(Value::Bool(false)),
                     _ => None,

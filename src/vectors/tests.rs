@@ -74,11 +74,11 @@ fn a_ring_around_a_pole_is_detected() {
 fn earlier_tables_are_read_into_the_layer_schema() {
     let t = tempfile::tempdir().unwrap();
     let p = t.path().join("patches.csv");
-    // An older run's table: no nearest_range_km column; reachable as written by the csv crate.
+    // An older run's table: no nearest_range_km column; reachable as patches.csv writes it.
     std::fs::write(
         &p,
         "patch_id,class,cells,area_km2,centroid_lon,centroid_lat,min_lon,min_lat,max_lon,max_lat,records,nearest_patch_km,nearest_occupied_km,reachable,reach_jumps\n\
-         1,1,3,2.5,10.5,45.5,10,45,11,46,2,,,true,0\n",
+         1,1,3,2.5,10.5,45.5,10,45,11,46,2,,,TRUE,0\n",
     )
     .unwrap();
     let tab = read_table(&p, &PATCH_FIELDS).unwrap();

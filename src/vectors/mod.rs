@@ -1,6 +1,6 @@
 //! GIS-ready vector outputs of a run: `range.gpkg` and RFC 7946 GeoJSON files.
 //!
-//! Input: the range as rows of runs with their patch ids, and M as runs ([`source`]), with the
+//! Input: the range as rows of runs with their patch ids, and M as runs (`source.rs`), with the
 //! run's patch and record tables. Layers (GeoPackage layer = GeoJSON file name):
 //! - `range`: the class-1 cells (suitable inside M) as one multipolygon, with `area_km2`
 //!   (= summary `area_km2.inside_accessible`), `cells` and `patches`;
@@ -12,9 +12,9 @@
 //!   `area_km2.accessible`), `cells` and M's description;
 //! - `records`: points with the record table's fields and `dropped_by_threshold`.
 //!
-//! Polygons are traced from the runs ([`trace`]): pixel-edge boundaries, vertices on cell
+//! Polygons are traced from the runs (`trace.rs`): pixel-edge boundaries, vertices on cell
 //! corners. On lon/lat grids vertices are added along parallels so that geodesic areas match
-//! the cell areas ([`parallels`]). CRS: `range.gpkg` is in the raster's CRS; the GeoJSON files
+//! the cell areas (`parallels.rs`). CRS: `range.gpkg` is in the raster's CRS; the GeoJSON files
 //! are WGS84 lon/lat, cut at the antimeridian, exterior rings counter-clockwise,
 //! [`GEOJSON_DECIMALS`] decimals; `range-equal-area.gpkg` (optional) is in an equal-area CRS
 //! ([`VectorCrs`]).

@@ -78,8 +78,14 @@ pub(super) fn to_geo(ps: &[PixelPolygon]) -> MultiPolygon<f64> {
 }
 
 fn check_grid(classes: &[u8], w: usize, conn: Connectivity) {
+    check_grid_wrap(classes, w, conn, false)
+}
+
+/// With `wrap`, patches join across the grid's east and west edges (a global grid's
+/// antimeridian): each comes out as pieces at both edges, as GDAL's do.
+fn check_grid_wrap(classes: &[u8], w: usize, conn: Connectivity, wrap: bool) {
     let h = classes.len() / w;
-    let (mut labels, patches) = label_grid(classes, w, conn, false);
+    let (mut labels, patches) = label_grid(classes, w, conn, wrap);
     let rows = runs_of(&labels, w);
     let last: Vec<usize> = patches.iter().map(|p| p.row_max).collect();
     let ours = trace_all(&rows, &last);
@@ -150,6 +156,7 @@ proptest! {
         h in 1usize..10,
         seed in proptest::collection::vec(0u8..6, 120),
         eight in any::<bool>(),
+        wrap in any::<bool>(),
     ) {
         // Classes 0 (half the cells), 1 and 2.
         let g: Vec<u8> = (0..w * h).map(|i| match seed[i % seed.len()] ^ (i as u8 / 7 % 3) {
@@ -158,6 +165,6 @@ proptest! {
             _ => 2,
         }).collect();
         let conn = if eight { Connectivity::Eight } else { Connectivity::Four };
-        check_grid(&g, w, conn);
+        check_grid_wrap(&g, w, conn, wrap && w >= 3);
     }
 }

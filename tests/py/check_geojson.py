@@ -1,7 +1,8 @@
 #!/usr/bin/env python3
 """Reference-library check of areal's GeoJSON (run by scripts/test.sh after cargo test).
 
-Builds a global 1-degree grid with a patch (holding a hole) across the antimeridian, runs
+Builds a global 1-degree grid with a patch (holding a hole) across the antimeridian and a
+patch touching the north pole, runs
 `areal range --vectors` on it, and reads the GeoJSON files with shapely (validity, RFC 7946
 winding) and pyproj.Geod (GeographicLib's geodesic polygon area) to compare every patch's
 area with patches.csv. The polygons are measured as written, every edge a geodesic: areal
@@ -45,6 +46,9 @@ def make_inputs(d, west):
         for lon in (177, 178, 179, 180, 181, 182):
             if not (r == 78 and lon == 181):  # a one-cell hole east of 180
                 v[r][col(lon)] = 0.9
+    for r in range(0, 3):  # a patch touching the north pole, 30 degrees wide
+        for lon in range(10, 40):
+            v[r][col(lon)] = 0.9
     for r in range(40, 44):  # a patch across Greenwich
         for lon in (-2, -1, 0, 1):
             v[r][col(lon)] = 0.9

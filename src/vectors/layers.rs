@@ -53,7 +53,9 @@ pub(crate) fn build_and_write(
             ),
         });
     }
+    let mut clock = crate::progress::StageClock::new();
     let traced = trace(src)?;
+    clock.lap("vectors: trace");
     let to_ll = ToLonLat::new(&grid)?;
     let tol = match opts.simplify_m {
         None => None,
@@ -135,6 +137,7 @@ pub(crate) fn build_and_write(
         )?;
         written.push("range.gpkg".to_string());
     }
+    clock.lap("vectors: range.gpkg");
     let w84 = wgs84()?;
     {
         let ll = Shapes::lonlat(
@@ -152,6 +155,7 @@ pub(crate) fn build_and_write(
             written.push(name);
         }
     }
+    clock.lap("vectors: GeoJSON");
     let mut equal_area_crs = None;
     if let Some(spec) = &opts.equal_area {
         let Target {
@@ -184,6 +188,7 @@ pub(crate) fn build_and_write(
             &layers_of(&ea),
         )?;
         written.push("range-equal-area.gpkg".to_string());
+        clock.lap("vectors: range-equal-area.gpkg");
         equal_area_crs = Some(label);
     }
     Ok(VectorReport {

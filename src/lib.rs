@@ -5,11 +5,13 @@
 //! Stages (each a module with its own contract and tests):
 //! [`records`] read and reproject records; [`threshold`](omission_threshold) pick T;
 //! [`access`] rasterise M; [`area`] true cell areas; [`patches`] streaming labelling;
-//! the pipeline ([`compute_range`], [`run_range`]) ties them in one pass over the raster.
+//! the pipeline ([`compute_range`], [`run_range`]) ties them in one pass over the raster;
+//! [`change`] compares the range with future rasters.
 #![deny(missing_docs)]
 
 pub mod access;
 pub mod area;
+pub mod change;
 mod error;
 mod grid;
 pub mod metrics;

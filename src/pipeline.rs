@@ -151,12 +151,12 @@ struct PlacedRecord {
 
 /// Neumaier-compensated sum.
 #[derive(Debug, Default, Clone, Copy)]
-struct Sum {
+pub(crate) struct Sum {
     s: f64,
     c: f64,
 }
 impl Sum {
-    fn add(&mut self, x: f64) {
+    pub(crate) fn add(&mut self, x: f64) {
         let t = self.s + x;
         if self.s.abs() >= x.abs() {
             self.c += (self.s - t) + x;
@@ -165,7 +165,7 @@ impl Sum {
         }
         self.s = t;
     }
-    fn get(&self) -> f64 {
+    pub(crate) fn get(&self) -> f64 {
         self.s + self.c
     }
 }
@@ -448,7 +448,7 @@ fn strip_rows(y0: usize, h: usize) -> usize {
 }
 
 /// Worker threads for decoding: the machine's cores (at least 1), or `AREAL_THREADS`.
-fn decode_threads() -> usize {
+pub(crate) fn decode_threads() -> usize {
     std::env::var("AREAL_THREADS")
         .ok()
         .and_then(|v| v.parse().ok())
@@ -753,12 +753,12 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
 }
 
 /// Pixel positions to WGS84 lon/lat.
-struct LonLat {
+pub(crate) struct LonLat {
     to_wgs84: Option<CoordTransform>,
 }
 
 impl LonLat {
-    fn new(grid: &GridSpec) -> Result<Self> {
+    pub(crate) fn new(grid: &GridSpec) -> Result<Self> {
         if grid.geographic {
             return Ok(LonLat { to_wgs84: None });
         }
@@ -790,7 +790,7 @@ impl LonLat {
         }
     }
 
-    fn patch_row(&self, grid: &GridSpec, p: &Patch) -> Result<PatchRow> {
+    pub(crate) fn patch_row(&self, grid: &GridSpec, p: &Patch) -> Result<PatchRow> {
         let gt = grid.geo_transform;
         let px = |col: f64, row: f64| (gt[0] + col * gt[1], gt[3] + row * gt[5]);
         let (cx, cy) = px(p.centroid_col, p.centroid_row);

@@ -588,6 +588,17 @@ pub mod class {
     ];
 }
 
+/// Band description, colour table and category names of a class raster.
+#[derive(Debug, Clone, Copy)]
+pub struct ClassStyle<'a> {
+    /// Band description.
+    pub description: &'a str,
+    /// (value, [r, g, b, alpha]) colour table entries.
+    pub colours: &'a [(u8, [u8; 4])],
+    /// Category names, index = class value.
+    pub names: &'a [&'a str],
+}
+
 /// Writes `classes.tif` strip by strip.
 pub struct ClassWriter {
     path: PathBuf,
@@ -598,6 +609,24 @@ pub struct ClassWriter {
 impl ClassWriter {
     /// Create the GeoTIFF (tiled 256 x 256, DEFLATE, BIGTIFF if needed) on `grid`.
     pub fn create(path: &Path, grid: &GridSpec) -> Result<Self> {
+        // Our own palette: pale sand for below threshold, deep teal for the accessible
+        // range, warm amber for suitable land beyond M, transparent nodata.
+        let style = ClassStyle {
+            description: "range class",
+            colours: &[
+                (0, [236, 229, 206, 255]),
+                (1, [0, 109, 119, 255]),
+                (2, [230, 145, 56, 255]),
+                (255, [0, 0, 0, 0]),
+            ],
+            names: &class::NAMES,
+        };
+        Self::create_styled(path, grid, &style)
+    }
+
+    /// Create a uint8 GeoTIFF like [`ClassWriter::create`] with its own band description,
+    /// colour table and category names (nodata 255).
+    pub fn create_styled(path: &Path, grid: &GridSpec, style: &ClassStyle<'_>) -> Result<Self> {
         let err = |op: &str| output_error(path, op.to_string());
         let opts = RasterCreationOptions::from_iter([
             "TILED=YES",
@@ -621,18 +650,18 @@ impl ClassWriter {
             let mut band = ds.rasterband(1).map_err(err("opening band 1"))?;
             band.set_no_data_value(Some(class::NODATA as f64))
                 .map_err(err("setting nodata"))?;
-            band.set_description("range class")
+            band.set_description(style.description)
                 .map_err(err("setting the band description"))?;
             let mut ct = ColorTable::new(PaletteInterpretation::Rgba);
-            // Our own palette: pale sand for below threshold, deep teal for the accessible
-            // range, warm amber for suitable land beyond M, transparent nodata.
-            ct.set_color_entry(0, &ColorEntry::rgba(236, 229, 206, 255));
-            ct.set_color_entry(1, &ColorEntry::rgba(0, 109, 119, 255));
-            ct.set_color_entry(2, &ColorEntry::rgba(230, 145, 56, 255));
-            ct.set_color_entry(255, &ColorEntry::rgba(0, 0, 0, 0));
+            for &(v, [r, g, b, a]) in style.colours {
+                ct.set_color_entry(
+                    v as u16,
+                    &ColorEntry::rgba(r as i16, g as i16, b as i16, a as i16),
+                );
+            }
             band.set_color_table(&ct);
             let mut names = gdal::cpl::CslStringList::new();
-            for n in class::NAMES {
+            for &n in style.names {
                 names.add_string(n).map_err(err("setting category names"))?;
             }
             // SAFETY: the band handle is live for this call; the list outlives it.
@@ -667,6 +696,24 @@ impl ClassWriter {
                 format!("writing rows {y0}..{}", y0 + n),
             ))?;
         Ok(buf.into_shape_and_vec().1)
+    }
+
+    /// Build nearest-neighbour overviews (factors 2, 4, ... down to about 256 cells), then
+    /// flush and close.
+    pub fn close_with_overviews(mut self) -> Result<()> {
+        let (w, h) = self.ds.raster_size();
+        let mut levels = Vec::new();
+        let mut f = 2;
+        while w.max(h) / f >= 256 {
+            levels.push(f as i32);
+            f *= 2;
+        }
+        if !levels.is_empty() {
+            self.ds
+                .build_overviews("NEAREST", &levels, &[])
+                .map_err(output_error(&self.path, "building overviews".into()))?;
+        }
+        self.close()
     }
 
     /// Flush and close.

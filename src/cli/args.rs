@@ -26,6 +26,9 @@ pub(crate) enum Command {
     /// Extent of occurrence (EOO) and area of occupancy (AOO) of records, optionally with a
     /// range raster (classes.tif) for the modelled-range figures, patch distances and reach.
     Extent(ExtentArgs),
+    /// Range change from the present to future rasters (same threshold): stable, lost and
+    /// gained cells, within or beyond a dispersal distance.
+    Change(super::change::ChangeArgs),
 }
 
 /// Options of the range metrics, shared by `range` and `extent`.

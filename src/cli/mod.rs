@@ -12,6 +12,7 @@
 //! printed once each as `areal: GDAL warning: ...` (unless `--quiet`).
 
 mod args;
+mod change;
 pub(crate) mod progress;
 
 use args::{Cli, Command};
@@ -67,6 +68,7 @@ pub(crate) fn main() -> ExitCode {
     }
     let quiet = match &cli.command {
         Command::Range(a) => a.quiet,
+        Command::Change(a) => a.quiet,
         Command::Polygons(_) | Command::Extent(_) => false,
     };
     let result = run(cli);
@@ -115,6 +117,7 @@ fn run(cli: Cli) -> areal::Result<()> {
             };
             Ok(())
         }
+        Command::Change(a) => change::run(a),
         Command::Polygons(a) => {
             let r = areal::vectors::run_polygons(
                 &a.classes,

@@ -131,7 +131,7 @@ pub fn records_metrics(
 }
 
 /// The grid's CRS (WGS84 lon/lat when it carries none), x = lon / easting.
-fn grid_srs(grid: &GridSpec) -> Result<SpatialRef> {
+pub(crate) fn grid_srs(grid: &GridSpec) -> Result<SpatialRef> {
     if grid.crs_wkt.trim().is_empty() {
         return aoo::wgs84();
     }

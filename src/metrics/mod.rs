@@ -21,12 +21,12 @@
 //! Records below the threshold are left out unless `keep_dropped`; excluded records (outside
 //! the raster, on nodata) are always left out.
 
-mod aoo;
+pub(crate) mod aoo;
 mod attach;
 pub mod criterion_b;
 mod eoo;
 mod extent;
-mod figures;
+pub(crate) mod figures;
 mod kdtree;
 mod reach;
 mod scan;

@@ -65,8 +65,16 @@ fn check_against_reference(out: &Path, g: &RefGrid, case: &RefCase, eight: bool)
     let am = |k: u8| area_km2(&want, g, k, case.in_m);
     close(c["area_km2"]["stable"].as_f64().unwrap(), a(1), "stable");
     close(c["area_km2"]["lost"].as_f64().unwrap(), a(2), "lost");
-    close(c["area_km2"]["gained_within_reach"].as_f64().unwrap(), a(3), "within");
-    close(c["area_km2"]["gained_out_of_reach"].as_f64().unwrap(), a(4), "beyond");
+    close(
+        c["area_km2"]["gained_within_reach"].as_f64().unwrap(),
+        a(3),
+        "within",
+    );
+    close(
+        c["area_km2"]["gained_out_of_reach"].as_f64().unwrap(),
+        a(4),
+        "beyond",
+    );
     let present = (0..want.len())
         .filter(|&i| {
             case.present[i] != ND
@@ -76,16 +84,40 @@ fn check_against_reference(out: &Path, g: &RefGrid, case: &RefCase, eight: bool)
         .map(|i| g.area[i])
         .sum::<f64>()
         / 1e6;
-    close(c["area_km2"]["present_range"].as_f64().unwrap(), present, "present");
+    close(
+        c["area_km2"]["present_range"].as_f64().unwrap(),
+        present,
+        "present",
+    );
     let f = &c["future_range_km2"];
     close(f["no_dispersal"].as_f64().unwrap(), a(1), "no dispersal");
-    close(f["limited_dispersal"].as_f64().unwrap(), a(1) + a(3), "limited");
-    close(f["full_dispersal"].as_f64().unwrap(), a(1) + a(3) + a(4), "full");
+    close(
+        f["limited_dispersal"].as_f64().unwrap(),
+        a(1) + a(3),
+        "limited",
+    );
+    close(
+        f["full_dispersal"].as_f64().unwrap(),
+        a(1) + a(3) + a(4),
+        "full",
+    );
     let fm = &c["future_range_in_m_km2"];
-    close(fm["limited_dispersal"].as_f64().unwrap(), a(1) + am(3), "limited in M");
-    close(fm["full_dispersal"].as_f64().unwrap(), a(1) + am(3) + am(4), "full in M");
+    close(
+        fm["limited_dispersal"].as_f64().unwrap(),
+        a(1) + am(3),
+        "limited in M",
+    );
+    close(
+        fm["full_dispersal"].as_f64().unwrap(),
+        a(1) + am(3) + am(4),
+        "full in M",
+    );
     let pc = c["percent_change"]["full_dispersal"].as_f64().unwrap();
-    close(pc, 100.0 * (a(1) + a(3) + a(4) - present) / present, "percent change");
+    close(
+        pc,
+        100.0 * (a(1) + a(3) + a(4) - present) / present,
+        "percent change",
+    );
     // Patches: the reference labeller's (class, cells) list equals change.csv's.
     let (hd, rows) = read_csv(&out.join("change.csv"));
     let (ic, in_) = (col(&hd, "class"), col(&hd, "cells"));
@@ -95,9 +127,18 @@ fn check_against_reference(out: &Path, g: &RefGrid, case: &RefCase, eight: bool)
         .collect();
     got_p.sort();
     assert_eq!(got_p, patches(&want, g.w, g.h, g.wrap, eight));
-    for (k, name) in [(1, "stable"), (2, "lost"), (3, "gained_within_reach"), (4, "gained_out_of_reach")] {
+    for (k, name) in [
+        (1, "stable"),
+        (2, "lost"),
+        (3, "gained_within_reach"),
+        (4, "gained_out_of_reach"),
+    ] {
         let n = got_p.iter().filter(|p| p.0 == k).count();
-        assert_eq!(c["patches"][name].as_u64().unwrap() as usize, n, "{name} patches");
+        assert_eq!(
+            c["patches"][name].as_u64().unwrap() as usize,
+            n,
+            "{name} patches"
+        );
     }
     want
 }
@@ -136,17 +177,36 @@ fn lonlat_grid_with_buffer_m_matches_the_reference() {
         &pp,
         &[&fp],
         &rec,
-        &["--threshold", "0.5", "--buffer-km", "150", "--dispersal-km", "60"],
+        &[
+            "--threshold",
+            "0.5",
+            "--buffer-km",
+            "150",
+            "--dispersal-km",
+            "60",
+        ],
     );
     let want = check_against_reference(&out, &g, &case, true);
-    assert!(want.contains(&3) && want.contains(&4) && want.contains(&2), "the case exercises every class");
+    assert!(
+        want.contains(&3) && want.contains(&4) && want.contains(&2),
+        "the case exercises every class"
+    );
     // Rook connectivity: the same classes, the reference's 4-connected patches.
     let out4 = change(
         dir.path(),
         &pp,
         &[&fp],
         &rec,
-        &["--threshold", "0.5", "--buffer-km", "150", "--dispersal-km", "60", "--connectivity", "4"],
+        &[
+            "--threshold",
+            "0.5",
+            "--buffer-km",
+            "150",
+            "--dispersal-km",
+            "60",
+            "--connectivity",
+            "4",
+        ],
     );
     check_against_reference(&out4, &g, &case, false);
 }
@@ -157,8 +217,19 @@ fn projected_equal_area_grid_matches_the_reference() {
     let (w, h, cell) = (30, 22, 5000.0);
     // EPSG:3035 (LAEA Europe): an equal-area CRS, so each cell's area is its size.
     let gt = [4_300_000.0, cell, 0.0, 3_000_000.0, 0.0, -cell];
-    let present = field(w, h, 21);
-    let future = field(w, h, 22);
+    let mut present = field(w, h, 21);
+    let mut future = field(w, h, 22);
+    // A wide block with gains just north of its middle: the nearest range cells of those
+    // gains lie on the block's top edge, not at its ends.
+    for c in 4..26 {
+        for r in 3..7 {
+            present[r * w + c] = 0.9;
+        }
+        present[2 * w + c] = 0.1;
+        present[w + c] = 0.1;
+        future[2 * w + c] = 0.9;
+        future[w + c] = 0.9;
+    }
     let (pp, fp) = (dir.path().join("now.tif"), dir.path().join("later.tif"));
     write_raster(&pp, w, h, gt, Some(3035), Some(ND as f64), &present);
     write_raster(&fp, w, h, gt, Some(3035), Some(ND as f64), &future);
@@ -168,8 +239,12 @@ fn projected_equal_area_grid_matches_the_reference() {
     let mut dst = gdal::spatial_ref::SpatialRef::from_epsg(4326).unwrap();
     dst.set_axis_mapping_strategy(gdal::spatial_ref::AxisMappingStrategy::TraditionalGisOrder);
     let ct = gdal::spatial_ref::CoordTransform::new(&src, &dst).unwrap();
-    let mut xs: Vec<f64> = (0..w * h).map(|i| gt[0] + ((i % w) as f64 + 0.5) * cell).collect();
-    let mut ys: Vec<f64> = (0..w * h).map(|i| gt[3] - ((i / w) as f64 + 0.5) * cell).collect();
+    let mut xs: Vec<f64> = (0..w * h)
+        .map(|i| gt[0] + ((i % w) as f64 + 0.5) * cell)
+        .collect();
+    let mut ys: Vec<f64> = (0..w * h)
+        .map(|i| gt[3] - ((i / w) as f64 + 0.5) * cell)
+        .collect();
     ct.transform_coords(&mut xs, &mut ys, &mut []).unwrap();
     let g = RefGrid {
         w,
@@ -188,9 +263,16 @@ fn projected_equal_area_grid_matches_the_reference() {
         in_m: None,
         dispersal_m: Some(12_000.0),
     };
-    let out = change(dir.path(), &pp, &[&fp], &rec, &["--threshold", "0.55", "--dispersal-km", "12"]);
+    let out = change(
+        dir.path(),
+        &pp,
+        &[&fp],
+        &rec,
+        &["--threshold", "0.55", "--dispersal-km", "12"],
+    );
     let want = check_against_reference(&out, &g, &case, true);
     assert!(want.contains(&3) && want.contains(&4));
+    assert_eq!(want[w + 15], 3, "two cells (10 km) north of the block");
 }
 
 #[test]
@@ -211,6 +293,16 @@ fn global_grid_patch_across_the_antimeridian() {
         future[r * w + 30] = 0.9;
         future[r * w + 68] = 0.9;
     }
+    // Reach only across the seam: a present cell at column 71 with a gain at column 1,
+    // and one at column 0 with a gain at column 70 (10 degrees apart either way).
+    for r in 25..27 {
+        present[r * w + 71] = 0.9;
+        future[r * w + 1] = 0.9;
+    }
+    for r in 30..32 {
+        present[r * w] = 0.9;
+        future[r * w + 70] = 0.9;
+    }
     let (pp, fp) = (dir.path().join("now.tif"), dir.path().join("later.tif"));
     write_raster(&pp, w, h, gt, Some(4326), None, &present);
     write_raster(&fp, w, h, gt, Some(4326), None, &future);
@@ -225,18 +317,25 @@ fn global_grid_patch_across_the_antimeridian() {
         in_m: None,
         dispersal_m: Some(1_000_000.0),
     };
-    let out = change(dir.path(), &pp, &[&fp], &rec, &["--threshold", "0.5", "--dispersal-km", "1000"]);
+    let out = change(
+        dir.path(),
+        &pp,
+        &[&fp],
+        &rec,
+        &["--threshold", "0.5", "--dispersal-km", "1000"],
+    );
     let want = check_against_reference(&out, &g, &case, true);
-    // Stable cells at columns 0, 1 join lost cells? No: classes differ. The stable patch
-    // (columns 0, 1) and the lost patch (70, 71) are one patch each.
+    // The lost cells at columns 70, 71 of rows 10..14 are one patch (the reference labeller
+    // agrees above); the two seam pairs are one lost patch each.
     let j = json(&out.join("summary.json"));
-    assert_eq!(j["change"]["patches"]["lost"], 1);
-    assert_eq!(j["change"]["cells"]["lost"], 8);
+    assert_eq!(j["change"]["patches"]["lost"], 3);
+    assert_eq!(j["change"]["cells"]["lost"], 8 + 4);
     assert_eq!(j["change"]["cells"]["stable"], 8);
     // Column 68 is 2 cells (10°) west of the lost column 70: within 1000 km at these
     // latitudes; column 30 is far out.
     assert_eq!(want[11 * w + 68], 3);
     assert_eq!(want[11 * w + 30], 4);
+    assert_eq!([want[25 * w + 1], want[30 * w + 70]], [3, 3]);
 }
 
 #[test]
@@ -264,7 +363,13 @@ fn dispersal_edge_at_one_part_in_a_thousand() {
         .fold(f64::INFINITY, f64::min);
     for (factor, class) in [(1.001, 3u8), (0.999, 4u8)] {
         let dkm = format!("{}", d * factor / 1000.0);
-        let out = change(dir.path(), &pp, &[&fp], &rec, &["--threshold", "0.5", "--dispersal-km", &dkm]);
+        let out = change(
+            dir.path(),
+            &pp,
+            &[&fp],
+            &rec,
+            &["--threshold", "0.5", "--dispersal-km", &dkm],
+        );
         let case = RefCase {
             grid: &g,
             present: &present,
@@ -300,30 +405,90 @@ fn block(dir: &Path, shift: usize, future_value: f32) -> (PathBuf, PathBuf, Path
 #[test]
 fn hand_made_no_change_total_loss_shift_and_zero_distance() {
     let dir = tempfile::tempdir().unwrap();
-    let cells = |out: &Path, k: &str| json(&out.join("summary.json"))["change"]["cells"][k].as_u64().unwrap();
+    let cells = |out: &Path, k: &str| {
+        json(&out.join("summary.json"))["change"]["cells"][k]
+            .as_u64()
+            .unwrap()
+    };
     // No change: all 42 present cells stable, nothing lost or gained.
     let (pp, fp, rec) = block(dir.path(), 0, 0.9);
-    let out = change(dir.path(), &pp, &[&fp], &rec, &["--threshold", "0.5", "--dispersal-km", "5"]);
-    assert_eq!([cells(&out, "stable"), cells(&out, "lost"), cells(&out, "gained_within_reach"), cells(&out, "gained_out_of_reach")], [42, 0, 0, 0]);
+    let out = change(
+        dir.path(),
+        &pp,
+        &[&fp],
+        &rec,
+        &["--threshold", "0.5", "--dispersal-km", "5"],
+    );
+    assert_eq!(
+        [
+            cells(&out, "stable"),
+            cells(&out, "lost"),
+            cells(&out, "gained_within_reach"),
+            cells(&out, "gained_out_of_reach")
+        ],
+        [42, 0, 0, 0]
+    );
     let j = json(&out.join("summary.json"));
-    assert_eq!(j["change"]["percent_change"]["full_dispersal"].as_f64().unwrap(), 0.0);
+    assert_eq!(
+        j["change"]["percent_change"]["full_dispersal"]
+            .as_f64()
+            .unwrap(),
+        0.0
+    );
     // With the record in the one patch, the present range's AOO is the metrics' modelled AOO.
-    assert_eq!(j["change"]["aoo_km2"]["present_range"], j["metrics"]["modelled"]["aoo_km2"]);
-    assert_eq!(j["change"]["aoo_km2"]["future_range"]["no_dispersal"], j["change"]["aoo_km2"]["present_range"]);
+    assert_eq!(
+        j["change"]["aoo_km2"]["present_range"],
+        j["metrics"]["modelled"]["aoo_km2"]
+    );
+    assert_eq!(
+        j["change"]["aoo_km2"]["future_range"]["no_dispersal"],
+        j["change"]["aoo_km2"]["present_range"]
+    );
     // Total loss: the future is unsuitable everywhere.
     let (pp, fp, rec) = block(dir.path(), 0, 0.1);
     let out = change(dir.path(), &pp, &[&fp], &rec, &["--threshold", "0.5"]);
     assert_eq!([cells(&out, "stable"), cells(&out, "lost")], [0, 42]);
     let j = json(&out.join("summary.json"));
-    assert_eq!(j["change"]["percent_change"]["no_dispersal"].as_f64().unwrap(), -100.0);
+    assert_eq!(
+        j["change"]["percent_change"]["no_dispersal"]
+            .as_f64()
+            .unwrap(),
+        -100.0
+    );
     // Shifted by k = 3 columns: 3 columns of 6 rows lost, 3 gained, 4 x 6 stable. Gains are
     // 1 to 3 cells (about 5.5 to 16.5 km) east of the range: within 20 km.
     let (pp, fp, rec) = block(dir.path(), 3, 0.9);
-    let out = change(dir.path(), &pp, &[&fp], &rec, &["--threshold", "0.5", "--dispersal-km", "20"]);
-    assert_eq!([cells(&out, "stable"), cells(&out, "lost"), cells(&out, "gained_within_reach"), cells(&out, "gained_out_of_reach")], [24, 18, 18, 0]);
+    let out = change(
+        dir.path(),
+        &pp,
+        &[&fp],
+        &rec,
+        &["--threshold", "0.5", "--dispersal-km", "20"],
+    );
+    assert_eq!(
+        [
+            cells(&out, "stable"),
+            cells(&out, "lost"),
+            cells(&out, "gained_within_reach"),
+            cells(&out, "gained_out_of_reach")
+        ],
+        [24, 18, 18, 0]
+    );
     // D = 0: no gain is within reach.
-    let out = change(dir.path(), &pp, &[&fp], &rec, &["--threshold", "0.5", "--dispersal-km", "0"]);
-    assert_eq!([cells(&out, "gained_within_reach"), cells(&out, "gained_out_of_reach")], [0, 18]);
+    let out = change(
+        dir.path(),
+        &pp,
+        &[&fp],
+        &rec,
+        &["--threshold", "0.5", "--dispersal-km", "0"],
+    );
+    assert_eq!(
+        [
+            cells(&out, "gained_within_reach"),
+            cells(&out, "gained_out_of_reach")
+        ],
+        [0, 18]
+    );
     // No --dispersal-km: every gain is class 4, and dispersal_km is null.
     let out = change(dir.path(), &pp, &[&fp], &rec, &["--threshold", "0.5"]);
     let j = json(&out.join("summary.json"));
@@ -336,7 +501,13 @@ fn several_futures_get_folders_and_agreement() {
     let dir = tempfile::tempdir().unwrap();
     let (pp, f0, rec) = block(dir.path(), 0, 0.9);
     let (_, f3, _) = block(dir.path(), 3, 0.9);
-    let out = change(dir.path(), &pp, &[&f0, &f3], &rec, &["--threshold", "0.5", "--dispersal-km", "20"]);
+    let out = change(
+        dir.path(),
+        &pp,
+        &[&f0, &f3],
+        &rec,
+        &["--threshold", "0.5", "--dispersal-km", "20"],
+    );
     for name in ["later0", "later3"] {
         for f in ["change.tif", "change.csv", "summary.json"] {
             assert!(out.join(name).join(f).is_file(), "{name}/{f}");
@@ -374,10 +545,22 @@ fn bad_inputs_are_refused_and_nothing_is_written() {
     let (pp, fp, rec) = block(dir.path(), 0, 0.9);
     let out = dir.path().join("out");
     let base = |f: &Path, extra: &[&str]| -> Vec<String> {
-        let mut v: Vec<String> = ["change", "--present", s(&pp), "--future", s(f), "--records", s(&rec), "--threshold", "0.5", "--out", s(&out)]
-            .iter()
-            .map(|x| x.to_string())
-            .collect();
+        let mut v: Vec<String> = [
+            "change",
+            "--present",
+            s(&pp),
+            "--future",
+            s(f),
+            "--records",
+            s(&rec),
+            "--threshold",
+            "0.5",
+            "--out",
+            s(&out),
+        ]
+        .iter()
+        .map(|x| x.to_string())
+        .collect();
         v.extend(extra.iter().map(|x| x.to_string()));
         v
     };
@@ -393,11 +576,29 @@ fn bad_inputs_are_refused_and_nothing_is_written() {
         write_raster(&p, wd, 16, gt, epsg, None, &vec![0.5f32; wd * 16]);
         p
     };
-    let other_size = w("wide.tif", 21, [30.0, 0.05, 0.0, -10.0, 0.0, -0.05], Some(4326));
+    let other_size = w(
+        "wide.tif",
+        21,
+        [30.0, 0.05, 0.0, -10.0, 0.0, -0.05],
+        Some(4326),
+    );
     go(base(&other_size, &[]), &["wide.tif", "now.tif", "size"]);
-    let shifted = w("moved.tif", 20, [30.5, 0.05, 0.0, -10.0, 0.0, -0.05], Some(4326));
-    go(base(&shifted, &[]), &["moved.tif", "now.tif", "geotransform"]);
-    let other_crs = w("crs.tif", 20, [30.0, 0.05, 0.0, -10.0, 0.0, -0.05], Some(4269));
+    let shifted = w(
+        "moved.tif",
+        20,
+        [30.5, 0.05, 0.0, -10.0, 0.0, -0.05],
+        Some(4326),
+    );
+    go(
+        base(&shifted, &[]),
+        &["moved.tif", "now.tif", "geotransform"],
+    );
+    let other_crs = w(
+        "crs.tif",
+        20,
+        [30.0, 0.05, 0.0, -10.0, 0.0, -0.05],
+        Some(4269),
+    );
     go(base(&other_crs, &[]), &["crs.tif", "now.tif", "CRS"]);
     let no_crs = w("nocrs.tif", 20, [30.0, 0.05, 0.0, -10.0, 0.0, -0.05], None);
     go(base(&no_crs, &[]), &["nocrs.tif", "no CRS"]);

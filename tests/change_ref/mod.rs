@@ -17,7 +17,8 @@ pub fn lonlat_cell_area_m2(lat1: f64, lat2: f64, dlon_deg: f64) -> f64 {
     let e = e2.sqrt();
     let q = |lat: f64| {
         let s = lat.to_radians().sin();
-        (1.0 - e2) * (s / (1.0 - e2 * s * s) - (1.0 / (2.0 * e)) * ((1.0 - e * s) / (1.0 + e * s)).ln())
+        (1.0 - e2)
+            * (s / (1.0 - e2 * s * s) - (1.0 / (2.0 * e)) * ((1.0 - e * s) / (1.0 + e * s)).ln())
     };
     (A * A / 2.0 * dlon_deg.to_radians() * (q(lat2) - q(lat1))).abs()
 }
@@ -187,7 +188,13 @@ impl Lcg {
 pub fn field(w: usize, h: usize, seed: u64) -> Vec<f32> {
     let mut rng = Lcg(seed);
     let bumps: Vec<(f64, f64, f64)> = (0..6)
-        .map(|_| (rng.next() * w as f64, rng.next() * h as f64, 2.0 + rng.next() * 5.0))
+        .map(|_| {
+            (
+                rng.next() * w as f64,
+                rng.next() * h as f64,
+                2.0 + rng.next() * 5.0,
+            )
+        })
         .collect();
     let mut v = Vec::with_capacity(w * h);
     for r in 0..h {

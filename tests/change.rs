@@ -79,7 +79,7 @@ fn check_against_reference(out: &Path, g: &RefGrid, case: &RefCase, eight: bool)
         .filter(|&i| {
             case.present[i] != ND
                 && case.present[i] as f64 >= case.t
-                && case.in_m.is_none_or(|m| m[i])
+                && case.in_m.map_or(true, |m| m[i])
         })
         .map(|i| g.area[i])
         .sum::<f64>()
@@ -526,6 +526,12 @@ fn several_futures_get_folders_and_agreement() {
     assert_eq!(j["changes"][1]["cells"]["lost"], 18);
     let sub = json(&out.join("later3/summary.json"));
     assert_eq!(sub["change"]["cells"]["gained_within_reach"], 18);
+    // The folder with its per-future subfolders is ours: --overwrite replaces it.
+    let mut args = vec!["change", "--present", s(&pp), "--future", s(&f3), "--records", s(&rec)];
+    args.extend(["--threshold", "0.5", "--out", s(&out), "--overwrite", "--quiet"]);
+    let o = run(&args);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(!out.join("later3").exists() && out.join("change.tif").is_file());
 }
 
 fn refused(args: &[&str], out: &Path, needle: &[&str]) {

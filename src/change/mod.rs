@@ -323,7 +323,7 @@ pub fn run_change(
     let present_km2 = result.summary.area_km2.inside_accessible;
     let aoo_note = if !opts.range.metrics.enabled {
         None
-    } else if occupancy.as_ref().is_none_or(|o| o.overflow) {
+    } else if occupancy.as_ref().map_or(true, |o| o.overflow) {
         Some(format!(
             "modelled AOO of the present and future ranges left out: more than {} cells to count (or no record used); run on a coarser grid for it",
             occupancy::MAX_AOO_CELLS

@@ -276,7 +276,6 @@ pub(crate) fn run_pass(
                             whole,
                             &row_areas,
                             &mut totals[f],
-                            grid,
                             row,
                             &inp.futures[f],
                         )?;
@@ -337,7 +336,6 @@ fn measure_row(
     whole: bool,
     row_areas: &RowAreas,
     t: &mut FutureTotals,
-    grid: &GridSpec,
     row: usize,
     future: &SuitabilityRaster,
 ) -> Result<()> {
@@ -379,22 +377,20 @@ fn measure_row(
             }
         }
     }
-    let _ = grid;
-    for k in 0..5 {
-        t.cells[k] += counts[k];
+    for (c, n) in t.cells.iter_mut().zip(&counts[..6]) {
+        *c += n;
     }
-    t.cells[5] += counts[5];
     match row_areas {
         RowAreas::Uniform(a) => {
-            for k in 0..5 {
-                t.area_m2[k].add(counts[k] as f64 * a);
+            for (s, n) in t.area_m2.iter_mut().zip(&counts[..5]) {
+                s.add(*n as f64 * a);
             }
             t.gained_in_m_m2[0].add(counts[6] as f64 * a);
             t.gained_in_m_m2[1].add(counts[7] as f64 * a);
         }
         RowAreas::PerCell(_) => {
-            for k in 0..5 {
-                t.area_m2[k].add(sums[k]);
+            for (s, x) in t.area_m2.iter_mut().zip(&sums[..5]) {
+                s.add(*x);
             }
             t.gained_in_m_m2[0].add(sums[5]);
             t.gained_in_m_m2[1].add(sums[6]);

@@ -59,7 +59,7 @@ pub(crate) struct PointReach {
 pub(crate) enum ReachWorker {
     Rows {
         spec: Arc<RowReach>,
-        geod: Geodesic,
+        geod: Box<Geodesic>,
         cache: HashMap<(u32, u32), i64>,
         intervals: Vec<(i64, i64)>,
         diff: Vec<i32>,
@@ -137,7 +137,7 @@ impl ReachSpec {
         Ok(match self {
             ReachSpec::Rows(s) => ReachWorker::Rows {
                 spec: s.clone(),
-                geod: Geodesic::wgs84(),
+                geod: Box::new(Geodesic::wgs84()),
                 cache: HashMap::new(),
                 intervals: Vec::new(),
                 diff: Vec::new(),

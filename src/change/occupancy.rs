@@ -9,7 +9,7 @@ use crate::{GridSpec, Result};
 use gdal::spatial_ref::CoordTransform;
 
 /// Most cells added over all counters before the AOO is left out (memory: 8 bytes a cell).
-pub(crate) const MAX_AOO_CELLS: u64 = 40_000_000;
+pub(crate) const MAX_AOO_CELLS: u64 = 30_000_000;
 
 /// Counters for the present range and, per future, no, limited and full dispersal.
 pub(crate) struct Occupancy {

@@ -527,8 +527,23 @@ fn several_futures_get_folders_and_agreement() {
     let sub = json(&out.join("later3/summary.json"));
     assert_eq!(sub["change"]["cells"]["gained_within_reach"], 18);
     // The folder with its per-future subfolders is ours: --overwrite replaces it.
-    let mut args = vec!["change", "--present", s(&pp), "--future", s(&f3), "--records", s(&rec)];
-    args.extend(["--threshold", "0.5", "--out", s(&out), "--overwrite", "--quiet"]);
+    let mut args = vec![
+        "change",
+        "--present",
+        s(&pp),
+        "--future",
+        s(&f3),
+        "--records",
+        s(&rec),
+    ];
+    args.extend([
+        "--threshold",
+        "0.5",
+        "--out",
+        s(&out),
+        "--overwrite",
+        "--quiet",
+    ]);
     let o = run(&args);
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(!out.join("later3").exists() && out.join("change.tif").is_file());

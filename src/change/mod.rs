@@ -21,9 +21,8 @@ mod tests;
 pub use pass::code;
 pub use report::{ChangeAoo, ChangePatchRow, ChangeReport};
 
-use crate::access::AccessMask;
 use crate::raster_io::{ClassStyle, ClassWriter, SuitabilityRaster};
-use crate::report::write_csv;
+use crate::report::{write_csv, RecordStatus};
 use crate::{compute_range, Error, GridSpec, RangeOptions, RangeResult, Result, RowSink, Summary};
 use gdal::spatial_ref::SpatialRef;
 use serde::Serialize;
@@ -177,7 +176,10 @@ fn future_names(futures: &[PathBuf]) -> Result<Vec<String>> {
 fn aoo_records(r: &RangeResult, keep_dropped: bool) -> Vec<(f64, f64)> {
     r.records
         .iter()
-        .filter(|x| x.status == "used" || (keep_dropped && x.status == "below_threshold"))
+        .filter(|x| {
+            x.status == RecordStatus::Used
+                || (keep_dropped && x.status == RecordStatus::BelowThreshold)
+        })
         .filter(|x| x.lon.is_finite() && x.lat.is_finite())
         .map(|x| (x.lon, x.lat))
         .collect()
@@ -228,18 +230,15 @@ pub fn run_change(
         inner: &mut writer,
         runs: present::PresentRuns::new(grid.width, grid.height),
     };
-    let mut result = compute_range(present_path, records, &opts.range, &mut tee)?;
+    let mut range_opts = opts.range.clone();
+    if range_opts.model.spill_dir.is_none() {
+        range_opts.model.spill_dir = Some(dir.file(""));
+    }
+    let (mut result, model) = compute_range(present_path, records, &range_opts, &mut tee)?;
     let present_runs = Arc::new(tee.runs);
     writer.close()?;
     if opts.range.metrics.enabled {
-        let mut classes = SuitabilityRaster::open(&classes_path)?;
-        crate::metrics::add_range_metrics(
-            &mut result,
-            &grid,
-            &mut classes,
-            &classes_path,
-            &opts.range,
-        )?;
+        crate::metrics::add_range_metrics(&mut result, &model, &opts.range.metrics)?;
     }
     let t = result.summary.threshold.value;
 
@@ -272,8 +271,6 @@ pub fn run_change(
     } else {
         None
     };
-    let lonlat: Vec<(f64, f64)> = result.records.iter().map(|r| (r.lon, r.lat)).collect();
-    let mut access = AccessMask::build(&grid, &opts.range.access, &lonlat)?;
     let reach = opts
         .dispersal_km
         .map(|d| reach::ReachSpec::new(&grid, present_runs.clone(), d))
@@ -303,7 +300,8 @@ pub fn run_change(
                 futures: &future_rasters,
                 t,
                 reach: reach.as_ref(),
-                access: &mut access,
+                model: &model,
+                whole: result.summary.accessible.whole_raster,
                 connectivity: opts.range.connectivity,
                 progress: &opts.range.progress,
             },
@@ -421,6 +419,7 @@ pub fn run_change(
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&summary).expect("summary serialises");
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
+    drop(model); // removes its spill file before the folder is committed
     dir.commit()?;
     Ok(ChangeResult {
         summary,

@@ -3,18 +3,15 @@
 //! reported): a grid cell is occupied when the centre of at least one raster cell of the
 //! range falls in it. Every range cell is transformed once, whatever the number of ranges.
 
-use crate::metrics::aoo::{self, AooCounter, AooGrid};
-use crate::metrics::figures::grid_srs;
+use crate::metrics::aoo::{self, AooCounter, AooGrid, RowProjector};
 use crate::{GridSpec, Result};
-use gdal::spatial_ref::CoordTransform;
 
 /// Most cells added over all counters before the AOO is left out (memory: 8 bytes a cell).
 pub(crate) const MAX_AOO_CELLS: u64 = 30_000_000;
 
 /// Counters for the present range and, per future, no, limited and full dispersal.
 pub(crate) struct Occupancy {
-    grid: GridSpec,
-    ct: CoordTransform,
+    project: RowProjector,
     pub(crate) cell_km: f64,
     pub(crate) present: AooCounter,
     /// Per future: [no dispersal, limited, full].
@@ -22,8 +19,8 @@ pub(crate) struct Occupancy {
     added: u64,
     /// More than [`MAX_AOO_CELLS`] were added: the counters were dropped.
     pub(crate) overflow: bool,
-    xs: Vec<f64>,
-    ys: Vec<f64>,
+    cols: Vec<u32>,
+    xy: Vec<(f64, f64)>,
     /// Per cell of the row being added: bit 0 present, then 3 bits per future.
     member: Vec<u64>,
 }
@@ -39,11 +36,10 @@ impl Occupancy {
     ) -> Result<Occupancy> {
         let (lon0, lat0) = aoo::centre_of(records);
         let g = AooGrid::new(lon0, lat0, cell_km)?;
-        let ct = g.transform_from(&grid_srs(grid)?)?;
+        let project = g.spec().projector(grid)?;
         let counter = || AooCounter::new(g.cell_m);
         Ok(Occupancy {
-            grid: grid.clone(),
-            ct,
+            project,
             cell_km,
             present: counter(),
             futures: (0..n_futures)
@@ -51,8 +47,8 @@ impl Occupancy {
                 .collect(),
             added: 0,
             overflow: false,
-            xs: Vec::new(),
-            ys: Vec::new(),
+            cols: Vec::new(),
+            xy: Vec::new(),
             member: Vec::new(),
         })
     }
@@ -72,7 +68,7 @@ impl Occupancy {
             return Ok(());
         }
         self.member.clear();
-        self.xs.clear();
+        self.cols.clear();
         for c in 0..present.len() {
             let mut m = (present[c] == 1) as u64;
             for (f, cls) in futures.iter().enumerate() {
@@ -87,21 +83,14 @@ impl Occupancy {
             }
             if m != 0 {
                 self.member.push(m);
-                self.xs.push(self.grid.col_centre_x(c));
+                self.cols.push(c as u32);
             }
         }
-        if self.xs.is_empty() {
+        if self.cols.is_empty() {
             return Ok(());
         }
-        self.ys.clear();
-        self.ys.resize(self.xs.len(), self.grid.row_centre_y(row));
-        aoo::transform(
-            &self.ct,
-            &mut self.xs,
-            &mut self.ys,
-            "range cells to the AOO grid CRS",
-        )?;
-        for ((&m, &x), &y) in self.member.iter().zip(&self.xs).zip(&self.ys) {
+        self.project.row(row, &self.cols, &mut self.xy)?;
+        for (&m, &(x, y)) in self.member.iter().zip(&self.xy) {
             if m & 1 == 1 {
                 self.present.add(x, y);
                 self.added += 1;

@@ -11,10 +11,11 @@
 use super::occupancy::Occupancy;
 use super::present::PresentRuns;
 use super::reach::ReachSpec;
-use crate::access::{AccessMask, RowFiller};
 use crate::area::{CellAreas, RowAreas};
+use crate::model::RangeModel;
+use crate::pass::decode_threads;
+use crate::patches::Neumaier as Sum;
 use crate::patches::{Connectivity, Patch, PatchLabeler};
-use crate::pipeline::{decode_threads, Sum};
 use crate::raster_io::{class, StripBuffers, SuitabilityRaster, STRIP_ROWS};
 use crate::{Error, GridSpec, ProgressHandle, Result, RowSink};
 use std::collections::BTreeMap;
@@ -45,9 +46,6 @@ pub mod code {
     ];
 }
 
-/// Added to a gain code (3, 4) by the workers when the cell is in M.
-const IN_M: u8 = 2;
-
 /// Sums of one future.
 #[derive(Debug, Default, Clone)]
 pub(crate) struct FutureTotals {
@@ -69,14 +67,17 @@ pub(crate) struct PassInput<'a> {
     pub(crate) futures: &'a [SuitabilityRaster],
     pub(crate) t: f64,
     pub(crate) reach: Option<&'a ReachSpec>,
-    pub(crate) access: &'a mut AccessMask,
+    /// The present run's model: M as runs.
+    pub(crate) model: &'a RangeModel,
+    /// M is the whole raster.
+    pub(crate) whole: bool,
     pub(crate) connectivity: Connectivity,
     pub(crate) progress: &'a ProgressHandle,
 }
 
 struct Strip {
     index: usize,
-    /// Per future: the strip's change codes (gains in M carry [`IN_M`] when `prefilled`).
+    /// Per future: the strip's change codes.
     codes: Vec<Vec<u8>>,
     binary: Vec<bool>,
 }
@@ -100,7 +101,6 @@ fn work_strip(
     readers: &[crate::raster_io::StripReader],
     bufs: &mut StripBuffers,
     reach: &mut Option<super::reach::ReachWorker>,
-    filler: &mut Option<RowFiller>,
     i: usize,
 ) -> Result<Strip> {
     let w = inp.width;
@@ -113,20 +113,17 @@ fn work_strip(
         binary.push(rd.classify_rows(y0, rows, inp.t, bufs, &mut c)?);
         codes.push(c);
     }
-    let (mut pres, mut want, mut near, mut in_m) =
-        (vec![0u8; w], vec![false; w], vec![false; w], vec![false; w]);
+    let (mut pres, mut want, mut near) = (vec![0u8; w], vec![false; w], vec![false; w]);
     for r in 0..rows {
         inp.present.fill_row(y0 + r, &mut pres);
         want.iter_mut().for_each(|v| *v = false);
-        let mut any_gain = false;
         for c in codes.iter_mut() {
             for ((k, &p), g) in c[r * w..(r + 1) * w].iter_mut().zip(&pres).zip(&mut want) {
                 *k = change_code(p, *k);
                 *g |= *k == code::GAINED_BEYOND;
             }
         }
-        any_gain |= want.iter().any(|&g| g);
-        if !any_gain {
+        if !want.iter().any(|&g| g) {
             continue;
         }
         if let Some(rw) = reach.as_mut() {
@@ -135,16 +132,6 @@ fn work_strip(
                 for ((k, &n), &g) in c[r * w..(r + 1) * w].iter_mut().zip(&near).zip(&want) {
                     if g && n && *k == code::GAINED_BEYOND {
                         *k = code::GAINED_WITHIN;
-                    }
-                }
-            }
-        }
-        if let Some(f) = filler.as_mut() {
-            f.fill_row(y0 + r, &mut in_m);
-            for c in codes.iter_mut() {
-                for (k, &m) in c[r * w..(r + 1) * w].iter_mut().zip(&in_m) {
-                    if m && (*k == code::GAINED_WITHIN || *k == code::GAINED_BEYOND) {
-                        *k += IN_M;
                     }
                 }
             }
@@ -178,9 +165,7 @@ pub(crate) fn run_pass(
     let n_strips = h.div_ceil(STRIP_ROWS);
     let threads = decode_threads().min(n_strips).max(1);
     let next = AtomicUsize::new(0);
-    let filler = inp.access.row_filler();
-    let prefilled = filler.is_some();
-    let whole = inp.access.is_whole_raster();
+    let whole = inp.whole;
     let dispersal = inp.reach.is_some();
     let shared = WorkerShared {
         width: w,
@@ -195,7 +180,6 @@ pub(crate) fn run_pass(
         for _ in 0..threads {
             let tx = tx.clone();
             let (next, shared, specs) = (&next, &shared, &specs);
-            let mut filler = filler.clone();
             let reach = inp.reach;
             scope.spawn(move || {
                 let setup = || -> Result<_> {
@@ -216,7 +200,7 @@ pub(crate) fn run_pass(
                     if i >= n_strips {
                         return;
                     }
-                    let out = work_strip(shared, &readers, &mut bufs, &mut reach, &mut filler, i);
+                    let out = work_strip(shared, &readers, &mut bufs, &mut reach, i);
                     let failed = out.is_err();
                     if tx.send(out).is_err() || failed {
                         return;
@@ -261,10 +245,15 @@ pub(crate) fn run_pass(
                             .iter()
                             .any(|&k| k == code::GAINED_WITHIN || k == code::GAINED_BEYOND)
                     });
-                    let m_row: Option<&[bool]> = if whole || prefilled || !gains {
+                    let m_row: Option<&[bool]> = if whole || !gains {
                         None
                     } else {
-                        inp.access.fill_row(row, &mut in_m)?;
+                        in_m.iter_mut().for_each(|v| *v = false);
+                        for &(a, b) in inp.model.m_row(row) {
+                            in_m[a as usize..b as usize]
+                                .iter_mut()
+                                .for_each(|v| *v = true);
+                        }
                         Some(&in_m)
                     };
                     let agree = &mut agree_rows[r * w..(r + 1) * w];
@@ -327,11 +316,11 @@ pub(crate) fn run_pass(
     })
 }
 
-/// Count and measure one row of one future; turn worker gain codes with [`IN_M`] back into
-/// 3 and 4. `m_row`: M of the row when the consumer computed it.
+/// Count and measure one row of one future. `m_row`: M of the row (None when M is the whole
+/// raster or the row has no gain).
 #[allow(clippy::too_many_arguments)]
 fn measure_row(
-    cls: &mut [u8],
+    cls: &[u8],
     m_row: Option<&[bool]>,
     whole: bool,
     row_areas: &RowAreas,
@@ -342,14 +331,9 @@ fn measure_row(
     // counts[0..=4] classes, [5] nodata, [6..=7] gains 3, 4 in M.
     let mut counts = [0u64; 8];
     let mut sums = [0f64; 7];
-    for (c, k) in cls.iter_mut().enumerate() {
-        let mut in_m = false;
-        if *k == code::GAINED_WITHIN + IN_M || *k == code::GAINED_BEYOND + IN_M {
-            *k -= IN_M;
-            in_m = true;
-        } else if *k == code::GAINED_WITHIN || *k == code::GAINED_BEYOND {
-            in_m = whole || m_row.is_some_and(|m| m[c]);
-        }
+    for (c, k) in cls.iter().enumerate() {
+        let gain = *k == code::GAINED_WITHIN || *k == code::GAINED_BEYOND;
+        let in_m = gain && (whole || m_row.is_some_and(|m| m[c]));
         if *k == code::NODATA {
             counts[5] += 1;
             continue;

@@ -78,8 +78,8 @@ fn lonlat_transform(grid: &GridSpec) -> Result<Option<CoordTransform>> {
     if grid.geographic {
         return Ok(None);
     }
-    let src = crate::metrics::figures::grid_srs(grid)?;
-    let dst = crate::metrics::aoo::wgs84()?;
+    let src = crate::crs::grid_srs(grid)?;
+    let dst = crate::crs::wgs84()?;
     Ok(Some(CoordTransform::new(&src, &dst).map_err(|e| {
         Error::Crs {
             what: "raster CRS".into(),

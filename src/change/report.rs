@@ -7,7 +7,7 @@
 //! the present range, `patches` per class and `aoo_km2` of the present and each future range.
 
 use super::pass::FutureTotals;
-use crate::pipeline::LonLat;
+use crate::crs::LonLat;
 use crate::{GridSpec, Result};
 use serde::Serialize;
 
@@ -153,7 +153,7 @@ pub(crate) fn patch_rows(grid: &GridSpec, t: &FutureTotals) -> Result<Vec<Change
     t.patches
         .iter()
         .map(|p| {
-            let r = ll.patch_row(grid, p)?;
+            let r = crate::report::patch_row(&ll, grid, p)?;
             Ok(ChangePatchRow {
                 patch_id: r.patch_id,
                 class: r.class,
@@ -180,11 +180,11 @@ pub(crate) fn build(
     t: &FutureTotals,
     aoo: Option<ChangeAoo>,
 ) -> ChangeReport {
-    let km2 = |k: usize| t.area_m2[k].get() / 1e6;
+    let km2 = |k: usize| t.area_m2[k].value() / 1e6;
     let (stable, lost, g3, g4) = (km2(1), km2(2), km2(3), km2(4));
     let (g3m, g4m) = (
-        t.gained_in_m_m2[0].get() / 1e6,
-        t.gained_in_m_m2[1].get() / 1e6,
+        t.gained_in_m_m2[0].value() / 1e6,
+        t.gained_in_m_m2[1].value() / 1e6,
     );
     let rules = |no: f64, lim: f64, full: f64| DispersalRules {
         no_dispersal: no,

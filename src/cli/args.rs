@@ -302,6 +302,7 @@ impl RangeArgs {
                 || self.vectors.simplify_m.is_some())
             .then(|| self.vectors.to_options()),
             metrics: self.metrics.to_options(!self.no_metrics)?,
+            model: Default::default(),
         })
     }
 }

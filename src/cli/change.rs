@@ -93,6 +93,7 @@ impl ChangeArgs {
                 progress: super::progress::bar(self.quiet),
                 vectors: None,
                 metrics: self.metrics.to_options(!self.no_metrics)?,
+                model: Default::default(),
             },
             dispersal_km: self.dispersal_km,
         })

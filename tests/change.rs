@@ -623,4 +623,9 @@ fn bad_inputs_are_refused_and_nothing_is_written() {
     go(base(&other_crs, &[]), &["crs.tif", "now.tif", "CRS"]);
     let no_crs = w("nocrs.tif", 20, [30.0, 0.05, 0.0, -10.0, 0.0, -0.05], None);
     go(base(&no_crs, &[]), &["nocrs.tif", "no CRS"]);
+    // Two futures with one file name would share a folder.
+    std::fs::create_dir(dir.path().join("b")).unwrap();
+    let twin = dir.path().join("b").join("later0.tif");
+    std::fs::copy(&fp, &twin).unwrap();
+    go(base(&fp, &["--future", s(&twin)]), &["--future", "later0"]);
 }

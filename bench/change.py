@@ -2,7 +2,8 @@
 """Benchmark of `areal change`: wall time and peak memory as ratios to the GDAL decode floor
 of both rasters (present + future), side by side in one run.
 
-  bench/change.py [--sizes S,M,L] [--dispersal-km 50] [--out docs/bench-change.md]
+  bench/change.py [--sizes S,M,L] [--dispersal-km 50] [--metrics [--metrics-sizes S,M]]
+                  [--out docs/bench-change.md]
 
 Inputs come from ../shared/tools/make-landscape.py into bench-data/ (reused when present):
 the present is the preset with seed 42 (the same files as bench/run.py). The future is
@@ -60,6 +61,8 @@ def main():
     ap.add_argument("--dispersal-km", default="50")
     ap.add_argument("--buffer-km", default="200")
     ap.add_argument("--metrics", action="store_true", help="also run with the metrics on")
+    ap.add_argument("--metrics-sizes", default=None,
+                    help="with --metrics, only these sizes (e.g. S,M: on L the metrics take minutes)")
     ap.add_argument("--out", default=os.path.join(common.ROOT, "docs", "bench-change.md"))
     a = ap.parse_args()
     env = dict(os.environ)
@@ -79,7 +82,8 @@ def main():
         rows.append((size, "-", "GDAL decode floor, present + future (2 threads)", floor_s, floor_mb, 1.0, None, None))
         modes = [("polygon", ["--accessible", m]), ("buffer", ["--buffer-km", a.buffer_km])]
         for mode, marg in modes:
-            for metrics in ([False, True] if a.metrics else [False]):
+            with_metrics = a.metrics and (a.metrics_sizes is None or size in a.metrics_sizes.split(","))
+            for metrics in ([False, True] if with_metrics else [False]):
                 out = os.path.join(common.DATA, f"change-{size}-{mode}")
                 cmd = [common.AREAL, "change", "--present", tif, "--future", fut, "--records", occ,
                        "--omission", "5", *marg, "--dispersal-km", a.dispersal_km, "--out", out,

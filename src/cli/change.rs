@@ -128,6 +128,8 @@ fn text(r: &ChangeResult, out: &std::path::Path) -> String {
             a.present_range
         );
     }
+    s += "  change cautions the present T is applied unchanged to every future (the usual practice);\n";
+    s += "                  future ranges are model-based projections, with the errors of both models\n";
     s += &format!("  outputs         {}\n", out.display());
     s
 }

@@ -629,3 +629,76 @@ fn bad_inputs_are_refused_and_nothing_is_written() {
     std::fs::copy(&fp, &twin).unwrap();
     go(base(&fp, &["--future", s(&twin)]), &["--future", "later0"]);
 }
+
+#[test]
+fn change_tif_is_tiled_compressed_styled_with_overviews() {
+    use gdal::Metadata;
+    let dir = tempfile::tempdir().unwrap();
+    let (w, h) = (600, 520);
+    let gt = [0.0, 0.01, 0.0, 10.0, 0.0, -0.01];
+    let present: Vec<f32> = (0..w * h)
+        .map(|i| if i % w < 300 { 0.9 } else { 0.1 })
+        .collect();
+    let future: Vec<f32> = (0..w * h)
+        .map(|i| {
+            let c = i % w;
+            if c < 200 || (300..320).contains(&c) || c > 400 {
+                0.9
+            } else {
+                0.1
+            }
+        })
+        .collect();
+    let (pp, fp) = (dir.path().join("now.tif"), dir.path().join("later.tif"));
+    write_raster(&pp, w, h, gt, Some(4326), None, &present);
+    write_raster(&fp, w, h, gt, Some(4326), None, &future);
+    let rec = records(dir.path(), &[(1.0, 8.0)]);
+    let out = change(
+        dir.path(),
+        &pp,
+        &[&fp],
+        &rec,
+        &["--threshold", "0.5", "--dispersal-km", "30", "--no-metrics"],
+    );
+    let ds = gdal::Dataset::open(out.join("change.tif")).unwrap();
+    let band = ds.rasterband(1).unwrap();
+    assert_eq!(band.block_size(), (256, 256));
+    assert_eq!(
+        ds.metadata_item("COMPRESSION", "IMAGE_STRUCTURE")
+            .as_deref(),
+        Some("DEFLATE")
+    );
+    assert_eq!(
+        band.overview_count().unwrap(),
+        1,
+        "600 x 520: one 2x overview"
+    );
+    assert_eq!(band.no_data_value(), Some(255.0));
+    let ct = band.color_table().expect("a colour table");
+    let lost = ct.entry_as_rgb(2).unwrap();
+    assert_eq!((lost.r, lost.g, lost.b), (186, 64, 47));
+    // Category names (GDAL keeps them in the .aux.xml sidecar).
+    let names = unsafe {
+        let p = gdal_sys::GDALGetRasterCategoryNames(band.c_rasterband());
+        let mut v = Vec::new();
+        let mut i = 0;
+        while !(*p.add(i)).is_null() {
+            v.push(
+                std::ffi::CStr::from_ptr(*p.add(i))
+                    .to_string_lossy()
+                    .into_owned(),
+            );
+            i += 1;
+        }
+        v
+    };
+    assert_eq!(names.len(), 5);
+    assert!(names[1].starts_with("stable") && names[4].starts_with("gained beyond"));
+    // Columns 300..320 gained 1 to 21 cells (1.1 to 23 km at 5-10 N) east of the present
+    // range, within 30 km; columns 401.. more than 100 cells away.
+    let (_, _, k) = read_u8(&out.join("change.tif"));
+    assert_eq!(
+        [k[0], k[250], k[300], k[319], k[350], k[410]],
+        [1, 2, 3, 3, 0, 4]
+    );
+}

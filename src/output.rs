@@ -24,6 +24,13 @@ pub const OUTPUT_NAMES: &[&str] = &[
     "patches.csv",
     "records.csv",
     "summary.json",
+    // Style files (crate::styles::STYLE_NAMES).
+    "classes.qml",
+    "range.qml",
+    "patches.qml",
+    "unreachable.qml",
+    "accessible.qml",
+    "records.qml",
     // Vector outputs (crate::vectors::VECTOR_NAMES).
     "range.gpkg",
     "range.geojson",

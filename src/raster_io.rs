@@ -588,17 +588,6 @@ pub mod class {
     ];
 }
 
-/// Band description, colour table and category names of a class raster.
-#[derive(Debug, Clone, Copy)]
-pub struct ClassStyle<'a> {
-    /// Band description.
-    pub description: &'a str,
-    /// (value, [r, g, b, alpha]) colour table entries.
-    pub colours: &'a [(u8, [u8; 4])],
-    /// Category names, index = class value.
-    pub names: &'a [&'a str],
-}
-
 /// Writes `classes.tif` strip by strip.
 pub struct ClassWriter {
     path: PathBuf,
@@ -609,24 +598,18 @@ pub struct ClassWriter {
 impl ClassWriter {
     /// Create the GeoTIFF (tiled 256 x 256, DEFLATE, BIGTIFF if needed) on `grid`.
     pub fn create(path: &Path, grid: &GridSpec) -> Result<Self> {
-        // Our own palette: pale sand for below threshold, deep teal for the accessible
-        // range, warm amber for suitable land beyond M, transparent nodata.
-        let style = ClassStyle {
-            description: "range class",
-            colours: &[
-                (0, [236, 229, 206, 255]),
-                (1, [0, 109, 119, 255]),
-                (2, [230, 145, 56, 255]),
-                (255, [0, 0, 0, 0]),
-            ],
-            names: &class::NAMES,
-        };
-        Self::create_styled(path, grid, &style)
+        Self::create_styled(path, grid, "range class", &crate::styles::CLASS_STYLES)
     }
 
-    /// Create a uint8 GeoTIFF like [`ClassWriter::create`] with its own band description,
-    /// colour table and category names (nodata 255).
-    pub fn create_styled(path: &Path, grid: &GridSpec, style: &ClassStyle<'_>) -> Result<Self> {
+    /// Create a uint8 GeoTIFF like [`ClassWriter::create`] with its own band description
+    /// and classes (colours; category names by value, so values must run 0, 1, ...); nodata
+    /// 255, transparent.
+    pub(crate) fn create_styled(
+        path: &Path,
+        grid: &GridSpec,
+        description: &str,
+        classes: &[crate::styles::ClassStyle],
+    ) -> Result<Self> {
         let err = |op: &str| output_error(path, op.to_string());
         let opts = RasterCreationOptions::from_iter([
             "TILED=YES",
@@ -650,19 +633,22 @@ impl ClassWriter {
             let mut band = ds.rasterband(1).map_err(err("opening band 1"))?;
             band.set_no_data_value(Some(class::NODATA as f64))
                 .map_err(err("setting nodata"))?;
-            band.set_description(style.description)
+            band.set_description(description)
                 .map_err(err("setting the band description"))?;
             let mut ct = ColorTable::new(PaletteInterpretation::Rgba);
-            for &(v, [r, g, b, a]) in style.colours {
-                ct.set_color_entry(
-                    v as u16,
-                    &ColorEntry::rgba(r as i16, g as i16, b as i16, a as i16),
-                );
+            for c in classes {
+                let [r, g, b, a] = c.rgba.map(i16::from);
+                ct.set_color_entry(c.value as u16, &ColorEntry::rgba(r, g, b, a));
             }
+            // Transparent nodata.
+            ct.set_color_entry(class::NODATA as u16, &ColorEntry::rgba(0, 0, 0, 0));
             band.set_color_table(&ct);
             let mut names = gdal::cpl::CslStringList::new();
-            for &n in style.names {
-                names.add_string(n).map_err(err("setting category names"))?;
+            for (i, c) in classes.iter().enumerate() {
+                debug_assert_eq!(c.value as usize, i, "class values run 0, 1, ...");
+                names
+                    .add_string(c.name)
+                    .map_err(err("setting category names"))?;
             }
             // SAFETY: the band handle is live for this call; the list outlives it.
             let rv = unsafe {
@@ -714,6 +700,11 @@ impl ClassWriter {
                 .map_err(output_error(&self.path, "building overviews".into()))?;
         }
         self.close()
+    }
+
+    /// The dataset being written (for `styles::describe_classes`).
+    pub(crate) fn dataset(&self) -> &Dataset {
+        &self.ds
     }
 
     /// Flush and close.

@@ -169,6 +169,7 @@ pub fn run_range(
     if let Some(p) = &opts.access.polygon {
         inputs.push(p);
     }
+    let mut clock = crate::progress::StageClock::new();
     let dir = crate::output::OutputDir::prepare(out, overwrite, &inputs)?;
     // Open the raster once up front so a bad raster fails before anything is created.
     let grid = SuitabilityRaster::open(suitability)?.grid().clone();
@@ -178,9 +179,12 @@ pub fn run_range(
         opts_here.model.spill_dir = Some(dir.file(""));
     }
     let (mut result, model) = compute_range(suitability, records, &opts_here, &mut writer)?;
+    crate::styles::describe_classes(writer.dataset(), &dir.file("classes.tif"), &result.summary)?;
     writer.close()?;
+    clock.lap("pass");
     if opts.metrics.enabled {
         crate::metrics::add_range_metrics(&mut result, &model, &opts.metrics)?;
+        clock.lap("metrics");
     }
     write_csv(&dir.file("patches.csv"), &result.patches)?;
     write_csv(&dir.file("records.csv"), &result.records)?;
@@ -189,8 +193,10 @@ pub fn run_range(
     if let Some(v) = &opts.vectors {
         let run_dir = dir.file("");
         crate::vectors::write_vectors(&run_dir, &run_dir, &opts.access, None, v)?;
+        crate::styles::write_layer_styles(&run_dir)?;
     }
     drop(model); // removes its spill file before the folder is committed
     dir.commit()?;
+    clock.lap("tables and commit");
     Ok(result)
 }

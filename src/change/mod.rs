@@ -21,8 +21,9 @@ mod tests;
 pub use pass::code;
 pub use report::{ChangeAoo, ChangePatchRow, ChangeReport};
 
-use crate::raster_io::{ClassStyle, ClassWriter, SuitabilityRaster};
+use crate::raster_io::{ClassWriter, SuitabilityRaster};
 use crate::report::{write_csv, RecordStatus};
+use crate::styles::ClassStyle;
 use crate::{compute_range, Error, GridSpec, RangeOptions, RangeResult, Result, RowSink, Summary};
 use gdal::spatial_ref::SpatialRef;
 use serde::Serialize;
@@ -66,26 +67,35 @@ pub struct ChangeResult {
     pub present: RangeResult,
 }
 
-const CHANGE_STYLE: ClassStyle<'static> = ClassStyle {
-    description: "range change class",
-    // Our own palette: pale stone for unsuitable, dark green stable, brick red lost,
-    // sky blue gained within reach, lilac gained beyond reach, transparent nodata.
-    colours: &[
-        (0, [233, 230, 222, 255]),
-        (1, [38, 110, 62, 255]),
-        (2, [186, 64, 47, 255]),
-        (3, [79, 160, 214, 255]),
-        (4, [176, 146, 206, 255]),
-        (255, [0, 0, 0, 0]),
-    ],
-    names: &code::NAMES,
-};
-
-const AGREEMENT_STYLE: ClassStyle<'static> = ClassStyle {
-    description: "number of futures whose range holds the cell",
-    colours: &[(255, [0, 0, 0, 0])],
-    names: &[],
-};
+/// Our own palette: pale stone unsuitable, dark green stable, brick red lost, sky blue
+/// gained within reach, lilac gained beyond reach (nodata transparent).
+const CHANGE_STYLES: [ClassStyle; 5] = [
+    ClassStyle {
+        value: 0,
+        name: code::NAMES[0],
+        rgba: [233, 230, 222, 255],
+    },
+    ClassStyle {
+        value: 1,
+        name: code::NAMES[1],
+        rgba: [38, 110, 62, 255],
+    },
+    ClassStyle {
+        value: 2,
+        name: code::NAMES[2],
+        rgba: [186, 64, 47, 255],
+    },
+    ClassStyle {
+        value: 3,
+        name: code::NAMES[3],
+        rgba: [79, 160, 214, 255],
+    },
+    ClassStyle {
+        value: 4,
+        name: code::NAMES[4],
+        rgba: [176, 146, 206, 255],
+    },
+];
 
 /// Refuse a dispersal distance that cannot be used.
 pub fn check_dispersal(d: Option<f64>) -> Result<()> {
@@ -236,6 +246,7 @@ pub fn run_change(
     }
     let (mut result, model) = compute_range(present_path, records, &range_opts, &mut tee)?;
     let present_runs = Arc::new(tee.runs);
+    crate::styles::describe_classes(writer.dataset(), &classes_path, &result.summary)?;
     writer.close()?;
     if opts.range.metrics.enabled {
         crate::metrics::add_range_metrics(&mut result, &model, &opts.range.metrics)?;
@@ -260,13 +271,14 @@ pub fn run_change(
     }
     let mut writers: Vec<ClassWriter> = change_paths
         .iter()
-        .map(|p| ClassWriter::create_styled(p, &grid, &CHANGE_STYLE))
+        .map(|p| ClassWriter::create_styled(p, &grid, "range change class", &CHANGE_STYLES))
         .collect::<Result<_>>()?;
     let mut agreement = if several {
         Some(ClassWriter::create_styled(
             &dir.file("agreement.tif"),
             &grid,
-            &AGREEMENT_STYLE,
+            "number of futures whose range holds the cell",
+            &[],
         )?)
     } else {
         None
@@ -391,8 +403,14 @@ pub fn run_change(
         let csv = change_paths[k].with_file_name("change.csv");
         write_csv(&csv, &rows)?;
         if several {
-            let json = serde_json::json!({ "change": &rep });
-            let text = serde_json::to_string_pretty(&json).expect("summary serialises");
+            // The folder's summary.json: the present run's sections and this future's change.
+            let sub = ChangeSummary {
+                present: result.summary.clone(),
+                change: Some(rep.clone()),
+                changes: Vec::new(),
+                agreement: None,
+            };
+            let text = serde_json::to_string_pretty(&sub).expect("summary serialises");
             crate::output::write_text(
                 &change_paths[k].with_file_name("summary.json"),
                 &(text + "\n"),

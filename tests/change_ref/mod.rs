@@ -4,6 +4,8 @@
 //! q), a plain breadth-first patch labeller. Only small grids.
 #![allow(dead_code)]
 
+pub mod fixtures;
+
 use geographiclib_rs::{Geodesic, InverseGeodesic};
 
 /// WGS84 (NIMA TR8350.2).

@@ -29,6 +29,9 @@ pub(crate) enum Command {
     /// range raster (classes.tif) for the modelled-range figures, patch distances and reach.
     #[command(after_help = crate::cli::extras::EXTENT_EXAMPLES)]
     Extent(ExtentArgs),
+    /// Range change from the present to future rasters (same threshold): stable, lost and
+    /// gained cells, within or beyond a dispersal distance.
+    Change(super::change::ChangeArgs),
     /// Print the JSON Schema of summary.json (the copy in docs/summary.schema.json).
     Schema,
     /// Print a shell completion script (e.g. `areal completions bash > /etc/bash_completion.d/areal`).

@@ -20,7 +20,7 @@
 //! Records below the threshold are left out unless `keep_dropped`; excluded records (outside
 //! the raster, on nodata) are always left out.
 
-mod aoo;
+pub(crate) mod aoo;
 mod aoo_bitmap;
 mod aoo_runs;
 pub mod criterion_b;

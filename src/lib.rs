@@ -10,6 +10,7 @@
 
 pub mod access;
 pub mod area;
+pub mod batch;
 mod error;
 mod grid;
 pub mod metrics;

@@ -882,6 +882,12 @@ pub fn run_range(
             .expect("classes.tif is inside the output folder");
         crate::vectors::write_vectors(run_dir, run_dir, &opts.access, None, v)?;
     }
+    crate::batch::runfile::write(
+        classes_path.parent().expect("inside the output folder"),
+        suitability,
+        records,
+        opts,
+    )?;
     dir.commit()?;
     Ok(result)
 }

@@ -12,6 +12,7 @@
 //! printed once each as `areal: GDAL warning: ...` (unless `--quiet`).
 
 mod args;
+mod batch;
 pub(crate) mod progress;
 
 use args::{Cli, Command};
@@ -65,9 +66,17 @@ pub(crate) fn main() -> ExitCode {
     if std::env::var_os("GDAL_CACHEMAX").is_none() {
         let _ = gdal::config::set_config_option("GDAL_CACHEMAX", "32");
     }
+    // GeoPackages carry a "last change" timestamp; a fixed one keeps every output a function
+    // of the inputs and options only, so `areal rerun` reproduces range.gpkg byte for byte.
+    if std::env::var_os("OGR_CURRENT_DATE").is_none() {
+        let _ = gdal::config::set_config_option("OGR_CURRENT_DATE", "2000-01-01T00:00:00.000Z");
+    }
     let quiet = match &cli.command {
         Command::Range(a) => a.quiet,
-        Command::Polygons(_) | Command::Extent(_) => false,
+        Command::Batch(a) => a.quiet,
+        Command::Gather(a) => a.quiet,
+        Command::Rerun(a) => a.quiet,
+        Command::Polygons(_) | Command::Extent(_) | Command::Verify(_) => false,
     };
     let result = run(cli);
     let gdal = gdal_messages();
@@ -77,7 +86,7 @@ pub(crate) fn main() -> ExitCode {
         }
     }
     match result {
-        Ok(()) => ExitCode::SUCCESS,
+        Ok(code) => ExitCode::from(code),
         Err(e) => {
             let mut line = e.to_string().replace('\n', " ");
             // GDAL's last failure is usually the one behind the error.
@@ -92,8 +101,12 @@ pub(crate) fn main() -> ExitCode {
     }
 }
 
-fn run(cli: Cli) -> areal::Result<()> {
+fn run(cli: Cli) -> areal::Result<u8> {
     match cli.command {
+        Command::Batch(a) => batch::batch(&a),
+        Command::Gather(a) => batch::gather(&a),
+        Command::Rerun(a) => batch::rerun(&a),
+        Command::Verify(a) => batch::verify(&a),
         Command::Range(a) => {
             let opts = a.to_options()?;
             let result = areal::run_range(&a.suitability, &a.records, &opts, &a.out, a.overwrite)?;
@@ -113,7 +126,7 @@ fn run(cli: Cli) -> areal::Result<()> {
                 write!(out, "{}", result.summary.to_text())
                     .and_then(|_| writeln!(out, "  outputs         {}", a.out.display()))
             };
-            Ok(())
+            Ok(0)
         }
         Command::Polygons(a) => {
             let r = areal::vectors::run_polygons(
@@ -135,7 +148,7 @@ fn run(cli: Cli) -> areal::Result<()> {
             text += &format!("  files           {}\n", r.files.join(", "));
             text += &format!("  outputs         {}\n", a.out.display());
             let _ = out.write_all(text.as_bytes());
-            Ok(())
+            Ok(0)
         }
         Command::Extent(a) => {
             let opts = a.metrics.to_options(true)?;
@@ -163,7 +176,7 @@ fn run(cli: Cli) -> areal::Result<()> {
                     println!("  warning: {w}");
                 }
             }
-            Ok(())
+            Ok(0)
         }
     }
 }

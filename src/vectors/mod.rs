@@ -22,6 +22,7 @@
 //! grids above [`VectorOptions::max_cells`] are refused before anything is read. See
 //! docs/vectors.md.
 
+mod batch_layer;
 mod crs;
 mod distance;
 mod inputs;
@@ -32,6 +33,7 @@ mod polygonize;
 mod tests;
 mod write;
 
+pub use batch_layer::{range_lonlat, write_table_gpkg};
 pub use crs::VectorCrs;
 pub use write::GEOJSON_DECIMALS;
 

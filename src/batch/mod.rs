@@ -232,12 +232,29 @@ pub(crate) fn read_species_list(out: &Path) -> Result<Vec<String>> {
     Ok(text.lines().skip(1).map(|l| l.to_string()).collect())
 }
 
-/// Whether an error means the disk (or a file size limit) is full.
-fn disk_full(e: &Error) -> bool {
+/// Whether an error means the disk (or a file size limit) is full: the error says so, or a
+/// failed output step is followed by a failed 1 MB probe write into `out` (GDAL does not
+/// always pass the system's "no space" on).
+fn disk_full(e: &Error, out: &Path) -> bool {
     let t = e.to_string();
-    ["No space left", "File too large", "Disk quota exceeded", "Free disk space"]
+    if ["No space left", "File too large", "Disk quota exceeded", "Free disk space"]
         .iter()
         .any(|s| t.contains(s))
+    {
+        return true;
+    }
+    if !matches!(e, Error::Output { .. } | Error::Io { .. } | Error::Gdal { .. }) {
+        return false;
+    }
+    let probe = out.join(format!(".areal-space-probe-{}", std::process::id()));
+    let full = fs::File::create(&probe)
+        .and_then(|mut f| {
+            f.write_all(&vec![0u8; 1 << 20])?;
+            f.sync_all()
+        })
+        .is_err();
+    let _ = fs::remove_file(&probe);
+    full
 }
 
 /// Run the batch of `manifest` into `out`.
@@ -304,13 +321,13 @@ pub fn run_batch(
                         Ok(_) => {
                             let seconds = format!("{:.3}", t0.elapsed().as_secs_f64());
                             if let Err(e) = write_status(out, &sp.name, &Status::Ok { seconds }) {
-                                if disk_full(&e) {
+                                if disk_full(&e, out) {
                                     stop.store(true, Ordering::SeqCst);
                                 }
                             }
                             Outcome::Ran
                         }
-                        Err(e) if disk_full(&e) => {
+                        Err(e) if disk_full(&e, out) => {
                             stop.store(true, Ordering::SeqCst);
                             let mut f = fatal.lock().unwrap_or_else(|p| p.into_inner());
                             f.get_or_insert(Error::Output {

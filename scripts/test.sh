@@ -17,3 +17,8 @@ fi
 .venv/bin/python tests/py/check_eoo.py target/release/areal
 # Atomic outputs: SIGKILL part way through runs on a large generated raster.
 bash tests/kill_test.sh
+# Batches: SIGKILL and resume (10 rounds), a full disk, and a real Slurm job array with a
+# dependent gather on a single-node cluster (installs slurm-wlm's daemons and munge; root).
+bash tests/batch_kill_test.sh
+bash tests/batch_disk_full.sh
+bash tests/batch_slurm_test.sh

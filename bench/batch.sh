@@ -23,7 +23,7 @@ BIN=$(realpath target/release/areal)
 [ -x .venv/bin/python ] || python3 -m venv .venv
 .venv/bin/python -c "import numpy, rasterio" 2>/dev/null || .venv/bin/pip install -q numpy rasterio
 cargo build --release --quiet --bin areal
-mkdir -p "$DATA"
+mkdir -p "$DATA"; DATA=$(realpath "$DATA")   # absolute, as the batch makes manifest paths
 
 # 40 landscapes: 4 regions (16.67 degrees square at 30" = 2000 x 2000 cells) x 10 worlds each.
 regions=("10 -10" "-70 -30" "100 0" "-10 40")
@@ -72,7 +72,7 @@ done
 # The same results both ways.
 for d in target/bench-batch-loop/*/; do
   sp=$(basename "$d")
-  for f in classes.tif patches.csv summary.json; do
+  for f in classes.tif patches.csv records.csv summary.json; do
     cmp -s "$d/$f" "target/bench-batch-batch/$sp/$f" || { echo "bench/batch: $sp/$f differs between loop and batch" >&2; exit 1; }
   done
 done
@@ -88,8 +88,9 @@ CORES=$(nproc)
   echo "generated worlds, ../shared/tools/make-landscape.py), 300 records each; half with M as a polygon"
   echo "(omission 5 %), half with a 150 km record buffer (omission 10 %). Loop: one \`areal range\` per row"
   echo "(each run decodes on every core). Batch: \`areal batch\` with its default --jobs ($CORES) and one decode"
-  echo "thread per species, including its gather (batch.csv, batch.gpkg of 40 ranges, richness.tif"
-  echo "on each region's grid). Both produce byte-identical species folders (checked). Wall times in"
+  echo "thread per species, including its gather (batch.csv, batch.gpkg of 40 ranges polygonized by the"
+  echo "species' workers, richness.tif on the grid shared by the most species). Both produce"
+  echo "byte-identical species folders (classes.tif, patches.csv, summary.json; checked). Wall times in"
   echo "seconds, alternating loop and batch in one session on a shared machine; ratio of the medians."
   echo
   echo "| round | loop (s) | batch (s) |"

@@ -60,7 +60,7 @@ for r in $(seq 1 "$ROUNDS"); do
     done
   done
   cmp -s "$WORK/ref/richness.tif" "$out/richness.tif" || fail "round $r: richness.tif differs"
-  left=$(find "$out" -name '*areal-tmp*' -o -name 'lock-*' | head -3)
+  left=$(find "$out" -name '*areal-tmp*' -o -name 'lock-*' -o -name '.*.tmp-*' | head -3)
   [ -z "$left" ] || fail "round $r: left behind: $left"
 done
 say "PASS: $ROUNDS rounds"

@@ -70,12 +70,14 @@ fn summary_cells(summary: &Value) -> [String; 9] {
 
 fn tmp_beside(path: &Path) -> PathBuf {
     let name = path.file_name().unwrap_or_default().to_string_lossy();
-    path.with_file_name(format!(".{name}.areal-tmp-{}", std::process::id()))
+    path.with_file_name(format!(".areal-tmp-{}-{name}", std::process::id()))
 }
 
 /// Write the batch files of `out` from the species folders present.
 pub fn gather(out: &Path) -> Result<GatherReport> {
     let names = read_species_list(out)?;
+    let _lock = super::lock::BatchLock::take(&state_dir(out)?, "gather", out)?;
+    super::remove_dead_tmp(out);
     let mut rows: Vec<Vec<String>> = Vec::new();
     let mut geoms = Vec::new();
     let mut grids: Vec<(String, GridSpec, PathBuf)> = Vec::new();
@@ -112,7 +114,7 @@ pub fn gather(out: &Path) -> Result<GatherReport> {
                 row.push(seconds);
                 let classes = dir.join("classes.tif");
                 grids.push((name.clone(), SuitabilityRaster::open(&classes)?.grid().clone(), classes.clone()));
-                let note = match crate::vectors::range_lonlat(&classes, crate::vectors::DEFAULT_MAX_CELLS) {
+                let note = match super::ranges::load(out, name) {
                     Ok(g) => {
                         geom = Some(g);
                         String::new()
@@ -162,13 +164,13 @@ pub fn gather(out: &Path) -> Result<GatherReport> {
         w.flush().map_err(Error::io(&tmp))?;
     }
     let gpkg = out.join("batch.gpkg");
-    let gtmp = tmp_beside(&gpkg).with_extension("gpkg");
+    let gtmp = tmp_beside(&gpkg);
     let _ = std::fs::remove_file(&gtmp);
     crate::vectors::write_table_gpkg(&gtmp, &tmp, "ranges", geoms)?;
     let mut richness_species = 0;
     if best.len() >= 2 {
         let rpath = out.join("richness.tif");
-        let rtmp = tmp_beside(&rpath).with_extension("tif");
+        let rtmp = tmp_beside(&rpath);
         let _ = std::fs::remove_file(&rtmp);
         let files: Vec<PathBuf> = best.iter().map(|&j| grids[j].2.clone()).collect();
         write_richness(&rtmp, &grids[best[0]].1, &files)?;
@@ -179,7 +181,6 @@ pub fn gather(out: &Path) -> Result<GatherReport> {
     }
     durable(&gtmp, &gpkg)?;
     durable(&tmp, &csv_path)?;
-    let _ = state_dir(out);
     Ok(GatherReport {
         ok,
         failed,

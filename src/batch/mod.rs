@@ -16,6 +16,7 @@
 pub mod gather;
 pub mod lock;
 pub mod manifest;
+mod ranges;
 pub mod richness;
 pub mod runfile;
 pub mod settings;
@@ -180,8 +181,33 @@ pub(crate) fn durable(tmp: &Path, dest: &Path) -> Result<()> {
     crate::output::sync_dir(dest.parent().unwrap_or(Path::new(".")))
 }
 
+/// Remove temporary files of dead processes in `dir`: `.areal-tmp-PID-NAME` (gather) and
+/// `.NAME.tmp-PID-THREAD` (status files), left by a batch killed while writing them.
+pub(crate) fn remove_dead_tmp(dir: &Path) {
+    let Ok(rd) = fs::read_dir(dir) else { return };
+    for e in rd.flatten() {
+        let n = e.file_name().to_string_lossy().into_owned();
+        let pid = if let Some(rest) = n.strip_prefix(".areal-tmp-") {
+            rest.split('-').next()
+        } else if n.starts_with('.') {
+            n.rsplit_once(".tmp-").and_then(|(_, r)| r.split('-').next())
+        } else {
+            None
+        };
+        let Some(pid) = pid.and_then(|p| p.parse::<u32>().ok()) else { continue };
+        if pid != std::process::id() && !Path::new("/proc").join(pid.to_string()).exists() && cfg!(target_os = "linux") {
+            let _ = fs::remove_file(e.path());
+        }
+    }
+}
+
 /// Write a small file atomically and durably.
 fn write_durable(dest: &Path, text: &str) -> Result<()> {
+    write_durable_bytes(dest, text.as_bytes())
+}
+
+/// Write a file atomically and durably.
+pub(crate) fn write_durable_bytes(dest: &Path, bytes: &[u8]) -> Result<()> {
     let tmp = dest.with_file_name(format!(
         ".{}.tmp-{}-{:?}",
         dest.file_name().unwrap_or_default().to_string_lossy(),
@@ -189,7 +215,7 @@ fn write_durable(dest: &Path, text: &str) -> Result<()> {
         std::thread::current().id()
     ));
     let mut f = fs::File::create(&tmp).map_err(Error::io(&tmp))?;
-    f.write_all(text.as_bytes()).map_err(Error::io(&tmp))?;
+    f.write_all(bytes).map_err(Error::io(&tmp))?;
     drop(f);
     durable(&tmp, dest)
 }
@@ -266,6 +292,9 @@ pub fn run_batch(
 ) -> Result<BatchReport> {
     let state = state_dir(out)?;
     let _lock = lock::BatchLock::take(&state, &Shard::lock_name(opts.shard), out)?;
+    remove_dead_tmp(&state);
+    remove_dead_tmp(&state.join("status"));
+    remove_dead_tmp(&state.join("ranges"));
     // The species list: the same for every shard of one manifest.
     let list = std::iter::once("species".to_string())
         .chain(manifest.species.iter().map(|s| s.name.clone()))
@@ -320,6 +349,8 @@ pub fn run_batch(
                     match crate::run_range(&sp.suitability, &sp.records, &sp.options, &dest, true) {
                         Ok(_) => {
                             let seconds = format!("{:.3}", t0.elapsed().as_secs_f64());
+                            // The range for batch.gpkg; gather makes it itself if this fails.
+                            let _ = ranges::store(out, &sp.name);
                             if let Err(e) = write_status(out, &sp.name, &Status::Ok { seconds }) {
                                 if disk_full(&e, out) {
                                     stop.store(true, Ordering::SeqCst);

@@ -121,11 +121,17 @@ fn batch_species_equal_standalone_runs_and_richness_is_the_sum_of_ranges() {
     assert_eq!(o.status.code(), Some(6), "{}", stderr(&o));
     let tab = table(&out);
     assert_eq!(tab.len(), 20);
-    let failed: Vec<&String> = tab.keys().filter(|k| tab[*k]["status"] == "failed").collect();
+    let failed: Vec<&String> = tab
+        .keys()
+        .filter(|k| tab[*k]["status"] == "failed")
+        .collect();
     assert_eq!(failed, ["bad_records", "missing_raster"]);
-    assert!(tab["bad_records"]["message"].contains("bad.csv")
-        && tab["bad_records"]["message"].contains("not-a-number"));
-    assert!(tab["missing_raster"]["message"].contains("no-such-raster.tif: suitability raster not found"));
+    assert!(
+        tab["bad_records"]["message"].contains("bad.csv")
+            && tab["bad_records"]["message"].contains("not-a-number")
+    );
+    assert!(tab["missing_raster"]["message"]
+        .contains("no-such-raster.tif: suitability raster not found"));
 
     // Every ok species equals a standalone run with the same options, byte for byte.
     for row in manifest_rows() {
@@ -138,16 +144,32 @@ fn batch_species_equal_standalone_runs_and_richness_is_the_sum_of_ranges() {
         args.extend(["--out".into(), alone.to_str().unwrap().into()]);
         let o = areal().args(&args).output().unwrap();
         assert!(o.status.success(), "{sp}: {}", stderr(&o));
-        for f in ["classes.tif", "patches.csv", "records.csv", "summary.json", "areal-run.toml"] {
-            assert!(same_bytes(&out.join(sp).join(f), &alone.join(f)), "{sp}: {f} differs");
+        for f in [
+            "classes.tif",
+            "patches.csv",
+            "records.csv",
+            "summary.json",
+            "areal-run.toml",
+        ] {
+            assert!(
+                same_bytes(&out.join(sp).join(f), &alone.join(f)),
+                "{sp}: {f} differs"
+            );
         }
         let s = json(&alone.join("summary.json"));
         let v: f64 = tab[sp]["area_km2_inside_accessible"].parse().unwrap();
-        assert_eq!(v, s["area_km2"]["inside_accessible"].as_f64().unwrap(), "{sp}");
+        assert_eq!(
+            v,
+            s["area_km2"]["inside_accessible"].as_f64().unwrap(),
+            "{sp}"
+        );
     }
 
     // richness.tif = the number of class-1 cells over the 12 species on the shared grid.
-    let in_rich: Vec<&String> = tab.keys().filter(|k| tab[*k]["in_richness"] == "yes").collect();
+    let in_rich: Vec<&String> = tab
+        .keys()
+        .filter(|k| tab[*k]["in_richness"] == "yes")
+        .collect();
     assert_eq!(in_rich.len(), 12);
     assert!(in_rich.iter().all(|s| s.starts_with("g1_")));
     let (w, h, _) = read_u8(&out.join(in_rich[0]).join("classes.tif"));
@@ -164,7 +186,10 @@ fn batch_species_equal_standalone_runs_and_richness_is_the_sum_of_ranges() {
     let band = ds.rasterband(1).unwrap();
     assert_eq!(band.size(), (w, h));
     let r = band.read_as::<u16>((0, 0), (w, h), (w, h), None).unwrap();
-    assert!(all_nodata.iter().any(|&n| n), "the sea is nodata in every species");
+    assert!(
+        all_nodata.iter().any(|&n| n),
+        "the sea is nodata in every species"
+    );
     for i in 0..w * h {
         let want = if all_nodata[i] { 65535 } else { sum[i] };
         assert_eq!(r.data()[i], want, "cell {i}");
@@ -187,7 +212,10 @@ fn batch_species_equal_standalone_runs_and_richness_is_the_sum_of_ranges() {
         if ["demo_m", "g2_s2_m", "g1_s7_m"].contains(&sp.as_str()) {
             let want: f64 = tab[sp]["area_km2_inside_accessible"].parse().unwrap();
             let got = vectors_common::area_km2_geodesic(&f.polygons);
-            assert!(vectors_common::rel(got, want) < 1e-6, "{sp}: {got} vs {want}");
+            assert!(
+                vectors_common::rel(got, want) < 1e-6,
+                "{sp}: {got} vs {want}"
+            );
         }
     }
 }
@@ -201,26 +229,48 @@ fn shards_then_gather_and_a_resume_equal_the_unsharded_batch() {
         let o = batch(&sharded, &["--shard", &format!("{i}/3")]);
         // A shard exits 0 when it has handled its species (failures are in batch.csv).
         assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
-        assert!(!sharded.join("batch.csv").exists(), "a shard does not gather");
+        assert!(
+            !sharded.join("batch.csv").exists(),
+            "a shard does not gather"
+        );
     }
     let o = run(&["gather", sharded.to_str().unwrap(), "--quiet"]);
     assert_eq!(o.status.code(), Some(6));
     assert_eq!(table(&one), table(&sharded));
-    assert!(same_bytes(&one.join("richness.tif"), &sharded.join("richness.tif")));
+    assert!(same_bytes(
+        &one.join("richness.tif"),
+        &sharded.join("richness.tif")
+    ));
 
     // Resume: nothing to redo; a deleted species folder and a changed option are redone.
     std::fs::remove_dir_all(one.join("demo_m")).unwrap();
     let m = std::fs::read_to_string(manifest()).unwrap();
     let m2 = t.path().join("m2.csv");
-    std::fs::write(&m2, m.replace("g2_s1_all,g2s1.tif,g2s1.occ.csv,,0.6", "g2_s1_all,g2s1.tif,g2s1.occ.csv,,0.65"))
-        .unwrap();
+    std::fs::write(
+        &m2,
+        m.replace(
+            "g2_s1_all,g2s1.tif,g2s1.occ.csv,,0.6",
+            "g2_s1_all,g2s1.tif,g2s1.occ.csv,,0.65",
+        ),
+    )
+    .unwrap();
     // Same folder, the paths in m2 relative to the fixture: copy it there under a new name.
     let m2f = fixture().join(format!("m2-{}.csv", std::process::id()));
     std::fs::copy(&m2, &m2f).unwrap();
-    let o = run(&["batch", m2f.to_str().unwrap(), "--out", one.to_str().unwrap(), "--omission", "7"]);
+    let o = run(&[
+        "batch",
+        m2f.to_str().unwrap(),
+        "--out",
+        one.to_str().unwrap(),
+        "--omission",
+        "7",
+    ]);
     std::fs::remove_file(&m2f).unwrap();
     let text = String::from_utf8_lossy(&o.stdout);
-    assert!(text.contains("20 species: 2 run, 16 kept from an earlier run, 2 failed"), "{text}");
+    assert!(
+        text.contains("20 species: 2 run, 16 kept from an earlier run, 2 failed"),
+        "{text}"
+    );
     let after = table(&one);
     assert_eq!(after["g2_s1_all"]["threshold"], "0.65");
     let mut before = table(&sharded);
@@ -238,16 +288,37 @@ fn rerun_reproduces_byte_for_byte_and_refuses_a_changed_input_and_verify_catches
     // A batch species (shard 0 holds row 0, g1_s1_m) and the demo run.
     let demo_run = t.path().join("demo");
     let o = run(&[
-        "range", "--suitability", demo("suitability.tif").to_str().unwrap(), "--records",
-        demo("records.csv").to_str().unwrap(), "--omission", "5", "--accessible",
-        demo("accessible.geojson").to_str().unwrap(), "--vectors", "--out", demo_run.to_str().unwrap(), "--quiet",
+        "range",
+        "--suitability",
+        demo("suitability.tif").to_str().unwrap(),
+        "--records",
+        demo("records.csv").to_str().unwrap(),
+        "--omission",
+        "5",
+        "--accessible",
+        demo("accessible.geojson").to_str().unwrap(),
+        "--vectors",
+        "--out",
+        demo_run.to_str().unwrap(),
+        "--quiet",
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
     for src in [out.join("g1_s1_m"), demo_run.clone()] {
-        let again = t.path().join(format!("again-{}", src.file_name().unwrap().to_string_lossy()));
-        let o = run(&["rerun", src.join("areal-run.toml").to_str().unwrap(), "--out", again.to_str().unwrap()]);
+        let again = t.path().join(format!(
+            "again-{}",
+            src.file_name().unwrap().to_string_lossy()
+        ));
+        let o = run(&[
+            "rerun",
+            src.join("areal-run.toml").to_str().unwrap(),
+            "--out",
+            again.to_str().unwrap(),
+        ]);
         assert!(o.status.success(), "{}", stderr(&o));
-        let names: Vec<_> = std::fs::read_dir(&src).unwrap().map(|e| e.unwrap().file_name()).collect();
+        let names: Vec<_> = std::fs::read_dir(&src)
+            .unwrap()
+            .map(|e| e.unwrap().file_name())
+            .collect();
         assert!(names.len() >= 5);
         for n in names {
             assert!(same_bytes(&src.join(&n), &again.join(&n)), "{n:?} differs");
@@ -261,7 +332,11 @@ fn rerun_reproduces_byte_for_byte_and_refuses_a_changed_input_and_verify_catches
     std::fs::write(demo_run.join("patches.csv"), f).unwrap();
     let o = run(&["verify", demo_run.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(3));
-    assert!(stderr(&o).contains("patches.csv has changed"), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("patches.csv has changed"),
+        "{}",
+        stderr(&o)
+    );
     // rerun refuses a changed input, naming it.
     let copy = t.path().join("in");
     std::fs::create_dir(&copy).unwrap();
@@ -270,17 +345,33 @@ fn rerun_reproduces_byte_for_byte_and_refuses_a_changed_input_and_verify_catches
     }
     let r1 = t.path().join("r1");
     let o = run(&[
-        "range", "--suitability", copy.join("suitability.tif").to_str().unwrap(), "--records",
-        copy.join("records.csv").to_str().unwrap(), "--threshold", "0.5", "--out", r1.to_str().unwrap(), "--quiet",
+        "range",
+        "--suitability",
+        copy.join("suitability.tif").to_str().unwrap(),
+        "--records",
+        copy.join("records.csv").to_str().unwrap(),
+        "--threshold",
+        "0.5",
+        "--out",
+        r1.to_str().unwrap(),
+        "--quiet",
     ]);
     assert!(o.status.success());
     let mut rec = std::fs::read_to_string(copy.join("records.csv")).unwrap();
     rec.push_str("X-1,11.5,42.6,HumanObservation,survey team A\n");
     std::fs::write(copy.join("records.csv"), rec).unwrap();
-    let o = run(&["rerun", r1.join("areal-run.toml").to_str().unwrap(), "--out", t.path().join("r2").to_str().unwrap()]);
+    let o = run(&[
+        "rerun",
+        r1.join("areal-run.toml").to_str().unwrap(),
+        "--out",
+        t.path().join("r2").to_str().unwrap(),
+    ]);
     assert_eq!(o.status.code(), Some(3));
     let e = stderr(&o);
-    assert!(e.contains("records input") && e.contains("has changed since the run"), "{e}");
+    assert!(
+        e.contains("records input") && e.contains("has changed since the run"),
+        "{e}"
+    );
     assert!(!t.path().join("r2").exists());
 }
 
@@ -296,7 +387,11 @@ fn bad_manifest_rows_are_all_named_and_nothing_runs() {
     let out = t.path().join("b");
     let o = run(&["batch", m.to_str().unwrap(), "--out", out.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(3));
-    assert!(stderr(&o).contains("line 1: column \"colour\""), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("line 1: column \"colour\""),
+        "{}",
+        stderr(&o)
+    );
     std::fs::write(
         &m,
         "species,suitability,records,omission\nok_one,s.tif,r.csv,5\nsp two,s.tif,r.csv,5\nOK_ONE,s.tif,r.csv,5\nx,,r.csv,abc\n",
@@ -332,32 +427,62 @@ fn a_running_batch_locks_its_shard_and_a_stale_lock_is_taken_over() {
     std::fs::create_dir_all(&state).unwrap();
     let host = std::fs::read_to_string("/proc/sys/kernel/hostname").unwrap();
     // A live owner: this test process.
-    let live = format!("host={} pid={} start={}\n", host.trim(), std::process::id(), own_start_time());
+    let live = format!(
+        "host={} pid={} start={}\n",
+        host.trim(),
+        std::process::id(),
+        own_start_time()
+    );
     std::fs::write(state.join("lock-1of3"), &live).unwrap();
     let o = batch(&out, &["--shard", "1/3"]);
     assert_eq!(o.status.code(), Some(4));
     let e = stderr(&o);
-    assert!(e.contains("another batch is running") && e.contains(&format!("pid={}", std::process::id())), "{e}");
+    assert!(
+        e.contains("another batch is running")
+            && e.contains(&format!("pid={}", std::process::id())),
+        "{e}"
+    );
     // Another shard is not blocked; inside a Slurm array the shard comes from the environment.
     let o = areal()
-        .args(["batch", manifest().to_str().unwrap(), "--out", out.to_str().unwrap(), "--omission", "7"])
+        .args([
+            "batch",
+            manifest().to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--omission",
+            "7",
+        ])
         .env("SLURM_ARRAY_TASK_ID", "5")
         .env("SLURM_ARRAY_TASK_MIN", "3")
         .env("SLURM_ARRAY_TASK_MAX", "5")
         .output()
         .unwrap();
     assert!(o.status.success(), "{}", stderr(&o));
-    assert!(stderr(&o).contains("shard 2/3 (from the Slurm array variables)"), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("shard 2/3 (from the Slurm array variables)"),
+        "{}",
+        stderr(&o)
+    );
     let done: Vec<String> = manifest_rows()
         .iter()
         .enumerate()
         .filter(|(i, _)| out.join(&manifest_rows()[*i]["species"]).exists())
         .map(|(i, _)| i.to_string())
         .collect();
-    let want: Vec<String> = (0..20).filter(|i| i % 3 == 2 && *i != 19).map(|i| i.to_string()).collect();
-    assert_eq!(done, want, "rows 2, 5, ..., 17 ran (row 19 has a missing raster)");
+    let want: Vec<String> = (0..20)
+        .filter(|i| i % 3 == 2 && *i != 19)
+        .map(|i| i.to_string())
+        .collect();
+    assert_eq!(
+        done, want,
+        "rows 2, 5, ..., 17 ran (row 19 has a missing raster)"
+    );
     // A lock left by a dead process is taken over.
-    std::fs::write(state.join("lock-1of3"), format!("host={} pid=4194304 start=1\n", host.trim())).unwrap();
+    std::fs::write(
+        state.join("lock-1of3"),
+        format!("host={} pid=4194304 start=1\n", host.trim()),
+    )
+    .unwrap();
     let o = batch(&out, &["--shard", "1/3"]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     assert!(!state.join("lock-1of3").exists());

@@ -113,7 +113,11 @@ pub fn gather(out: &Path) -> Result<GatherReport> {
                 row.extend(summary_cells(&summary));
                 row.push(seconds);
                 let classes = dir.join("classes.tif");
-                grids.push((name.clone(), SuitabilityRaster::open(&classes)?.grid().clone(), classes.clone()));
+                grids.push((
+                    name.clone(),
+                    SuitabilityRaster::open(&classes)?.grid().clone(),
+                    classes.clone(),
+                ));
                 let note = match super::ranges::load(out, name) {
                     Ok(g) => {
                         geom = Some(g);
@@ -135,7 +139,9 @@ pub fn gather(out: &Path) -> Result<GatherReport> {
     // The grid shared by the most species (the first such grid on a tie).
     let mut best: Vec<usize> = Vec::new();
     for (i, (_, g, _)) in grids.iter().enumerate() {
-        let group: Vec<usize> = (0..grids.len()).filter(|&j| same_grid(g, &grids[j].1)).collect();
+        let group: Vec<usize> = (0..grids.len())
+            .filter(|&j| same_grid(g, &grids[j].1))
+            .collect();
         if group.len() > best.len() && group[0] == i {
             best = group;
         }
@@ -143,7 +149,12 @@ pub fn gather(out: &Path) -> Result<GatherReport> {
     let in_richness: Vec<&str> = best.iter().map(|&j| grids[j].0.as_str()).collect();
     for row in rows.iter_mut() {
         if row[1] == "ok" {
-            row[13] = if in_richness.contains(&row[0].as_str()) { "yes" } else { "no" }.into();
+            row[13] = if in_richness.contains(&row[0].as_str()) {
+                "yes"
+            } else {
+                "no"
+            }
+            .into();
         }
     }
     let csv_path = out.join("batch.csv");

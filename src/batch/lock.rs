@@ -134,7 +134,11 @@ mod tests {
         let e = BatchLock::take(t.path(), "all", t.path())
             .unwrap_err()
             .to_string();
-        assert!(e.contains("another batch is running") && e.contains(&format!("pid={}", std::process::id())), "{e}");
+        assert!(
+            e.contains("another batch is running")
+                && e.contains(&format!("pid={}", std::process::id())),
+            "{e}"
+        );
         // Other shards are independent.
         let b = BatchLock::take(t.path(), "1of3", t.path()).unwrap();
         drop((a, b));
@@ -148,7 +152,9 @@ mod tests {
         drop(c);
         assert!(!t.path().join("lock-all").exists());
         fs::write(t.path().join("lock-all"), "host=elsewhere pid=1 start=1\n").unwrap();
-        let e = BatchLock::take(t.path(), "all", t.path()).unwrap_err().to_string();
+        let e = BatchLock::take(t.path(), "all", t.path())
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("another host"), "{e}");
     }
 }

@@ -12,7 +12,12 @@ use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
 /// Names a species may not take: the files a batch writes beside the species folders.
-const RESERVED: [&str; 4] = ["batch.csv", "batch.gpkg", "richness.tif", "richness.tif.aux.xml"];
+const RESERVED: [&str; 4] = [
+    "batch.csv",
+    "batch.gpkg",
+    "richness.tif",
+    "richness.tif.aux.xml",
+];
 
 /// One species of the manifest.
 #[derive(Debug, Clone)]
@@ -57,7 +62,9 @@ fn unsafe_name(name: &str) -> Option<&'static str> {
         .chars()
         .all(|c| c.is_ascii_alphanumeric() || "._-".contains(c))
     {
-        return Some("holds characters other than letters, digits, '.', '_' and '-' (write spaces as '_')");
+        return Some(
+            "holds characters other than letters, digits, '.', '_' and '-' (write spaces as '_')",
+        );
     }
     if RESERVED.contains(&name.to_ascii_lowercase().as_str()) {
         return Some("is the name of a file the batch writes");
@@ -91,7 +98,12 @@ pub fn read(path: &Path, defaults: &Settings) -> Result<Manifest> {
         .from_reader(text);
     let header: Vec<String> = rdr
         .headers()
-        .map_err(|e| manifest_err(path, format!("header: {e}; the first line must name the columns")))?
+        .map_err(|e| {
+            manifest_err(
+                path,
+                format!("header: {e}; the first line must name the columns"),
+            )
+        })?
         .iter()
         .map(|h| h.to_string())
         .collect();
@@ -180,7 +192,10 @@ pub fn read(path: &Path, defaults: &Settings) -> Result<Manifest> {
     if !problems.is_empty() {
         return Err(manifest_err(
             path,
-            format!("{}; fix these rows and run again (nothing has run)", problems.join("; ")),
+            format!(
+                "{}; fix these rows and run again (nothing has run)",
+                problems.join("; ")
+            ),
         ));
     }
     Ok(Manifest { path: abs, species })
@@ -208,9 +223,15 @@ mod tests {
         );
         let e = read(&p, &Settings::new()).unwrap_err().to_string();
         assert!(e.contains("line 3: species \"../up\""), "{e}");
-        assert!(e.contains("line 4: species \"A_ONE\" is already on line 2"), "{e}");
+        assert!(
+            e.contains("line 4: species \"A_ONE\" is already on line 2"),
+            "{e}"
+        );
         assert!(e.contains("line 5 (b): --omission"), "{e}");
-        assert!(!e.contains("line 2".to_string().as_str()) || e.contains("on line 2"), "{e}");
+        assert!(
+            !e.contains("line 2".to_string().as_str()) || e.contains("on line 2"),
+            "{e}"
+        );
     }
 
     #[test]
@@ -220,9 +241,15 @@ mod tests {
         d.insert("omission".into(), "5".into());
         let m = read(&p, &d).unwrap();
         assert_eq!(m.species[0].suitability, t.path().join("d/s.tif"));
-        assert_eq!(m.species[0].options.threshold, crate::ThresholdSpec::Omission(5.0));
+        assert_eq!(
+            m.species[0].options.threshold,
+            crate::ThresholdSpec::Omission(5.0)
+        );
         assert_eq!(m.species[0].options.access.buffer_km, Some(10.0));
-        assert_eq!(m.species[1].options.threshold, crate::ThresholdSpec::Fixed(0.4));
+        assert_eq!(
+            m.species[1].options.threshold,
+            crate::ThresholdSpec::Fixed(0.4)
+        );
         assert_eq!(m.species[1].options.access.buffer_km, None);
     }
 }

@@ -190,12 +190,18 @@ pub(crate) fn remove_dead_tmp(dir: &Path) {
         let pid = if let Some(rest) = n.strip_prefix(".areal-tmp-") {
             rest.split('-').next()
         } else if n.starts_with('.') {
-            n.rsplit_once(".tmp-").and_then(|(_, r)| r.split('-').next())
+            n.rsplit_once(".tmp-")
+                .and_then(|(_, r)| r.split('-').next())
         } else {
             None
         };
-        let Some(pid) = pid.and_then(|p| p.parse::<u32>().ok()) else { continue };
-        if pid != std::process::id() && !Path::new("/proc").join(pid.to_string()).exists() && cfg!(target_os = "linux") {
+        let Some(pid) = pid.and_then(|p| p.parse::<u32>().ok()) else {
+            continue;
+        };
+        if pid != std::process::id()
+            && !Path::new("/proc").join(pid.to_string()).exists()
+            && cfg!(target_os = "linux")
+        {
             let _ = fs::remove_file(e.path());
         }
     }
@@ -253,7 +259,9 @@ pub(crate) fn read_species_list(out: &Path) -> Result<Vec<String>> {
     let p = out.join(".areal-batch").join("species.csv");
     let text = fs::read_to_string(&p).map_err(|_| Error::Output {
         path: out.to_path_buf(),
-        reason: "holds no batch (no .areal-batch/species.csv); give the --out folder of an areal batch".into(),
+        reason:
+            "holds no batch (no .areal-batch/species.csv); give the --out folder of an areal batch"
+                .into(),
     })?;
     Ok(text.lines().skip(1).map(|l| l.to_string()).collect())
 }
@@ -263,13 +271,21 @@ pub(crate) fn read_species_list(out: &Path) -> Result<Vec<String>> {
 /// always pass the system's "no space" on).
 fn disk_full(e: &Error, out: &Path) -> bool {
     let t = e.to_string();
-    if ["No space left", "File too large", "Disk quota exceeded", "Free disk space"]
-        .iter()
-        .any(|s| t.contains(s))
+    if [
+        "No space left",
+        "File too large",
+        "Disk quota exceeded",
+        "Free disk space",
+    ]
+    .iter()
+    .any(|s| t.contains(s))
     {
         return true;
     }
-    if !matches!(e, Error::Output { .. } | Error::Io { .. } | Error::Gdal { .. }) {
+    if !matches!(
+        e,
+        Error::Output { .. } | Error::Io { .. } | Error::Gdal { .. }
+    ) {
         return false;
     }
     let probe = out.join(format!(".areal-space-probe-{}", std::process::id()));
@@ -425,7 +441,11 @@ mod tests {
         };
         assert_eq!(Shard::from_slurm(env(&[])).unwrap(), None);
         assert_eq!(
-            Shard::from_slurm(env(&[("SLURM_ARRAY_TASK_ID", "2"), ("SLURM_ARRAY_TASK_COUNT", "3")])).unwrap(),
+            Shard::from_slurm(env(&[
+                ("SLURM_ARRAY_TASK_ID", "2"),
+                ("SLURM_ARRAY_TASK_COUNT", "3")
+            ]))
+            .unwrap(),
             Some(Shard { index: 2, count: 3 })
         );
         assert_eq!(

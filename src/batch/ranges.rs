@@ -32,7 +32,8 @@ pub(crate) fn store(out: &Path, name: &str) -> Result<()> {
     let Some(sha) = classes_sha(&dir) else {
         return Ok(());
     };
-    let mp = crate::vectors::range_lonlat(&dir.join("classes.tif"), crate::vectors::DEFAULT_MAX_CELLS)?;
+    let mp =
+        crate::vectors::range_lonlat(&dir.join("classes.tif"), crate::vectors::DEFAULT_MAX_CELLS)?;
     let p = cache_path(out, name);
     let wkb = mp
         .to_gdal()

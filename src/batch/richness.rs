@@ -66,7 +66,9 @@ pub fn write_richness(out: &Path, grid: &GridSpec, classes: &[PathBuf]) -> Resul
         data.resize(rows * w, false);
         for path in classes {
             let src = Dataset::open(path).map_err(Error::gdal(path, "opening"))?;
-            let band = src.rasterband(1).map_err(Error::gdal(path, "opening band 1"))?;
+            let band = src
+                .rasterband(1)
+                .map_err(Error::gdal(path, "opening band 1"))?;
             let buf = band
                 .read_as::<u8>((0, y0 as isize), (w, rows), (w, rows), None)
                 .map_err(Error::gdal(path, "reading"))?;

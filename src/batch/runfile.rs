@@ -67,10 +67,7 @@ pub fn sha256_file(path: &Path, input: bool) -> Result<(String, u64)> {
         n += k as u64;
         h.update(&buf[..k]);
     }
-    Ok((
-        h.finalize().iter().map(|b| format!("{b:02x}")).collect(),
-        n,
-    ))
+    Ok((h.finalize().iter().map(|b| format!("{b:02x}")).collect(), n))
 }
 
 fn input_file(path: &Path) -> Result<InputFile> {

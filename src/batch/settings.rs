@@ -75,10 +75,13 @@ impl Reader<'_> {
     fn num(&self, key: &str) -> Result<Option<f64>> {
         match self.text(key) {
             None => Ok(None),
-            Some(v) => v.parse::<f64>().map(Some).map_err(|_| Error::InvalidOption {
-                option: flag(key),
-                reason: format!("{key} = \"{v}\" is not a number"),
-            }),
+            Some(v) => v
+                .parse::<f64>()
+                .map(Some)
+                .map_err(|_| Error::InvalidOption {
+                    option: flag(key),
+                    reason: format!("{key} = \"{v}\" is not a number"),
+                }),
         }
     }
     fn flag(&self, key: &str) -> Result<bool> {
@@ -127,12 +130,12 @@ pub fn to_range_options(
                 reason: "both omission and threshold are given; give one of them".into(),
             })
         }
-        (None, None) => {
-            return Err(Error::InvalidOption {
-                option: "--omission",
-                reason: "neither omission nor threshold is given; give one (a column or a default option)".into(),
-            })
-        }
+        (None, None) => return Err(Error::InvalidOption {
+            option: "--omission",
+            reason:
+                "neither omission nor threshold is given; give one (a column or a default option)"
+                    .into(),
+        }),
     };
     let connectivity = match r.text("connectivity").as_deref() {
         None | Some("8") => Connectivity::Eight,
@@ -193,7 +196,10 @@ pub fn to_range_options(
 pub fn from_range_options(opts: &RangeOptions) -> Settings {
     let num = |v: Option<f64>| v.map_or(String::new(), |v| v.to_string());
     let text = |v: &Option<String>| v.clone().unwrap_or_default();
-    let path = |v: &Option<PathBuf>| v.as_ref().map_or(String::new(), |p| p.display().to_string());
+    let path = |v: &Option<PathBuf>| {
+        v.as_ref()
+            .map_or(String::new(), |p| p.display().to_string())
+    };
     let (omission, threshold) = match opts.threshold {
         ThresholdSpec::Omission(e) => (Some(e), None),
         ThresholdSpec::Fixed(v) => (None, Some(v)),
@@ -234,10 +240,7 @@ pub fn from_range_options(opts: &RangeOptions) -> Settings {
         ("keep_dropped", opts.metrics.keep_dropped.to_string()),
         ("no_metrics", (!opts.metrics.enabled).to_string()),
     ];
-    pairs
-        .into_iter()
-        .map(|(k, v)| (k.to_string(), v))
-        .collect()
+    pairs.into_iter().map(|(k, v)| (k.to_string(), v)).collect()
 }
 
 #[cfg(test)]

@@ -242,8 +242,17 @@ pub(crate) fn batch(a: &BatchArgs) -> areal::Result<u8> {
         done: Mutex::new(0),
         total: Mutex::new(0),
     };
-    let opts = BatchOptions { jobs, shard, force: a.force };
-    let r = batch::run_batch(&manifest, &a.out, &opts, (!a.quiet).then_some(&report as &dyn BatchProgress))?;
+    let opts = BatchOptions {
+        jobs,
+        shard,
+        force: a.force,
+    };
+    let r = batch::run_batch(
+        &manifest,
+        &a.out,
+        &opts,
+        (!a.quiet).then_some(&report as &dyn BatchProgress),
+    )?;
     if let Some(b) = &report.bar {
         b.finish_and_clear();
     }
@@ -254,10 +263,17 @@ pub(crate) fn batch(a: &BatchArgs) -> areal::Result<u8> {
         );
         match &r.gathered {
             Some(g) => print_gathered(g, &a.out),
-            None => println!("  shard done; run `areal gather {}` when every shard is done", a.out.display()),
+            None => println!(
+                "  shard done; run `areal gather {}` when every shard is done",
+                a.out.display()
+            ),
         }
     }
-    Ok(if r.failed > 0 && shard.is_none() { EXIT_SPECIES_FAILED } else { 0 })
+    Ok(if r.failed > 0 && shard.is_none() {
+        EXIT_SPECIES_FAILED
+    } else {
+        0
+    })
 }
 
 fn print_gathered(g: &batch::GatherReport, out: &std::path::Path) {
@@ -276,7 +292,11 @@ pub(crate) fn gather(a: &GatherArgs) -> areal::Result<u8> {
     if !a.quiet {
         print_gathered(&g, &a.dir);
     }
-    Ok(if g.failed + g.skipped > 0 { EXIT_SPECIES_FAILED } else { 0 })
+    Ok(if g.failed + g.skipped > 0 {
+        EXIT_SPECIES_FAILED
+    } else {
+        0
+    })
 }
 
 pub(crate) fn rerun(a: &RerunArgs) -> areal::Result<u8> {

@@ -23,7 +23,7 @@ pub fn range_lonlat(classes: &Path, max_cells: u64) -> Result<MultiPolygon<f64>>
         .map(|&k| u32::from(k == class::INSIDE))
         .collect();
     drop(run.classes);
-    let native = polygonize_labels(&mut ids, &run.grid, Connectivity::Eight, 1, classes)?
+    let native = polygonize_labels(&mut ids, &run.grid, Connectivity::Four, 1, classes)?
         .pop()
         .unwrap_or_else(|| MultiPolygon(Vec::new()));
     drop(ids);

@@ -62,13 +62,19 @@ loop() {  # the shell loop a user would write: one areal range per manifest row
   done
 }
 batch() { rm -rf "$1"; "$BIN" batch "$DATA/manifest.csv" --out "$1" --quiet >/dev/null; }
-now() { date +%s.%N; }
-declare -a T_LOOP T_BATCH
+export -f batch
+# Wall and CPU (user + sys of the process tree) seconds of one command, via /usr/bin/time.
+timed() { /usr/bin/time -f "%e %U %S" -o "$WORK_T" "$@"; read -r w u s <"$WORK_T"; echo "$w $(python3 -c "print(f'{$u + $s:.2f}')")"; }
+WORK_T=$(mktemp)
+export -f loop; export BIN DATA
+declare -a T_LOOP T_BATCH C_LOOP C_BATCH LOAD
 for i in $(seq 1 "$REPEAT"); do
-  t0=$(now); loop target/bench-batch-loop; t1=$(now); batch target/bench-batch-batch; t2=$(now)
-  T_LOOP+=("$(python3 -c "print(f'{$t1 - $t0:.2f}')")"); T_BATCH+=("$(python3 -c "print(f'{$t2 - $t1:.2f}')")")
-  echo "bench/batch: round $i: loop ${T_LOOP[-1]} s, batch ${T_BATCH[-1]} s" >&2
+  LOAD+=("$(cut -d' ' -f1 /proc/loadavg)")
+  read -r w c < <(timed bash -c 'loop target/bench-batch-loop'); T_LOOP+=("$w"); C_LOOP+=("$c")
+  read -r w c < <(timed bash -c "$(declare -f batch); batch target/bench-batch-batch"); T_BATCH+=("$w"); C_BATCH+=("$c")
+  echo "bench/batch: round $i (load ${LOAD[-1]}): loop ${T_LOOP[-1]} s (cpu ${C_LOOP[-1]}), batch ${T_BATCH[-1]} s (cpu ${C_BATCH[-1]})" >&2
 done
+rm -f "$WORK_T"
 # The same results both ways.
 for d in target/bench-batch-loop/*/; do
   sp=$(basename "$d")
@@ -93,9 +99,11 @@ CORES=$(nproc)
   echo "byte-identical species folders (classes.tif, patches.csv, summary.json; checked). Wall times in"
   echo "seconds, alternating loop and batch in one session on a shared machine; ratio of the medians."
   echo
-  echo "| round | loop (s) | batch (s) |"
-  echo "|---|---|---|"
-  for i in $(seq 0 $((REPEAT - 1))); do echo "| $((i + 1)) | ${T_LOOP[$i]} | ${T_BATCH[$i]} |"; done
+  echo "| round | load average (1 min) | loop wall (s) | loop CPU (s) | batch wall (s) | batch CPU (s) |"
+  echo "|---|---|---|---|---|---|"
+  for i in $(seq 0 $((REPEAT - 1))); do
+    echo "| $((i + 1)) | ${LOAD[$i]} | ${T_LOOP[$i]} | ${C_LOOP[$i]} | ${T_BATCH[$i]} | ${C_BATCH[$i]} |"
+  done
   echo
   echo "**Throughput ratio (loop / batch, medians): ${RATIO} x** (goal >= 1.3 x)."
 } > "$OUT_MD"

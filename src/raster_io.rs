@@ -177,7 +177,7 @@ impl SuitabilityRaster {
         }
         let nodata = band.no_data_value();
         let band_type = band.band_type();
-        let data_type = format!("{band_type:?}");
+        let data_type = band_type.name(); // GDAL's own name: "Float32", "Int16", ...
         use gdal::raster::GdalDataType as T;
         // float32 holds these types exactly; wider ones are read as float64.
         let fits_f32 = matches!(band_type, T::UInt8 | T::UInt16 | T::Int16 | T::Float32);
@@ -624,12 +624,12 @@ impl ClassWriter {
             band.set_description("range class")
                 .map_err(err("setting the band description"))?;
             let mut ct = ColorTable::new(PaletteInterpretation::Rgba);
-            // Our own palette: pale sand for below threshold, deep teal for the accessible
-            // range, warm amber for suitable land beyond M, transparent nodata.
-            ct.set_color_entry(0, &ColorEntry::rgba(236, 229, 206, 255));
-            ct.set_color_entry(1, &ColorEntry::rgba(0, 109, 119, 255));
-            ct.set_color_entry(2, &ColorEntry::rgba(230, 145, 56, 255));
-            ct.set_color_entry(255, &ColorEntry::rgba(0, 0, 0, 0));
+            for c in crate::styles::CLASS_STYLES {
+                let [r, g, b, a] = c.rgba.map(i16::from);
+                ct.set_color_entry(c.value as u16, &ColorEntry::rgba(r, g, b, a));
+            }
+            // Transparent nodata.
+            ct.set_color_entry(class::NODATA as u16, &ColorEntry::rgba(0, 0, 0, 0));
             band.set_color_table(&ct);
             let mut names = gdal::cpl::CslStringList::new();
             for n in class::NAMES {
@@ -667,6 +667,11 @@ impl ClassWriter {
                 format!("writing rows {y0}..{}", y0 + n),
             ))?;
         Ok(buf.into_shape_and_vec().1)
+    }
+
+    /// The dataset being written (for `styles::describe_classes`).
+    pub(crate) fn dataset(&self) -> &Dataset {
+        &self.ds
     }
 
     /// Flush and close.

@@ -188,6 +188,7 @@ pub fn to_range_options(
         progress,
         vectors,
         metrics,
+        model: Default::default(),
     })
 }
 

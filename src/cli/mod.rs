@@ -13,6 +13,7 @@
 
 mod args;
 mod batch;
+mod extras;
 pub(crate) mod progress;
 
 use args::{Cli, Command};
@@ -76,7 +77,7 @@ pub(crate) fn main() -> ExitCode {
         Command::Batch(a) => a.quiet,
         Command::Gather(a) => a.quiet,
         Command::Rerun(a) => a.quiet,
-        Command::Polygons(_) | Command::Extent(_) | Command::Verify(_) => false,
+        _ => false,
     };
     let result = run(cli);
     let gdal = gdal_messages();
@@ -107,6 +108,18 @@ fn run(cli: Cli) -> areal::Result<u8> {
         Command::Gather(a) => batch::gather(&a),
         Command::Rerun(a) => batch::rerun(&a),
         Command::Verify(a) => batch::verify(&a),
+        Command::Schema => {
+            let _ = std::io::stdout().write_all(areal::summary_schema().as_bytes());
+            Ok(0)
+        }
+        Command::Completions { shell } => {
+            extras::completions(shell);
+            Ok(0)
+        }
+        Command::Man => {
+            let _ = extras::man_page();
+            Ok(0)
+        }
         Command::Range(a) => {
             let opts = a.to_options()?;
             let result = areal::run_range(&a.suitability, &a.records, &opts, &a.out, a.overwrite)?;
@@ -159,23 +172,24 @@ fn run(cli: Cli) -> areal::Result<u8> {
                 a.connectivity(),
                 &opts,
             )?;
-            if a.json {
-                println!(
-                    "{}",
-                    serde_json::to_string_pretty(&report).expect("report serialises")
-                );
+            // A closed stdout (e.g. `| head`) is not an error.
+            let mut out = std::io::stdout().lock();
+            let text = if a.json {
+                serde_json::to_string_pretty(&report).expect("report serialises") + "\n"
             } else {
-                println!(
-                    "areal {}: extent of {}",
+                let mut t = format!(
+                    "areal {}: extent of {}\n",
                     report.areal_version, report.records_file
                 );
                 for l in report.metrics.text_lines() {
-                    println!("{l}");
+                    t += &format!("{l}\n");
                 }
                 for w in &report.warnings {
-                    println!("  warning: {w}");
+                    t += &format!("  warning: {w}\n");
                 }
-            }
+                t
+            };
+            let _ = out.write_all(text.as_bytes());
             Ok(0)
         }
     }

@@ -2,9 +2,8 @@
 //! patch structure, edge-to-edge distances between patches and stepping-stone reach.
 //!
 //! Inputs: records as WGS84 (lon, lat) degrees, each marked used, below the threshold or
-//! excluded ([`MetricRecord`]); optionally the class raster of a range (classes 0, 1, 2,
-//! 255 as in `classes.tif`, any CRS, north-up, read strip by strip through [`ClassRows`])
-//! with its patch list ([`PatchInfo`], ids in scan order of each patch's first cell).
+//! excluded ([`MetricRecord`]); optionally a range as its [`crate::RangeModel`] (runs of
+//! patch cells with their patch ids, the patch list, any CRS, north-up).
 //! Units: km and km2 at the interface; geodesics and areas on the WGS84 ellipsoid.
 //!
 //! - EOO ([`eoo`]): convex hull on the sphere, geodesic polygon area; for the records and for
@@ -22,14 +21,16 @@
 //! the raster, on nodata) are always left out.
 
 mod aoo;
-mod attach;
+mod aoo_runs;
 pub mod criterion_b;
 mod eoo;
 mod extent;
 mod figures;
+mod hull_points;
 mod kdtree;
+mod laea;
+mod range;
 mod reach;
-mod scan;
 mod structure;
 #[cfg(test)]
 mod tests;
@@ -37,12 +38,11 @@ mod tests;
 mod tests_range;
 
 pub use aoo::ORIGIN_FRACTIONS;
-pub use attach::add_range_metrics;
 pub use criterion_b::CriterionB;
 pub use eoo::{geodesic_polygon_area_km2, hull_area, HullArea, EOO_METHOD};
 pub use extent::{extent, ExtentReport};
-pub use figures::{range_metrics, records_metrics};
-pub use scan::{ClassRows, InMemoryClasses, MAX_ITEMS};
+pub use figures::records_metrics;
+pub use range::{add_range_metrics, range_metrics};
 pub use structure::{patch_structure, PatchStructure, StructureReport};
 
 use crate::{Error, Result};
@@ -165,7 +165,7 @@ pub struct PatchMetrics {
 }
 
 /// EOO, AOO and their comparison with criterion B, for one basis (records or modelled range).
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct Figures {
     /// EOO, km2: the hull area, or AOO when the hull area is smaller; null when no hull exists.
     pub eoo_km2: Option<f64>,
@@ -198,7 +198,7 @@ pub struct Figures {
 }
 
 /// The AOO grid.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct AooGridReport {
     /// PROJ definition of the equal-area CRS.
     pub crs: String,
@@ -209,7 +209,7 @@ pub struct AooGridReport {
 }
 
 /// Metrics of the occupied modelled range.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct ModelledFigures {
     /// Occupied patches (class 1 holding records).
     pub occupied_patches: usize,
@@ -223,7 +223,7 @@ pub struct ModelledFigures {
 }
 
 /// Stepping-stone reach from the occupied patches.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct ReachReport {
     /// Largest jump, km.
     pub gap_km: f64,
@@ -242,7 +242,7 @@ pub struct ReachReport {
 }
 
 /// The `metrics` section of summary.json, and the output of `areal extent`.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct Metrics {
     /// Records the record figures are built from.
     pub records_used: usize,
@@ -261,7 +261,9 @@ pub struct Metrics {
     pub structure: Option<StructureReport>,
     /// Stepping-stone reach; null without a range or without `--gap-km`.
     pub reach: Option<ReachReport>,
-    /// General notes.
+    /// General notes (`general_notes` in JSON: the flattened record figures already have
+    /// a `notes` key, and a second one would be a duplicate key).
+    #[serde(rename = "general_notes")]
     pub notes: Vec<String>,
 }
 

@@ -11,7 +11,8 @@
 //! or the new one. An unsharded batch ends with [`gather::gather`].
 //!
 //! Layout of DIR: `<species>/` run folders, `batch.csv`, `batch.gpkg`, `richness.tif`, and
-//! `.areal-batch/` (`species.csv`: the manifest's species in order; `status/`; `lock-*`).
+//! `.areal-batch/` (`species.csv`: the manifest's species in order; `status/`; `ranges/`: each
+//! species' range for batch.gpkg, made by its worker; `lock-*`).
 
 pub mod gather;
 pub mod lock;

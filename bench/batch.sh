@@ -106,5 +106,9 @@ CORES=$(nproc)
   done
   echo
   echo "**Throughput ratio (loop / batch, medians): ${RATIO} x** (goal >= 1.3 x)."
+  echo
+  echo "CPU: user + sys seconds of the whole process tree (/usr/bin/time). When the CPU columns are"
+  echo "equal and the machine's load average exceeds its cores, the wall times measure the CPU"
+  echo "share each side got, not the batch's concurrency; read the ratio only from an idle machine."
 } > "$OUT_MD"
 echo "bench/batch: ratio $RATIO x; report in $OUT_MD" >&2

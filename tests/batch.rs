@@ -487,3 +487,79 @@ fn a_running_batch_locks_its_shard_and_a_stale_lock_is_taken_over() {
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     assert!(!state.join("lock-1of3").exists());
 }
+
+#[test]
+fn species_run_side_by_side_under_a_small_block_cache_keep_standalone_bytes() {
+    // Two 1,200 x 1,200 species run at once in one process share GDAL's block cache; with a
+    // 2 MB cache, tiles of classes.tif are evicted while the other species runs. The file must
+    // still be byte-identical to a standalone run (the tile order may not depend on the cache).
+    let t = tempfile::tempdir().unwrap();
+    let n = 1200usize;
+    let gt = [0.0, 0.01, 0.0, 12.0, 0.0, -0.01];
+    let mut rows = String::from("species,suitability,records,omission\n");
+    for s in 0..2 {
+        let v: Vec<f32> = (0..n * n)
+            .map(|i| {
+                let (x, y) = ((i % n) as f32, (i / n) as f32);
+                (0.5 + 0.5 * ((x * 0.013 + s as f32).sin() * (y * 0.011).cos())).clamp(0.0, 1.0)
+            })
+            .collect();
+        write_raster(
+            &t.path().join(format!("s{s}.tif")),
+            n,
+            n,
+            gt,
+            Some(4326),
+            None,
+            &v,
+        );
+        let mut csv = String::from("lon,lat\n");
+        for k in 0..40 {
+            csv += &format!("{},{}\n", 0.3 + 0.28 * k as f64, 11.7 - 0.27 * k as f64);
+        }
+        std::fs::write(t.path().join(format!("r{s}.csv")), csv).unwrap();
+        rows += &format!("sp{s},s{s}.tif,r{s}.csv,10\n");
+    }
+    let m = t.path().join("m.csv");
+    std::fs::write(&m, rows).unwrap();
+    let out = t.path().join("b");
+    let o = areal()
+        .args([
+            "batch",
+            m.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--jobs",
+            "2",
+            "--quiet",
+        ])
+        .env("GDAL_CACHEMAX", "2")
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    for s in 0..2 {
+        let alone = t.path().join(format!("alone{s}"));
+        let o = run(&[
+            "range",
+            "--suitability",
+            t.path().join(format!("s{s}.tif")).to_str().unwrap(),
+            "--records",
+            t.path().join(format!("r{s}.csv")).to_str().unwrap(),
+            "--omission",
+            "10",
+            "--out",
+            alone.to_str().unwrap(),
+            "--quiet",
+        ]);
+        assert!(o.status.success(), "{}", stderr(&o));
+        let (a, b) = (
+            out.join(format!("sp{s}/classes.tif")),
+            alone.join("classes.tif"),
+        );
+        assert_eq!(read_u8(&a).2, read_u8(&b).2, "sp{s}: pixels");
+        assert!(
+            same_bytes(&a, &b),
+            "sp{s}: classes.tif bytes differ (tile layout)"
+        );
+    }
+}

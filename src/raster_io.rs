@@ -666,7 +666,6 @@ impl ClassWriter {
                 &self.path,
                 format!("writing rows {y0}..{}", y0 + n),
             ))?;
-        drop(band);
         // Write the strip's tiles now, in order: left to GDAL's block cache (shared by every
         // run of a process, e.g. a batch), the order in which tiles reach the file, and so the
         // file's bytes, would depend on what other threads put in the cache.

@@ -21,6 +21,7 @@
 //! the raster, on nodata) are always left out.
 
 mod aoo;
+mod aoo_bitmap;
 mod aoo_runs;
 pub mod criterion_b;
 mod eoo;
@@ -34,6 +35,8 @@ mod reach;
 mod structure;
 #[cfg(test)]
 mod tests;
+#[cfg(test)]
+mod tests_aoo;
 #[cfg(test)]
 mod tests_range;
 

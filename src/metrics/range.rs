@@ -5,7 +5,6 @@
 //! grid of a run is centred on the records used, and the modelled range is counted on the
 //! same grid, so the two AOOs compare.
 
-use super::aoo::{AooCounter, AooGrid};
 use super::figures::{figures, record_part, RecordPart};
 use super::hull_points::occupied_hull_points;
 use super::reach::{self, Corners};
@@ -85,12 +84,15 @@ pub fn range_metrics(
 
     if n_occ > 0 {
         let cell_km = opts.aoo_cell_km;
-        let mut counter = modelled_aoo(model, &aoo_grid, &occupied)?;
-        clock.lap("modelled AOO cells");
-        let aoo_fig = counter.figures();
-        clock.lap("modelled AOO origins");
         let hull_pts = occupied_hull_points(model, &occupied)?;
         clock.lap("modelled hull points");
+        let aoo_fig = super::aoo_runs::count_runs(
+            model,
+            &aoo_grid,
+            &|id| occupied[id as usize - 1],
+            &hull_pts,
+        )?;
+        clock.lap("modelled AOO");
         let mut fig = figures(&hull_pts, &aoo_fig, cell_km, "occupied modelled range");
         clock.lap("modelled hull");
         let (occ_area, occ_cells) = (0..n).filter(|&i| occupied[i]).fold((0.0, 0u64), |a, i| {
@@ -163,10 +165,4 @@ pub fn range_metrics(
         suitable: patch_structure(&areas(&|_| true), opts.min_patch_km2),
     });
     Ok((metrics, cols))
-}
-
-/// The AOO counter of the occupied patches' cells: the centre of every cell of an occupied
-/// patch, in the AOO grid.
-fn modelled_aoo(model: &RangeModel, aoo: &AooGrid, occupied: &[bool]) -> Result<AooCounter> {
-    super::aoo_runs::count_runs(model, aoo, &|id| occupied[id as usize - 1])
 }

@@ -37,6 +37,7 @@ pub(crate) struct Corners {
     pts: Vec<(f64, f64)>,
     /// Earth-centred coordinates of `pts`, metres.
     xyz: Vec<[f64; 3]>,
+
     /// Patch index of each corner.
     label: Vec<u32>,
     /// Corners of patch p: `start[p]..start[p + 1]`.
@@ -110,30 +111,45 @@ fn search_bound(s_m: f64) -> f64 {
     b * b
 }
 
-/// A lower bound on the geodesic between corners `a` and `b` (ECEF metres), with `n` the
-/// ellipsoid's unit normal at `a`.
+/// Whether the geodesic between corners at (lat, lon) `a` and `b` (ECEF `xa`, `xb`, metres)
+/// may be shorter than `bound` metres: false when a lower bound reaches it.
 ///
 /// Every principal radius of curvature of WGS84 is at least ρ = a(1 - e²), so by Blaschke's
-/// rolling-ball theorem the ball of radius ρ touching the ellipsoid from inside at `a` (centre
-/// `a - ρ n`) lies inside it. Projecting onto a convex set never lengthens a curve, and the
+/// rolling-ball theorem the ball of radius ρ touching the ellipsoid from inside (centre
+/// `t - ρ n` for the touching point t with normal n) lies inside it. Projecting onto a convex set never lengthens a curve, and the
 /// geodesic projects to a curve on that ball's sphere joining the projections of `a` and `b`,
 /// so the geodesic is at least the great-circle arc between them: ρ times the angle they make
-/// at the centre. The bound is far tighter than the chord at long range (about 40 m short at
+/// at the centre. The ball may touch the ellipsoid anywhere; touching it between the two
+/// corners keeps the bound tightest. The bound is far tighter than the chord at long range (about 10 m short at
 /// 1,000 km, where the chord is 1 km short), so few pairs need a geodesic of their own.
-fn geodesic_lower_bound(a: &[f64; 3], b: &[f64; 3], n: &[f64; 3]) -> f64 {
+fn may_be_below(a: (f64, f64), b: (f64, f64), xa: &[f64; 3], xb: &[f64; 3], bound: f64) -> bool {
     let rho = m_min();
-    let u = [rho * n[0], rho * n[1], rho * n[2]]; // a - centre
-    let v = [b[0] - a[0] + u[0], b[1] - a[1] + u[1], b[2] - a[2] + u[2]]; // b - centre
-    let cross = [
-        u[1] * v[2] - u[2] * v[1],
-        u[2] * v[0] - u[0] * v[2],
-        u[0] * v[1] - u[1] * v[0],
-    ];
-    let sin = (cross[0] * cross[0] + cross[1] * cross[1] + cross[2] * cross[2]).sqrt();
-    let cos = u[0] * v[0] + u[1] * v[1] + u[2] * v[2];
-    let arc = rho * sin.atan2(cos);
-    // Rounding margin: far below any distance that matters, far above f64 noise.
-    arc * (1.0 - 1e-9) - 1e-6
+    let theta = (bound + 1e-6) / (rho * (1.0 - 1e-9));
+    if theta >= std::f64::consts::PI {
+        return true;
+    }
+    // The ball touches the ellipsoid at the point of mean latitude and longitude (any point of
+    // the ellipsoid would do; one between the two keeps the bound tight).
+    let lat = 0.5 * (a.0 + b.0);
+    let mut dl = b.1 - a.1;
+    if dl > 180.0 {
+        dl -= 360.0;
+    } else if dl < -180.0 {
+        dl += 360.0;
+    }
+    let lon = a.1 + 0.5 * dl;
+    let t = ecef(lat, lon);
+    let n = crate::access::buffer::unit(lat, lon);
+    let c = [t[0] - rho * n[0], t[1] - rho * n[1], t[2] - rho * n[2]];
+    let u = [xa[0] - c[0], xa[1] - c[1], xa[2] - c[2]];
+    let v = [xb[0] - c[0], xb[1] - c[1], xb[2] - c[2]];
+    let dot = u[0] * v[0] + u[1] * v[1] + u[2] * v[2];
+    let (lu, lv) = (
+        (u[0] * u[0] + u[1] * u[1] + u[2] * u[2]).sqrt(),
+        (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt(),
+    );
+    // Angle below theta exactly when its cosine is above cos(theta).
+    dot > lu * lv * theta.cos()
 }
 
 /// The longest geodesic whose chord is `d_m` metres (Schur's comparison theorem with the
@@ -176,9 +192,7 @@ impl Corners {
     /// The geodesic between corners `i` and `j` when it may be below `bound` metres, else
     /// `None` (a lower bound already reaches `bound`).
     fn dist_below(&self, i: usize, j: usize, bound: f64) -> Option<f64> {
-        let (la, lo) = self.pts[i];
-        let n = crate::access::buffer::unit(la, lo);
-        if geodesic_lower_bound(&self.xyz[i], &self.xyz[j], &n) >= bound {
+        if !may_be_below(self.pts[i], self.pts[j], &self.xyz[i], &self.xyz[j], bound) {
             return None;
         }
         Some(self.dist(i, j))

@@ -29,3 +29,8 @@ R_LIBS=.rlib AREAL_BIN="$PWD/target/release/areal" \
   Rscript -e 'library(areal); testthat::test_dir("r/tests/testthat", stop_on_failure = TRUE)'
 # Atomic outputs: SIGKILL part way through runs on a large generated raster.
 bash tests/kill_test.sh
+# Batches: SIGKILL and resume (10 rounds), a full disk, and a real Slurm job array with a
+# dependent gather on a single-node cluster (installs slurm-wlm's daemons and munge; root).
+bash tests/batch_kill_test.sh
+bash tests/batch_disk_full.sh
+bash tests/batch_slurm_test.sh

@@ -121,6 +121,23 @@ pub enum Error {
         /// What went wrong and what can be done.
         reason: String,
     },
+    /// A run file that cannot be used, or a run folder or input that no longer matches its
+    /// run file (`areal rerun`, `areal verify`).
+    #[error("{path}: {reason}")]
+    RunFile {
+        /// The run file.
+        path: PathBuf,
+        /// What does not match and what to do.
+        reason: String,
+    },
+    /// A batch manifest with bad rows (each named by its line).
+    #[error("{path}: {reason}")]
+    Manifest {
+        /// The manifest.
+        path: PathBuf,
+        /// The bad rows and how to fix them.
+        reason: String,
+    },
     /// An I/O error on a named output file or folder.
     #[error("{path}: {source}")]
     Io {
@@ -172,7 +189,9 @@ impl Error {
             | Error::Records { .. }
             | Error::Accessible { .. }
             | Error::Crs { .. }
-            | Error::NoUsableRecords { .. } => Stage::Input,
+            | Error::NoUsableRecords { .. }
+            | Error::RunFile { .. }
+            | Error::Manifest { .. } => Stage::Input,
         }
     }
 

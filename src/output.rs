@@ -24,6 +24,8 @@ pub const OUTPUT_NAMES: &[&str] = &[
     "patches.csv",
     "records.csv",
     "summary.json",
+    // The run file (crate::batch::runfile).
+    "areal-run.toml",
     // Style files (crate::styles::STYLE_NAMES).
     "classes.qml",
     "range.qml",
@@ -190,9 +192,11 @@ impl OutputDir {
     /// Move the finished folder into place: one atomic exchange where the system has
     /// it, else two renames (see the module documentation).
     pub fn commit(mut self) -> Result<()> {
+        self.sync()?;
         if self.dest.exists() && exchange(&self.tmp, &self.dest).is_ok() {
             // The old outputs are now at the temporary path.
             self.committed = true;
+            sync_dir(self.dest.parent().unwrap_or(Path::new(".")))?;
             let _ = fs::remove_dir_all(&self.tmp);
             return Ok(());
         }
@@ -211,11 +215,39 @@ impl OutputDir {
         };
         fs::rename(&self.tmp, &self.dest).map_err(Error::io(&self.dest))?;
         self.committed = true;
+        sync_dir(self.dest.parent().unwrap_or(Path::new(".")))?;
         if let Some(old) = old {
             let _ = fs::remove_dir_all(old);
         }
         Ok(())
     }
+}
+
+impl OutputDir {
+    /// fsync every file and the temporary folder itself, so that after the rename a power
+    /// cut cannot leave a folder that looks complete but is not (SQLite's practice).
+    fn sync(&self) -> Result<()> {
+        for e in fs::read_dir(&self.tmp).map_err(Error::io(&self.tmp))? {
+            let p = e.map_err(Error::io(&self.tmp))?.path();
+            if p.is_file() {
+                fs::File::open(&p)
+                    .and_then(|f| f.sync_all())
+                    .map_err(Error::io(&p))?;
+            }
+        }
+        sync_dir(&self.tmp)
+    }
+}
+
+/// fsync a folder (its entries: new names and renames); where folders cannot be opened
+/// (not Unix) this does nothing.
+pub(crate) fn sync_dir(dir: &Path) -> Result<()> {
+    if cfg!(unix) {
+        fs::File::open(dir)
+            .and_then(|f| f.sync_all())
+            .map_err(Error::io(dir))?;
+    }
+    Ok(())
 }
 
 /// Swap two existing paths atomically (Linux `renameat2(RENAME_EXCHANGE)`).

@@ -681,6 +681,13 @@ impl ClassWriter {
                 &self.path,
                 format!("writing rows {y0}..{}", y0 + n),
             ))?;
+        // Write the strip's tiles now, in order: left to GDAL's block cache (shared by every
+        // run of a process, e.g. a batch), the order in which tiles reach the file, and so the
+        // file's bytes, would depend on what other threads put in the cache.
+        self.ds.flush_cache().map_err(output_error(
+            &self.path,
+            format!("writing rows {y0}..{}", y0 + n),
+        ))?;
         Ok(buf.into_shape_and_vec().1)
     }
 

@@ -203,6 +203,7 @@ pub fn run_range(
         crate::styles::write_layer_styles(&run_dir)?;
     }
     drop(model); // removes its spill file before the folder is committed
+    crate::batch::runfile::write(&dir.file(""), suitability, records, opts)?;
     dir.commit()?;
     clock.lap("tables and commit");
     Ok(result)

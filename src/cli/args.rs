@@ -4,7 +4,7 @@ use areal::access::AccessSpec;
 use areal::metrics::MetricsOptions;
 use areal::patches::Connectivity;
 use areal::records::RecordOptions;
-use areal::{RangeOptions, ThresholdSpec};
+use areal::RangeOptions;
 use clap::{ArgGroup, Parser, Subcommand};
 use std::path::PathBuf;
 
@@ -32,6 +32,15 @@ pub(crate) enum Command {
     /// Range change from the present to future rasters (same threshold): stable, lost and
     /// gained cells, within or beyond a dispersal distance.
     Change(super::change::ChangeArgs),
+    /// Run many species from a CSV manifest, resumable and shardable (Slurm job arrays);
+    /// writes one run folder per species, batch.csv, batch.gpkg and richness.tif.
+    Batch(crate::cli::batch::BatchArgs),
+    /// Write batch.csv, batch.gpkg and richness.tif from the species folders of a batch.
+    Gather(crate::cli::batch::GatherArgs),
+    /// Run a run file (areal-run.toml) again into a new folder, byte for byte.
+    Rerun(crate::cli::batch::RerunArgs),
+    /// Check a run folder's outputs against its run file.
+    Verify(crate::cli::batch::VerifyArgs),
     /// Print the JSON Schema of summary.json (the copy in docs/summary.schema.json).
     Schema,
     /// Print a shell completion script (e.g. `areal completions bash > /etc/bash_completion.d/areal`).
@@ -289,33 +298,43 @@ impl PolygonsArgs {
 }
 
 impl RangeArgs {
+    /// The run's options, built by the library from the same named values a batch manifest
+    /// and a run file use (`areal::batch::settings`).
     pub(crate) fn to_options(&self) -> areal::Result<RangeOptions> {
-        let threshold = match (self.omission, self.threshold) {
-            (Some(e), None) => ThresholdSpec::omission(e)?,
-            (None, Some(v)) => ThresholdSpec::fixed(v)?,
-            _ => unreachable!("clap requires exactly one of --omission and --threshold"),
-        };
-        Ok(RangeOptions {
-            threshold,
-            access: AccessSpec {
-                polygon: self.accessible.clone(),
-                buffer_km: self.buffer_km,
-                hull_buffer_km: self.hull_buffer_km,
-            },
-            connectivity: if self.connectivity == "4" {
-                Connectivity::Four
-            } else {
-                Connectivity::Eight
-            },
-            keep_duplicates: self.keep_duplicates,
-            records: self.record_columns.to_options(),
-            progress: crate::cli::progress::bar(self.quiet),
-            vectors: (self.vectors.vectors
-                || self.vectors.vector_crs.is_some()
-                || self.vectors.simplify_m.is_some())
-            .then(|| self.vectors.to_options()),
-            metrics: self.metrics.to_options(!self.no_metrics)?,
-            model: Default::default(),
-        })
+        let num = |v: Option<f64>| v.map(|v| v.to_string());
+        let flag = |b: bool| Some(b.to_string());
+        let pairs = [
+            ("omission", num(self.omission)),
+            ("threshold", num(self.threshold)),
+            (
+                "accessible",
+                self.accessible.as_ref().map(|p| p.display().to_string()),
+            ),
+            ("buffer_km", num(self.buffer_km)),
+            ("hull_buffer_km", num(self.hull_buffer_km)),
+            ("connectivity", Some(self.connectivity.clone())),
+            ("keep_duplicates", flag(self.keep_duplicates)),
+            ("lon_col", self.record_columns.lon_col.clone()),
+            ("lat_col", self.record_columns.lat_col.clone()),
+            ("records_crs", Some(self.record_columns.records_crs.clone())),
+            ("records_layer", self.record_columns.records_layer.clone()),
+            ("vectors", flag(self.vectors.vectors)),
+            ("vector_crs", self.vectors.vector_crs.clone()),
+            ("simplify_m", num(self.vectors.simplify_m)),
+            ("aoo_cell_km", num(Some(self.metrics.aoo_cell_km))),
+            ("min_patch_km2", num(self.metrics.min_patch_km2)),
+            ("gap_km", num(self.metrics.gap_km)),
+            ("keep_dropped", flag(self.metrics.keep_dropped)),
+            ("no_metrics", flag(self.no_metrics)),
+        ];
+        let settings = pairs
+            .into_iter()
+            .filter_map(|(k, v)| v.map(|v| (k.to_string(), v)))
+            .collect();
+        areal::batch::settings::to_range_options(
+            &settings,
+            std::path::Path::new(""),
+            crate::cli::progress::bar(self.quiet),
+        )
     }
 }

@@ -12,6 +12,7 @@
 //! printed once each as `areal: GDAL warning: ...` (unless `--quiet`).
 
 mod args;
+mod batch;
 mod change;
 mod extras;
 pub(crate) mod progress;
@@ -67,9 +68,17 @@ pub(crate) fn main() -> ExitCode {
     if std::env::var_os("GDAL_CACHEMAX").is_none() {
         let _ = gdal::config::set_config_option("GDAL_CACHEMAX", "32");
     }
+    // GeoPackages carry a "last change" timestamp; a fixed one keeps every output a function
+    // of the inputs and options only, so `areal rerun` reproduces range.gpkg byte for byte.
+    if std::env::var_os("OGR_CURRENT_DATE").is_none() {
+        let _ = gdal::config::set_config_option("OGR_CURRENT_DATE", "2000-01-01T00:00:00.000Z");
+    }
     let quiet = match &cli.command {
         Command::Range(a) => a.quiet,
         Command::Change(a) => a.quiet,
+        Command::Batch(a) => a.quiet,
+        Command::Gather(a) => a.quiet,
+        Command::Rerun(a) => a.quiet,
         _ => false,
     };
     let result = run(cli);
@@ -80,7 +89,7 @@ pub(crate) fn main() -> ExitCode {
         }
     }
     match result {
-        Ok(()) => ExitCode::SUCCESS,
+        Ok(code) => ExitCode::from(code),
         Err(e) => {
             let mut line = e.to_string().replace('\n', " ");
             // GDAL's last failure is usually the one behind the error.
@@ -95,19 +104,23 @@ pub(crate) fn main() -> ExitCode {
     }
 }
 
-fn run(cli: Cli) -> areal::Result<()> {
+fn run(cli: Cli) -> areal::Result<u8> {
     match cli.command {
+        Command::Batch(a) => batch::batch(&a),
+        Command::Gather(a) => batch::gather(&a),
+        Command::Rerun(a) => batch::rerun(&a),
+        Command::Verify(a) => batch::verify(&a),
         Command::Schema => {
             let _ = std::io::stdout().write_all(areal::summary_schema().as_bytes());
-            Ok(())
+            Ok(0)
         }
         Command::Completions { shell } => {
             extras::completions(shell);
-            Ok(())
+            Ok(0)
         }
         Command::Man => {
             let _ = extras::man_page();
-            Ok(())
+            Ok(0)
         }
         Command::Range(a) => {
             let opts = a.to_options()?;
@@ -128,9 +141,9 @@ fn run(cli: Cli) -> areal::Result<()> {
                 write!(out, "{}", result.summary.to_text())
                     .and_then(|_| writeln!(out, "  outputs         {}", a.out.display()))
             };
-            Ok(())
+            Ok(0)
         }
-        Command::Change(a) => change::run(a),
+        Command::Change(a) => change::run(a).map(|()| 0),
         Command::Polygons(a) => {
             let r = areal::vectors::run_polygons(
                 &a.classes,
@@ -151,7 +164,7 @@ fn run(cli: Cli) -> areal::Result<()> {
             text += &format!("  files           {}\n", r.files.join(", "));
             text += &format!("  outputs         {}\n", a.out.display());
             let _ = out.write_all(text.as_bytes());
-            Ok(())
+            Ok(0)
         }
         Command::Extent(a) => {
             let opts = a.metrics.to_options(true)?;
@@ -180,7 +193,7 @@ fn run(cli: Cli) -> areal::Result<()> {
                 t
             };
             let _ = out.write_all(text.as_bytes());
-            Ok(())
+            Ok(0)
         }
     }
 }

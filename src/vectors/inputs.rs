@@ -41,6 +41,54 @@ pub(crate) struct Table {
 }
 
 impl Table {
+    /// Read a CSV file with a header, typing each column from its values.
+    pub(crate) fn read_csv(path: &Path) -> Result<Table> {
+        let bad = |e: csv::Error| Error::Records {
+            path: path.to_path_buf(),
+            reason: format!("cannot read this areal table: {e}"),
+        };
+        let mut r = csv::Reader::from_path(path).map_err(bad)?;
+        let names: Vec<String> = r.headers().map_err(bad)?.iter().map(String::from).collect();
+        let mut raw: Vec<Vec<String>> = Vec::new();
+        for rec in r.records() {
+            let rec = rec.map_err(bad)?;
+            raw.push(rec.iter().map(String::from).collect());
+        }
+        let kinds: Vec<Kind> = (0..names.len())
+            .map(|c| {
+                let vals = || {
+                    raw.iter()
+                        .map(|row| row[c].as_str())
+                        .filter(|v| !v.is_empty())
+                };
+                if vals().count() == 0 {
+                    Kind::Text
+                } else if vals().all(|v| v.parse::<i64>().is_ok()) {
+                    Kind::Int
+                } else if vals().all(|v| v.parse::<f64>().is_ok()) {
+                    Kind::Real
+                } else {
+                    Kind::Text
+                }
+            })
+            .collect();
+        let rows = raw
+            .into_iter()
+            .map(|row| {
+                row.into_iter()
+                    .zip(&kinds)
+                    .map(|(v, k)| match (v.is_empty(), k) {
+                        (true, _) => Value::Null,
+                        (_, Kind::Int) => Value::Int(v.parse().unwrap()),
+                        (_, Kind::Real) => Value::Real(v.parse().unwrap()),
+                        _ => Value::Text(v),
+                    })
+                    .collect()
+            })
+            .collect();
+        Ok(Table { names, kinds, rows })
+    }
+
     /// A numeric cell as f64 (None when null or text).
     pub(crate) fn num(&self, row: usize, col: usize) -> Option<f64> {
         match &self.rows[row][col] {

@@ -212,7 +212,7 @@ fn col(t: &Table, name: &str) -> Result<usize> {
 
 /// Pixel polygons in the grid's CRS: on lon/lat grids with vertices along the parallels
 /// (`parallels.rs`), elsewhere at the cell corners; simplified by `tol` (CRS units) when given.
-fn native(
+pub(super) fn native(
     ps: &[PixelPolygon],
     grid: &GridSpec,
     tol: Option<f64>,

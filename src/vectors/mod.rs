@@ -23,6 +23,7 @@
 //! vertex, and the geometries of one output CRS at a time); nothing grows with the cells.
 //! See docs/vectors.md.
 
+mod batch_layer;
 mod crs;
 #[cfg(test)]
 mod gdal_ref;
@@ -43,6 +44,7 @@ mod trace;
 mod trace_tests;
 mod write;
 
+pub use batch_layer::{range_lonlat, write_table_gpkg};
 pub use crs::VectorCrs;
 pub use write::GEOJSON_DECIMALS;
 

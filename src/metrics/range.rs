@@ -124,8 +124,11 @@ pub fn range_metrics(
     let c = Corners::from_model(model)?;
     clock.lap("boundary corners");
     let near = reach::nearest(&c, |_| true);
+    clock.lap("nearest patch");
     let near_occ = reach::nearest(&c, |p| occupied[p]);
+    clock.lap("nearest occupied patch");
     let near_range = reach::nearest(&c, |p| patches[p].class == class::INSIDE);
+    clock.lap("nearest class-1 patch");
     clock.lap("nearest patches");
     let jumps = opts.gap_km.map(|g| reach::reach(&c, |p| occupied[p], g));
     clock.lap("reach");

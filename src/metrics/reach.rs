@@ -305,8 +305,8 @@ pub(crate) fn nearest(c: &Corners, target: impl Fn(usize) -> bool) -> Vec<Option
             .fold(0.0, f64::max);
         let theta = (best[p] + 1e-6) / (rho * (1.0 - 1e-9)) + spread + 1e-9;
         let mut b = best[p];
-        if theta >= 0.5 * std::f64::consts::PI {
-            // A wide cone prunes little: search by chord instead.
+        if theta >= std::f64::consts::PI {
+            // A cone this wide prunes nothing: search by chord.
             tree.search_box(
                 &c.xyz,
                 &c.label,

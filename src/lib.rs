@@ -19,6 +19,7 @@ mod pipeline;
 pub mod raster_io;
 pub mod records;
 mod report;
+pub mod report_html;
 mod review;
 mod threshold;
 pub mod vectors;
@@ -32,6 +33,6 @@ pub use pipeline::{
 };
 pub use report::{
     AccessReport, AreaReport, CellReport, ExcludedRecord, InputsReport, PatchReport, PatchRow,
-    RecordRow, RecordsReport, Summary, ThresholdReport, CAUTIONS,
+    RecordRow, RecordsReport, SensitivityRow, Summary, ThresholdReport, CAUTIONS,
 };
 pub use threshold::{omission_threshold, Threshold, ThresholdSpec};

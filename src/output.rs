@@ -24,6 +24,8 @@ pub const OUTPUT_NAMES: &[&str] = &[
     "patches.csv",
     "records.csv",
     "summary.json",
+    "report.html",
+    "map.png",
     // Vector outputs (crate::vectors::VECTOR_NAMES).
     "range.gpkg",
     "range.geojson",

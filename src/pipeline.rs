@@ -44,6 +44,10 @@ pub struct RangeOptions {
     pub vectors: Option<crate::vectors::VectorOptions>,
     /// EOO, AOO, patch structure and reach (computed by [`run_range`]).
     pub metrics: crate::metrics::MetricsOptions,
+    /// Write report.html and map.png ([`run_range`]).
+    pub report: bool,
+    /// The command line, recorded in summary.json and shown in the report.
+    pub command_line: Vec<String>,
 }
 
 /// Receives progress of the long stages. Implementations must be cheap: `advance` is
@@ -714,6 +718,14 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
         accessible: AccessReport {
             description: b.access.description(),
             whole_raster: b.access.is_whole_raster(),
+            polygon: b.opts.access.polygon.as_ref().map(|p| {
+                std::fs::canonicalize(p)
+                    .unwrap_or_else(|_| p.clone())
+                    .display()
+                    .to_string()
+            }),
+            buffer_km: b.opts.access.buffer_km,
+            hull_buffer_km: b.opts.access.hull_buffer_km,
         },
         area_km2: AreaReport {
             suitable: (t.area_m2[1].get() + t.area_m2[2].get()) / 1e6,
@@ -742,6 +754,8 @@ fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
         warnings,
         cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
         metrics: None,
+        sensitivity: Vec::new(),
+        command_line: b.opts.command_line.clone(),
     };
     let mut summary = summary;
     crate::review::review(&mut summary);
@@ -866,7 +880,14 @@ pub fn run_range(
     let grid = SuitabilityRaster::open(suitability)?.grid().clone();
     let classes_path: PathBuf = dir.file("classes.tif");
     let mut writer = crate::raster_io::ClassWriter::create(&classes_path, &grid)?;
-    let mut result = compute_range(suitability, records, opts, &mut writer)?;
+    // The map is drawn from the class rows as the pass writes them, kept as runs.
+    let (mut result, class_runs) = if opts.report {
+        let mut tee = crate::report_html::runs::RunsTee::new(&mut writer, grid.width);
+        let r = compute_range(suitability, records, opts, &mut tee)?;
+        (r, Some(tee.runs))
+    } else {
+        (compute_range(suitability, records, opts, &mut writer)?, None)
+    };
     writer.close()?;
     if opts.metrics.enabled {
         let mut classes = SuitabilityRaster::open(&classes_path)?;
@@ -876,6 +897,9 @@ pub fn run_range(
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&result.summary).expect("summary serialises");
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
+    if let Some(runs) = &class_runs {
+        crate::report_html::write_run_report(&dir, &result, &grid, runs, &opts.access)?;
+    }
     if let Some(v) = &opts.vectors {
         let run_dir = classes_path
             .parent()

@@ -624,11 +624,11 @@ impl ClassWriter {
             band.set_description("range class")
                 .map_err(err("setting the band description"))?;
             let mut ct = ColorTable::new(PaletteInterpretation::Rgba);
-            // Our own palette: pale sand for below threshold, deep teal for the accessible
-            // range, warm amber for suitable land beyond M, transparent nodata.
-            ct.set_color_entry(0, &ColorEntry::rgba(236, 229, 206, 255));
-            ct.set_color_entry(1, &ColorEntry::rgba(0, 109, 119, 255));
-            ct.set_color_entry(2, &ColorEntry::rgba(230, 145, 56, 255));
+            // The map's palette (report_html::palette); nodata transparent.
+            for k in [class::UNSUITABLE, class::INSIDE, class::OUTSIDE] {
+                let [r, g, b] = crate::report_html::palette::class_colour(k);
+                ct.set_color_entry(k as u16, &ColorEntry::rgba(r as i16, g as i16, b as i16, 255));
+            }
             ct.set_color_entry(255, &ColorEntry::rgba(0, 0, 0, 0));
             band.set_color_table(&ct);
             let mut names = gdal::cpl::CslStringList::new();
@@ -669,9 +669,22 @@ impl ClassWriter {
         Ok(buf.into_shape_and_vec().1)
     }
 
-    /// Flush and close.
-    pub fn close(self) -> Result<()> {
+    /// Build the internal overviews (halvings down to about 256 cells, nearest
+    /// neighbour: the class codes stay exact), flush and close.
+    pub fn close(mut self) -> Result<()> {
         let path = self.path.clone();
+        let (w, h) = self.ds.raster_size();
+        let mut levels = Vec::new();
+        let mut f = 2;
+        while w.max(h) / f >= 256 && levels.len() < 12 {
+            levels.push(f as i32);
+            f *= 2;
+        }
+        if !levels.is_empty() {
+            self.ds
+                .build_overviews("NEAREST", &levels, &[])
+                .map_err(output_error(&path, "building overviews".into()))?;
+        }
         self.ds
             .close()
             .map_err(output_error(&path, "closing the class raster".into()))?;

@@ -114,6 +114,8 @@ fn streaming(path: &Path, records: &Path, t: f64, eight: bool) -> (Vec<u8>, area
         progress: Default::default(),
         vectors: None,
         metrics: Default::default(),
+        report: false,
+        command_line: Vec::new(),
     };
     let w = Dataset::open(path).unwrap().raster_size().0;
     let mut sink = MemorySink::new(w);
@@ -347,6 +349,8 @@ fn buffer_m_applied_in_the_workers_matches_geographiclib_per_cell() {
         progress: Default::default(),
         vectors: None,
         metrics: Default::default(),
+        report: false,
+        command_line: Vec::new(),
     };
     let mut sink = MemorySink::new(w);
     let res = compute_range(&tif, &rec, &opts, &mut sink).unwrap();

@@ -26,6 +26,15 @@ pub(crate) enum Command {
     /// Extent of occurrence (EOO) and area of occupancy (AOO) of records, optionally with a
     /// range raster (classes.tif) for the modelled-range figures, patch distances and reach.
     Extent(ExtentArgs),
+    /// Write report.html and map.png again from an earlier `areal range` run's folder.
+    Report(ReportArgs),
+}
+
+#[derive(clap::Args, Debug)]
+pub(crate) struct ReportArgs {
+    /// The output folder of an earlier `areal range` run (--out).
+    #[arg(value_name = "DIR")]
+    pub dir: PathBuf,
 }
 
 /// Options of the range metrics, shared by `range` and `extent`.
@@ -178,6 +187,9 @@ pub(crate) struct RangeArgs {
     /// Skip the range metrics (EOO, AOO, patch distances, reach).
     #[arg(long)]
     pub no_metrics: bool,
+    /// Do not write report.html and map.png.
+    #[arg(long)]
+    pub no_report: bool,
 }
 
 /// Options of the vector outputs, shared by `range` and `polygons`.
@@ -299,6 +311,8 @@ impl RangeArgs {
                 || self.vectors.simplify_m.is_some())
             .then(|| self.vectors.to_options()),
             metrics: self.metrics.to_options(!self.no_metrics)?,
+            report: !self.no_report,
+            command_line: std::env::args().collect(),
         })
     }
 }

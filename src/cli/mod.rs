@@ -67,7 +67,7 @@ pub(crate) fn main() -> ExitCode {
     }
     let quiet = match &cli.command {
         Command::Range(a) => a.quiet,
-        Command::Polygons(_) | Command::Extent(_) => false,
+        Command::Polygons(_) | Command::Extent(_) | Command::Report(_) => false,
     };
     let result = run(cli);
     let gdal = gdal_messages();
@@ -135,6 +135,14 @@ fn run(cli: Cli) -> areal::Result<()> {
             text += &format!("  files           {}\n", r.files.join(", "));
             text += &format!("  outputs         {}\n", a.out.display());
             let _ = out.write_all(text.as_bytes());
+            Ok(())
+        }
+        Command::Report(a) => {
+            let written = areal::report_html::folder::run_report(&a.dir)?;
+            let mut out = std::io::stdout().lock();
+            for p in written {
+                let _ = writeln!(out, "areal report: wrote {}", p.display());
+            }
             Ok(())
         }
         Command::Extent(a) => {

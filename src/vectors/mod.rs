@@ -26,7 +26,7 @@ mod crs;
 mod distance;
 mod inputs;
 mod layers;
-mod lonlat;
+pub(crate) mod lonlat;
 mod polygonize;
 #[cfg(test)]
 mod tests;

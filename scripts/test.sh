@@ -15,5 +15,7 @@ if [ ! -x .venv/bin/python ]; then
 fi
 .venv/bin/python -c "import shapely, pyproj, numpy" 2>/dev/null || .venv/bin/pip install -q -r tests/py/requirements.txt
 .venv/bin/python tests/py/check_eoo.py target/release/areal
+# The report: map.png decoded by Pillow against classes.tif, report.html in headless Chromium.
+bash scripts/check-report.sh
 # Atomic outputs: SIGKILL part way through runs on a large generated raster.
 bash tests/kill_test.sh

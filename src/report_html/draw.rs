@@ -304,8 +304,16 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
         let (ax, ay) = (fx(w.col0), fy(w.row0));
         let fw = (w.cols as f32 / lf * ls as f32).max(3.0);
         let fh = ((w.row0 + w.rows) as f32 / lf * ls as f32 + ly0 as f32 - ay).max(3.0);
-        if let Some(r) = Rect::from_xywh(ax, ay, fw, fh) {
-            pm.stroke_path(&PathBuilder::from_rect(r), &paint(palette::DROPPED, 255), &stroke(2.0), id, None);
+        // A frame across the seam of a wrapping grid is drawn on both sides.
+        let loc_clip = {
+            let mut m = Mask::new(width as u32, height as u32).expect("mask size");
+            m.fill_path(&PathBuilder::from_rect(lr), FillRule::Winding, false, id);
+            m
+        };
+        for shift in [0.0, -(lw as f32)] {
+            if let Some(r) = Rect::from_xywh(ax + shift, ay, fw, fh) {
+                pm.stroke_path(&PathBuilder::from_rect(r), &paint(palette::DROPPED, 255), &stroke(2.0), id, Some(&loc_clip));
+            }
         }
         text::draw(&mut pm, "whole raster", (lx0 + lw / 2) as f32, ly0 as f32 + lh as f32 + 13.0, 11.0, palette::INK, 0.5);
     }

@@ -74,7 +74,7 @@ pub fn page(data: &ReportData, map: &MapPng, image: &ClassImage, title: &str) ->
           h1{font-size:1.5em}h2{font-size:1.2em;margin-top:1.6em;border-bottom:1px solid #ccc}\n\
           img,svg{max-width:100%;height:auto}\n.caution{background:#fff6e0;border-left:4px solid #E69F00;padding:.4em .8em}\n\
           table.figures{border-collapse:collapse;width:100%}table.figures td,table.figures th{border-bottom:1px solid #ddd;padding:.25em .5em;text-align:left;vertical-align:top}\n\
-          table.figures th{background:#f2f2f2}\n.num{font-variant-numeric:tabular-nums}\npre{white-space:pre-wrap;background:#f6f6f6;padding:.5em}\n.note{color:#555;font-size:.92em}\n</style>\n";
+          table.figures th{background:#f2f2f2}table.figures td:first-child{width:34%}\n.num{font-variant-numeric:tabular-nums}\npre{white-space:pre-wrap;background:#f6f6f6;padding:.5em}\n.note{color:#555;font-size:.92em}\n</style>\n";
     h += "</head>\n<body>\n";
     h += &format!("<h1>{}</h1>\n", escape(title));
     h += &format!(

@@ -886,7 +886,10 @@ pub fn run_range(
         let r = compute_range(suitability, records, opts, &mut tee)?;
         (r, Some(tee.runs))
     } else {
-        (compute_range(suitability, records, opts, &mut writer)?, None)
+        (
+            compute_range(suitability, records, opts, &mut writer)?,
+            None,
+        )
     };
     writer.close()?;
     if opts.metrics.enabled {

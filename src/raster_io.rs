@@ -627,7 +627,10 @@ impl ClassWriter {
             // The map's palette (report_html::palette); nodata transparent.
             for k in [class::UNSUITABLE, class::INSIDE, class::OUTSIDE] {
                 let [r, g, b] = crate::report_html::palette::class_colour(k);
-                ct.set_color_entry(k as u16, &ColorEntry::rgba(r as i16, g as i16, b as i16, 255));
+                ct.set_color_entry(
+                    k as u16,
+                    &ColorEntry::rgba(r as i16, g as i16, b as i16, 255),
+                );
             }
             ct.set_color_entry(255, &ColorEntry::rgba(0, 0, 0, 0));
             band.set_color_table(&ct);

@@ -46,7 +46,10 @@ fn numbers(html: &str) -> Vec<(String, String)> {
 
 /// Text as HTML shows it (the five characters HTML escapes; WHATWG HTML, "escaping a string").
 fn escaped(s: &str) -> String {
-    s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
 }
 
 #[test]
@@ -62,11 +65,17 @@ fn every_number_on_the_page_is_the_summary_value_rounded_as_shown() {
             .pointer(key)
             .and_then(|v| v.as_f64())
             .unwrap_or_else(|| panic!("{key} is not a number in summary.json"));
-        let shown: f64 = text.replace(',', "").parse().unwrap_or_else(|_| panic!("{key}: {text}"));
+        let shown: f64 = text
+            .replace(',', "")
+            .parse()
+            .unwrap_or_else(|_| panic!("{key}: {text}"));
         let decimals = text.split_once('.').map_or(0, |(_, f)| f.len());
         // Half a unit of the last digit shown (plus float slack for exact values).
         let tol = 0.5 * 10f64.powi(-(decimals as i32)) + 1e-12 * want.abs();
-        assert!((shown - want).abs() <= tol, "{key}: page {text}, summary {want}");
+        assert!(
+            (shown - want).abs() <= tol,
+            "{key}: page {text}, summary {want}"
+        );
     }
     // The threshold is shown exactly, and the areas every reader looks for are there.
     let keys: Vec<&str> = nums.iter().map(|(k, _)| k.as_str()).collect();
@@ -82,30 +91,61 @@ fn every_number_on_the_page_is_the_summary_value_rounded_as_shown() {
     ] {
         assert!(keys.contains(&k), "{k} missing from the page");
     }
-    let t_shown = &nums.iter().find(|(k, _)| k == "/threshold/value").unwrap().1;
-    assert_eq!(t_shown.parse::<f64>().unwrap(), s["threshold"]["value"].as_f64().unwrap());
+    let t_shown = &nums
+        .iter()
+        .find(|(k, _)| k == "/threshold/value")
+        .unwrap()
+        .1;
+    assert_eq!(
+        t_shown.parse::<f64>().unwrap(),
+        s["threshold"]["value"].as_f64().unwrap()
+    );
     // Criterion B statements, its caution, the cautions and the command line appear verbatim.
-    for st in s["metrics"]["criterion_b"]["statements"].as_array().unwrap() {
-        assert!(html.contains(&escaped(st.as_str().unwrap())), "missing {st}");
+    for st in s["metrics"]["criterion_b"]["statements"]
+        .as_array()
+        .unwrap()
+    {
+        assert!(
+            html.contains(&escaped(st.as_str().unwrap())),
+            "missing {st}"
+        );
     }
     assert!(html.contains("Being below an area threshold is not a listing"));
     for c in s["cautions"].as_array().unwrap() {
-        assert!(html.contains(&escaped(c.as_str().unwrap())), "missing caution {c}");
+        assert!(
+            html.contains(&escaped(c.as_str().unwrap())),
+            "missing caution {c}"
+        );
     }
     let cmd = s["command_line"].as_array().unwrap();
     assert!(cmd.iter().any(|a| a == "--gap-km"));
-    assert!(html.contains(&format!("--accessible {}", demo("accessible.geojson").display())));
-    assert!(html.contains(&format!("<span id=\"version\">{}</span>", env!("CARGO_PKG_VERSION"))));
+    assert!(html.contains(&format!(
+        "--accessible {}",
+        demo("accessible.geojson").display()
+    )));
+    assert!(html.contains(&format!(
+        "<span id=\"version\">{}</span>",
+        env!("CARGO_PKG_VERSION")
+    )));
     // Self-contained: nothing fetched from elsewhere.
     // (SVG's namespace name is an identifier, not a fetch.)
-    for bad in ["src=\"http", "href=\"http", "url(", "<script", "<link ", "@import"] {
+    for bad in [
+        "src=\"http",
+        "href=\"http",
+        "url(",
+        "<script",
+        "<link ",
+        "@import",
+    ] {
         assert!(!html.contains(bad), "the page refers to {bad}");
     }
     // The inlined map is map.png, byte for byte.
     let b64 = html.split("data:image/png;base64,").nth(1).unwrap();
     let b64 = &b64[..b64.find('"').unwrap()];
     use base64::Engine as _;
-    let png = base64::engine::general_purpose::STANDARD.decode(b64).unwrap();
+    let png = base64::engine::general_purpose::STANDARD
+        .decode(b64)
+        .unwrap();
     assert_eq!(png, std::fs::read(out.join("map.png")).unwrap());
 }
 
@@ -122,8 +162,14 @@ fn areal_report_dir_writes_the_same_files_as_the_run() {
     std::fs::remove_file(out.join("report.html")).unwrap();
     let o = run(&["report", out.to_str().unwrap()]);
     assert!(o.status.success(), "{}", stderr(&o));
-    assert!(std::fs::read(out.join("map.png")).unwrap() == map, "map.png differs");
-    assert!(std::fs::read(out.join("report.html")).unwrap() == html, "report.html differs");
+    assert!(
+        std::fs::read(out.join("map.png")).unwrap() == map,
+        "map.png differs"
+    );
+    assert!(
+        std::fs::read(out.join("report.html")).unwrap() == html,
+        "report.html differs"
+    );
 }
 
 #[test]
@@ -151,14 +197,36 @@ fn classes_tif_has_internal_overviews_down_to_256_cells() {
     // 1100 x 600 cells: halvings 550, 275 (>= 256) and then stop: 2 overviews.
     let t = tempfile::tempdir().unwrap();
     let (w, h) = (1100usize, 600usize);
-    let values: Vec<f32> = (0..w * h).map(|i| if (i % w) < 300 { 0.9 } else { 0.1 }).collect();
+    let values: Vec<f32> = (0..w * h)
+        .map(|i| if (i % w) < 300 { 0.9 } else { 0.1 })
+        .collect();
     let tif = t.path().join("s.tif");
-    write_raster(&tif, w, h, [0.0, 0.01, 0.0, 10.0, 0.0, -0.01], Some(4326), None, &values);
+    write_raster(
+        &tif,
+        w,
+        h,
+        [0.0, 0.01, 0.0, 10.0, 0.0, -0.01],
+        Some(4326),
+        None,
+        &values,
+    );
     let rec = t.path().join("r.csv");
     std::fs::write(&rec, "lon,lat\n1.0,7.0\n").unwrap();
     let out = t.path().join("out");
-    let o = run(&["range", "--suitability", tif.to_str().unwrap(), "--records", rec.to_str().unwrap(),
-        "--threshold", "0.5", "--no-metrics", "--no-report", "--out", out.to_str().unwrap(), "--quiet"]);
+    let o = run(&[
+        "range",
+        "--suitability",
+        tif.to_str().unwrap(),
+        "--records",
+        rec.to_str().unwrap(),
+        "--threshold",
+        "0.5",
+        "--no-metrics",
+        "--no-report",
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ]);
     assert!(o.status.success(), "{}", stderr(&o));
     // Read back through GDAL: two internal overviews, no external .ovr file.
     let ds = gdal::Dataset::open(out.join("classes.tif")).unwrap();
@@ -167,7 +235,9 @@ fn classes_tif_has_internal_overviews_down_to_256_cells() {
     let ov = band.overview(1).unwrap();
     assert_eq!(ov.size(), (275, 150));
     // Nearest-neighbour overviews keep class codes: columns < 300 cells are class 1.
-    let px = ov.read_as::<u8>((0, 0), (275, 150), (275, 150), None).unwrap();
+    let px = ov
+        .read_as::<u8>((0, 0), (275, 150), (275, 150), None)
+        .unwrap();
     assert_eq!(px.data()[10], 1);
     assert_eq!(px.data()[200], 0);
     assert!(!out.join("classes.tif.ovr").exists());
@@ -181,10 +251,16 @@ fn report_fails(dir: &Path, expect_in_message: &str) {
     assert!(e.contains(expect_in_message), "{e}");
     assert_eq!(e.lines().count(), 1, "{e}");
     if dir.is_dir() {
-        let names: Vec<PathBuf> = std::fs::read_dir(dir).unwrap().map(|d| d.unwrap().path()).collect();
+        let names: Vec<PathBuf> = std::fs::read_dir(dir)
+            .unwrap()
+            .map(|d| d.unwrap().path())
+            .collect();
         for n in &names {
             let f = n.file_name().unwrap().to_string_lossy();
-            assert!(f != "report.html" && f != "map.png" && !f.contains("areal-tmp"), "{f} was written");
+            assert!(
+                f != "report.html" && f != "map.png" && !f.contains("areal-tmp"),
+                "{f} was written"
+            );
         }
     }
 }

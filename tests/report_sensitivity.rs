@@ -38,8 +38,15 @@ impl Recount {
         let band = ds.rasterband(1).unwrap();
         let (w, h) = band.size();
         let nodata = band.no_data_value();
-        let suit: Vec<f64> = band.read_as::<f64>((0, 0), (w, h), (w, h), None).unwrap().data().to_vec();
-        let data: Vec<bool> = suit.iter().map(|&v| v.is_finite() && Some(v) != nodata).collect();
+        let suit: Vec<f64> = band
+            .read_as::<f64>((0, 0), (w, h), (w, h), None)
+            .unwrap()
+            .data()
+            .to_vec();
+        let data: Vec<bool> = suit
+            .iter()
+            .map(|&v| v.is_finite() && Some(v) != nodata)
+            .collect();
         // M: GDAL rasterises the polygons (a cell is in when its centre is).
         let mut mem = gdal::DriverManager::get_driver_by_name("MEM")
             .unwrap()
@@ -47,11 +54,21 @@ impl Recount {
             .unwrap();
         mem.set_geo_transform(&gt).unwrap();
         let poly = Dataset::open(demo("accessible.geojson")).unwrap();
-        let geoms: Vec<gdal::vector::Geometry> =
-            poly.layer(0).unwrap().features().map(|f| f.geometry().unwrap().clone()).collect();
+        let geoms: Vec<gdal::vector::Geometry> = poly
+            .layer(0)
+            .unwrap()
+            .features()
+            .map(|f| f.geometry().unwrap().clone())
+            .collect();
         let burn = vec![1.0; geoms.len()];
         gdal::raster::rasterize(&mut mem, &[1], &geoms, &burn, None).unwrap();
-        let in_m = mem.rasterband(1).unwrap().read_as::<u8>((0, 0), (w, h), (w, h), None).unwrap().data().to_vec();
+        let in_m = mem
+            .rasterband(1)
+            .unwrap()
+            .read_as::<u8>((0, 0), (w, h), (w, h), None)
+            .unwrap()
+            .data()
+            .to_vec();
         let dlon = gt[1].abs().to_radians();
         let row_area_km2 = (0..h)
             .map(|r| {
@@ -71,7 +88,14 @@ impl Recount {
                 }
             }
         }
-        Recount { values: cells.into_values().collect(), suit, data, in_m, row_area_km2, w }
+        Recount {
+            values: cells.into_values().collect(),
+            suit,
+            data,
+            in_m,
+            row_area_km2,
+            w,
+        }
     }
 
     /// (T, k, suitable km2, inside M km2) for E percent.
@@ -96,10 +120,20 @@ impl Recount {
 
 fn run_demo(out: &std::path::Path) -> serde_json::Value {
     let o = run(&[
-        "range", "--suitability", demo("suitability.tif").to_str().unwrap(), "--records",
-        demo("records.csv").to_str().unwrap(), "--omission", "5", "--accessible",
-        demo("accessible.geojson").to_str().unwrap(), "--no-metrics", "--no-report", "--out",
-        out.to_str().unwrap(), "--quiet",
+        "range",
+        "--suitability",
+        demo("suitability.tif").to_str().unwrap(),
+        "--records",
+        demo("records.csv").to_str().unwrap(),
+        "--omission",
+        "5",
+        "--accessible",
+        demo("accessible.geojson").to_str().unwrap(),
+        "--no-metrics",
+        "--no-report",
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
     json(&out.join("summary.json"))
@@ -118,9 +152,18 @@ fn the_recount_at_the_runs_own_e_gives_the_runs_areas() {
     let r = Recount::demo(&out);
     let (th, k, all, inside) = r.at(5.0);
     assert_eq!(th, s["threshold"]["value"].as_f64().unwrap());
-    assert_eq!(k as u64, s["threshold"]["records_dropped"].as_u64().unwrap());
-    assert!(rel(all, s["area_km2"]["suitable"].as_f64().unwrap()) <= 1e-9, "suitable {all}");
-    assert!(rel(inside, s["area_km2"]["inside_accessible"].as_f64().unwrap()) <= 1e-9, "inside {inside}");
+    assert_eq!(
+        k as u64,
+        s["threshold"]["records_dropped"].as_u64().unwrap()
+    );
+    assert!(
+        rel(all, s["area_km2"]["suitable"].as_f64().unwrap()) <= 1e-9,
+        "suitable {all}"
+    );
+    assert!(
+        rel(inside, s["area_km2"]["inside_accessible"].as_f64().unwrap()) <= 1e-9,
+        "inside {inside}"
+    );
 }
 
 #[test]
@@ -131,7 +174,10 @@ fn sensitivity_rows_equal_an_independent_recount() {
     let s = run_demo(&out);
     let r = Recount::demo(&out);
     let rows = s["sensitivity"].as_array().expect("sensitivity is a list");
-    let es: Vec<f64> = rows.iter().map(|x| x["omission_percent"].as_f64().unwrap()).collect();
+    let es: Vec<f64> = rows
+        .iter()
+        .map(|x| x["omission_percent"].as_f64().unwrap())
+        .collect();
     for e in [0.0, 1.0, 2.0, 5.0, 10.0] {
         assert!(es.contains(&e), "no row for E = {e}%: {es:?}");
     }
@@ -139,12 +185,28 @@ fn sensitivity_rows_equal_an_independent_recount() {
         let e = row["omission_percent"].as_f64().unwrap();
         let (th, k, all, inside) = r.at(e);
         assert_eq!(row["threshold"].as_f64().unwrap(), th, "T at E = {e}");
-        assert_eq!(row["records_dropped"].as_u64().unwrap(), k as u64, "k at E = {e}");
-        assert!(rel(row["area_km2_suitable"].as_f64().unwrap(), all) <= 1e-9, "suitable at E = {e}");
-        assert!(rel(row["area_km2_inside_accessible"].as_f64().unwrap(), inside) <= 1e-9, "inside at E = {e}");
+        assert_eq!(
+            row["records_dropped"].as_u64().unwrap(),
+            k as u64,
+            "k at E = {e}"
+        );
+        assert!(
+            rel(row["area_km2_suitable"].as_f64().unwrap(), all) <= 1e-9,
+            "suitable at E = {e}"
+        );
+        assert!(
+            rel(row["area_km2_inside_accessible"].as_f64().unwrap(), inside) <= 1e-9,
+            "inside at E = {e}"
+        );
     }
     // The run's own E: its row equals the run's areas.
-    let own = rows.iter().find(|x| x["omission_percent"].as_f64() == Some(5.0)).unwrap();
+    let own = rows
+        .iter()
+        .find(|x| x["omission_percent"].as_f64() == Some(5.0))
+        .unwrap();
     assert_eq!(own["area_km2_suitable"], s["area_km2"]["suitable"]);
-    assert_eq!(own["area_km2_inside_accessible"], s["area_km2"]["inside_accessible"]);
+    assert_eq!(
+        own["area_km2_inside_accessible"],
+        s["area_km2"]["inside_accessible"]
+    );
 }

@@ -12,16 +12,24 @@ fn rgb(c: Rgb) -> RGBColor {
 }
 
 /// Renders into a fresh SVG string; a plotters failure leaves a note instead of a chart.
-fn svg(draw: impl FnOnce(&DrawingArea<SVGBackend, plotters::coord::Shift>) -> Result<(), String>) -> String {
+fn svg(
+    draw: impl FnOnce(&DrawingArea<SVGBackend, plotters::coord::Shift>) -> Result<(), String>,
+) -> String {
     let mut s = String::new();
     let res = {
         let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
-        let r = root.fill(&WHITE).map_err(|e| e.to_string()).and_then(|_| draw(&root));
+        let r = root
+            .fill(&WHITE)
+            .map_err(|e| e.to_string())
+            .and_then(|_| draw(&root));
         r.and_then(|_| root.present().map_err(|e| e.to_string()))
     };
     match res {
         Ok(()) => s,
-        Err(e) => format!("<p class=\"note\">chart not drawn: {}</p>", super::page::escape(&e)),
+        Err(e) => format!(
+            "<p class=\"note\">chart not drawn: {}</p>",
+            super::page::escape(&e)
+        ),
     }
 }
 
@@ -60,7 +68,12 @@ pub fn records_chart(records: &[MapRecord], t: f64) -> Option<String> {
         ))
         .map_err(|e| e.to_string())?
         .label(format!("T = {t:.4}"))
-        .legend(|(x, y)| PathElement::new([(x, y), (x + 16, y)], rgb(palette::ACCESSIBLE).stroke_width(2)));
+        .legend(|(x, y)| {
+            PathElement::new(
+                [(x, y), (x + 16, y)],
+                rgb(palette::ACCESSIBLE).stroke_width(2),
+            )
+        });
         c.draw_series(
             v.iter()
                 .enumerate()
@@ -70,12 +83,13 @@ pub fn records_chart(records: &[MapRecord], t: f64) -> Option<String> {
         .map_err(|e| e.to_string())?
         .label("used")
         .legend(|(x, y)| Circle::new((x + 8, y), 3, rgb(palette::INK).filled()));
-        c.draw_series(
-            v.iter()
-                .enumerate()
-                .filter(|(_, p)| p.1)
-                .map(|(i, p)| Cross::new((i as f64 + 1.0, p.0), 5, rgb(palette::DROPPED).stroke_width(2))),
-        )
+        c.draw_series(v.iter().enumerate().filter(|(_, p)| p.1).map(|(i, p)| {
+            Cross::new(
+                (i as f64 + 1.0, p.0),
+                5,
+                rgb(palette::DROPPED).stroke_width(2),
+            )
+        }))
         .map_err(|e| e.to_string())?
         .label("dropped by the threshold")
         .legend(|(x, y)| Cross::new((x + 8, y), 5, rgb(palette::DROPPED).stroke_width(2)));
@@ -108,7 +122,12 @@ pub fn sensitivity_chart(rows: &[Sensitivity], chosen: Option<f64>) -> Option<St
     let mut rows = rows.to_vec();
     rows.sort_by(|a, b| a.e.total_cmp(&b.e));
     let emax = rows.iter().map(|r| r.e).fold(0.0, f64::max).max(1.0) * 1.05;
-    let amax = rows.iter().map(|r| r.suitable.max(r.inside)).fold(0.0, f64::max).max(1e-9) * 1.1;
+    let amax = rows
+        .iter()
+        .map(|r| r.suitable.max(r.inside))
+        .fold(0.0, f64::max)
+        .max(1e-9)
+        * 1.1;
     Some(svg(|root| {
         let mut c = ChartBuilder::on(root)
             .margin(10)
@@ -125,21 +144,38 @@ pub fn sensitivity_chart(rows: &[Sensitivity], chosen: Option<f64>) -> Option<St
             .draw()
             .map_err(|e| e.to_string())?;
         if let Some(e) = chosen {
-            c.draw_series(LineSeries::new([(e, 0.0), (e, amax)], rgb(palette::GRATICULE).stroke_width(1)))
-                .map_err(|e| e.to_string())?
-                .label(format!("E of this run ({e}%)"))
-                .legend(|(x, y)| PathElement::new([(x, y), (x + 16, y)], rgb(palette::GRATICULE)));
+            c.draw_series(LineSeries::new(
+                [(e, 0.0), (e, amax)],
+                rgb(palette::GRATICULE).stroke_width(1),
+            ))
+            .map_err(|e| e.to_string())?
+            .label(format!("E of this run ({e}%)"))
+            .legend(|(x, y)| PathElement::new([(x, y), (x + 16, y)], rgb(palette::GRATICULE)));
         }
         for (name, col, get) in [
-            ("suitable, all", palette::OUTSIDE, (|r: &Sensitivity| r.suitable) as fn(&Sensitivity) -> f64),
-            ("suitable inside M", palette::INSIDE, |r: &Sensitivity| r.inside),
+            (
+                "suitable, all",
+                palette::OUTSIDE,
+                (|r: &Sensitivity| r.suitable) as fn(&Sensitivity) -> f64,
+            ),
+            ("suitable inside M", palette::INSIDE, |r: &Sensitivity| {
+                r.inside
+            }),
         ] {
-            c.draw_series(LineSeries::new(rows.iter().map(|r| (r.e, get(r))), rgb(col).stroke_width(2)))
-                .map_err(|e| e.to_string())?
-                .label(name)
-                .legend(move |(x, y)| PathElement::new([(x, y), (x + 16, y)], rgb(col).stroke_width(2)));
-            c.draw_series(rows.iter().map(|r| Circle::new((r.e, get(r)), 3, rgb(col).filled())))
-                .map_err(|e| e.to_string())?;
+            c.draw_series(LineSeries::new(
+                rows.iter().map(|r| (r.e, get(r))),
+                rgb(col).stroke_width(2),
+            ))
+            .map_err(|e| e.to_string())?
+            .label(name)
+            .legend(move |(x, y)| {
+                PathElement::new([(x, y), (x + 16, y)], rgb(col).stroke_width(2))
+            });
+            c.draw_series(
+                rows.iter()
+                    .map(|r| Circle::new((r.e, get(r)), 3, rgb(col).filled())),
+            )
+            .map_err(|e| e.to_string())?;
         }
         c.configure_series_labels()
             .position(SeriesLabelPosition::UpperRight)
@@ -169,7 +205,13 @@ pub fn patch_chart(patches: &[PatchInfo]) -> Option<String> {
         let b = (((l - lo) * 2.0).floor() as usize).min(nb - 1);
         counts[b][usize::from(k == 2)] += 1;
     }
-    let ymax = counts.iter().flat_map(|c| c.iter()).copied().max().unwrap_or(1) + 1;
+    let ymax = counts
+        .iter()
+        .flat_map(|c| c.iter())
+        .copied()
+        .max()
+        .unwrap_or(1)
+        + 1;
     Some(svg(|root| {
         let mut c = ChartBuilder::on(root)
             .margin(10)
@@ -186,11 +228,23 @@ pub fn patch_chart(patches: &[PatchInfo]) -> Option<String> {
             .light_line_style(WHITE)
             .draw()
             .map_err(|e| e.to_string())?;
-        for (k, name, col) in [(0usize, "class 1, inside M", palette::INSIDE), (1, "class 2, beyond M", palette::OUTSIDE)] {
-            c.draw_series(counts.iter().enumerate().filter(|(_, n)| n[k] > 0).map(|(b, n)| {
-                let a = lo + b as f64 * 0.5 + k as f64 * 0.25;
-                Rectangle::new([(10f64.powf(a), 0), (10f64.powf(a + 0.25), n[k])], rgb(col).filled())
-            }))
+        for (k, name, col) in [
+            (0usize, "class 1, inside M", palette::INSIDE),
+            (1, "class 2, beyond M", palette::OUTSIDE),
+        ] {
+            c.draw_series(
+                counts
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, n)| n[k] > 0)
+                    .map(|(b, n)| {
+                        let a = lo + b as f64 * 0.5 + k as f64 * 0.25;
+                        Rectangle::new(
+                            [(10f64.powf(a), 0), (10f64.powf(a + 0.25), n[k])],
+                            rgb(col).filled(),
+                        )
+                    }),
+            )
             .map_err(|e| e.to_string())?
             .label(name)
             .legend(move |(x, y)| Rectangle::new([(x, y - 5), (x + 12, y + 5)], rgb(col).filled()));
@@ -210,7 +264,11 @@ pub fn reach_chart(patches: &[PatchInfo]) -> Option<String> {
     if patches.iter().all(|p| p.reachable.is_none()) {
         return None;
     }
-    let max_j = patches.iter().filter_map(|p| p.reach_jumps).max().unwrap_or(0) as usize;
+    let max_j = patches
+        .iter()
+        .filter_map(|p| p.reach_jumps)
+        .max()
+        .unwrap_or(0) as usize;
     let groups = max_j + 2; // 0..=max_j, then "not reached"
     let mut counts = vec![[0u32; 2]; groups];
     for p in patches {
@@ -220,7 +278,13 @@ pub fn reach_chart(patches: &[PatchInfo]) -> Option<String> {
         };
         counts[g][usize::from(p.class == 2)] += 1;
     }
-    let ymax = counts.iter().flat_map(|c| c.iter()).copied().max().unwrap_or(1) + 1;
+    let ymax = counts
+        .iter()
+        .flat_map(|c| c.iter())
+        .copied()
+        .max()
+        .unwrap_or(1)
+        + 1;
     Some(svg(|root| {
         let mut c = ChartBuilder::on(root)
             .margin(10)
@@ -235,17 +299,32 @@ pub fn reach_chart(patches: &[PatchInfo]) -> Option<String> {
             .x_labels(groups.min(12))
             .x_label_formatter(&|v| {
                 let i = v.round() as usize;
-                if (v - v.round()).abs() > 1e-6 { String::new() } else if i + 1 == groups { "none".into() } else { i.to_string() }
+                if (v - v.round()).abs() > 1e-6 {
+                    String::new()
+                } else if i + 1 == groups {
+                    "none".into()
+                } else {
+                    i.to_string()
+                }
             })
             .label_style(("sans-serif", 15))
             .light_line_style(WHITE)
             .draw()
             .map_err(|e| e.to_string())?;
-        for (k, name, col) in [(0usize, "class 1, inside M", palette::INSIDE), (1, "class 2, beyond M", palette::OUTSIDE)] {
-            c.draw_series(counts.iter().enumerate().filter(|(_, n)| n[k] > 0).map(|(g, n)| {
-                let x = g as f64 - 0.4 + k as f64 * 0.4;
-                Rectangle::new([(x, 0), (x + 0.4, n[k])], rgb(col).filled())
-            }))
+        for (k, name, col) in [
+            (0usize, "class 1, inside M", palette::INSIDE),
+            (1, "class 2, beyond M", palette::OUTSIDE),
+        ] {
+            c.draw_series(
+                counts
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, n)| n[k] > 0)
+                    .map(|(g, n)| {
+                        let x = g as f64 - 0.4 + k as f64 * 0.4;
+                        Rectangle::new([(x, 0), (x + 0.4, n[k])], rgb(col).filled())
+                    }),
+            )
             .map_err(|e| e.to_string())?
             .label(name)
             .legend(move |(x, y)| Rectangle::new([(x, y - 5), (x + 12, y + 5)], rgb(col).filled()));

@@ -87,7 +87,14 @@ fn blit(pm: &mut Pixmap, img: &ClassImage, x0: usize, y0: usize, s: usize) {
 }
 
 /// The pixel edges between M and not-M, as one path.
-fn access_outline(m: &[bool], iw: usize, ih: usize, x0: f32, y0: f32, s: f32) -> Option<tiny_skia::Path> {
+fn access_outline(
+    m: &[bool],
+    iw: usize,
+    ih: usize,
+    x0: f32,
+    y0: f32,
+    s: f32,
+) -> Option<tiny_skia::Path> {
     let mut pb = PathBuilder::new();
     let at = |c: usize, r: usize| m[r * iw + c];
     for r in 0..ih {
@@ -135,7 +142,12 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
     let id = Transform::identity();
     let mut clip = Mask::new(width as u32, height as u32).expect("mask size");
     let panel_rect = Rect::from_xywh(x0 as f32, y0 as f32, pw as f32, ph as f32).expect("panel");
-    clip.fill_path(&PathBuilder::from_rect(panel_rect), FillRule::Winding, false, id);
+    clip.fill_path(
+        &PathBuilder::from_rect(panel_rect),
+        FillRule::Winding,
+        false,
+        id,
+    );
     let geo = MapGeo::new(input.grid, img.window)?;
     let sf = s as f32;
     let to_png = |x: f64, y: f64| (x0 as f32 + x as f32 * sf, y0 as f32 + y as f32 * sf);
@@ -152,8 +164,16 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
     if !corners.is_empty() {
         let lon_min = corners.iter().map(|p| p.0).fold(f64::MAX, f64::min);
         let lon_max = corners.iter().map(|p| p.0).fold(f64::MIN, f64::max);
-        let lat_min = corners.iter().map(|p| p.1).fold(f64::MAX, f64::min).max(-90.0);
-        let lat_max = corners.iter().map(|p| p.1).fold(f64::MIN, f64::max).min(90.0);
+        let lat_min = corners
+            .iter()
+            .map(|p| p.1)
+            .fold(f64::MAX, f64::min)
+            .max(-90.0);
+        let lat_max = corners
+            .iter()
+            .map(|p| p.1)
+            .fold(f64::MIN, f64::max)
+            .min(90.0);
         let step = graticule_step((lon_max - lon_min).max(lat_max - lat_min));
         let line_paint = paint(palette::GRATICULE, 150);
         let mut labels: Vec<(String, f32, f32, f32)> = Vec::new();
@@ -184,7 +204,10 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
                 }
                 // Label where the line meets the bottom (longitude) or left (latitude) edge.
                 let inside = |p: &&(f32, f32)| {
-                    p.0 >= x0 as f32 && p.0 <= (x0 + pw) as f32 && p.1 >= y0 as f32 && p.1 <= (y0 + ph) as f32
+                    p.0 >= x0 as f32
+                        && p.0 <= (x0 + pw) as f32
+                        && p.1 >= y0 as f32
+                        && p.1 <= (y0 + ph) as f32
                 };
                 if is_lon {
                     if let Some(p) = pts.iter().filter(inside).max_by(|p, q| p.1.total_cmp(&q.1)) {
@@ -192,7 +215,8 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
                             labels.push((degree_label(v, true), p.0, (y0 + ph) as f32 + 15.0, 0.5));
                         }
                     }
-                } else if let Some(p) = pts.iter().filter(inside).min_by(|p, q| p.0.total_cmp(&q.0)) {
+                } else if let Some(p) = pts.iter().filter(inside).min_by(|p, q| p.0.total_cmp(&q.0))
+                {
                     if p.0 < x0 as f32 + 0.2 * pw as f32 {
                         labels.push((degree_label(v, false), x0 as f32 - 5.0, p.1 + 4.0, 1.0));
                     }
@@ -208,7 +232,13 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
     // M outline.
     if let Some(m) = input.access {
         if let Some(path) = access_outline(m, img.cols, img.rows, x0 as f32, y0 as f32, sf) {
-            pm.stroke_path(&path, &paint(palette::ACCESSIBLE, 255), &stroke(2.0), id, Some(&clip));
+            pm.stroke_path(
+                &path,
+                &paint(palette::ACCESSIBLE, 255),
+                &stroke(2.0),
+                id,
+                Some(&clip),
+            );
         }
     }
 
@@ -229,25 +259,54 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
         }
     }
     // Frame.
-    pm.stroke_path(&PathBuilder::from_rect(panel_rect), &paint(palette::INK, 255), &stroke(1.0), id, None);
+    pm.stroke_path(
+        &PathBuilder::from_rect(panel_rect),
+        &paint(palette::INK, 255),
+        &stroke(1.0),
+        id,
+        None,
+    );
 
     // Title.
-    text::draw(&mut pm, &input.title, LEFT as f32, 26.0, 16.0, palette::INK, 0.0);
+    text::draw(
+        &mut pm,
+        &input.title,
+        LEFT as f32,
+        26.0,
+        16.0,
+        palette::INK,
+        0.0,
+    );
 
     // Legend.
     let ly = (TOP + ph + BELOW_PANEL) as f32 + 6.0;
     let lx = LEFT as f32;
     let rows: [(Rgb, String); 4] = [
-        (palette::INSIDE, format!("suitable inside M: {} km²", fmt_num(input.areas_km2[1], 1))),
-        (palette::OUTSIDE, format!("suitable beyond M: {} km²", fmt_num(input.areas_km2[2], 1))),
-        (palette::UNSUITABLE, format!("below threshold: {} km²", fmt_num(input.areas_km2[0], 1))),
+        (
+            palette::INSIDE,
+            format!("suitable inside M: {} km²", fmt_num(input.areas_km2[1], 1)),
+        ),
+        (
+            palette::OUTSIDE,
+            format!("suitable beyond M: {} km²", fmt_num(input.areas_km2[2], 1)),
+        ),
+        (
+            palette::UNSUITABLE,
+            format!("below threshold: {} km²", fmt_num(input.areas_km2[0], 1)),
+        ),
         (palette::NODATA, "no data".to_string()),
     ];
     for (i, (c, t)) in rows.iter().enumerate() {
         let y = ly + i as f32 * 20.0;
         let r = Rect::from_xywh(lx, y, 16.0, 14.0).expect("swatch");
         pm.fill_rect(r, &paint(*c, 255), id, None);
-        pm.stroke_path(&PathBuilder::from_rect(r), &paint(palette::GRATICULE, 255), &stroke(1.0), id, None);
+        pm.stroke_path(
+            &PathBuilder::from_rect(r),
+            &paint(palette::GRATICULE, 255),
+            &stroke(1.0),
+            id,
+            None,
+        );
         text::draw(&mut pm, t, lx + 24.0, y + 12.0, 12.0, palette::INK, 0.0);
     }
     let lx2 = lx + 300.0;
@@ -257,8 +316,20 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
     if let Some(p) = pb.finish() {
         pm.stroke_path(&p, &paint(palette::ACCESSIBLE, 255), &stroke(2.0), id, None);
     }
-    let m_text = if input.access.is_some() { "accessible area M" } else { "M: the whole raster" };
-    text::draw(&mut pm, m_text, lx2 + 24.0, ly + 12.0, 12.0, palette::INK, 0.0);
+    let m_text = if input.access.is_some() {
+        "accessible area M"
+    } else {
+        "M: the whole raster"
+    };
+    text::draw(
+        &mut pm,
+        m_text,
+        lx2 + 24.0,
+        ly + 12.0,
+        12.0,
+        palette::INK,
+        0.0,
+    );
     for (i, (kind, t)) in [
         ("used", "record used"),
         ("below_threshold", "record dropped by the threshold"),
@@ -285,8 +356,19 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
         if let Some(p) = pb.finish() {
             pm.stroke_path(&p, &paint(palette::INK, 255), &stroke(1.5), id, None);
         }
-        let label = format!("{} km (true at the map centre)", fmt_num(len_km, if len_km < 1.0 { 2 } else { 0 }));
-        text::draw(&mut pm, &label, bx + len_px + 8.0, by + 1.0, 12.0, palette::INK, 0.0);
+        let label = format!(
+            "{} km (true at the map centre)",
+            fmt_num(len_km, if len_km < 1.0 { 2 } else { 0 })
+        );
+        text::draw(
+            &mut pm,
+            &label,
+            bx + len_px + 8.0,
+            by + 1.0,
+            12.0,
+            palette::INK,
+            0.0,
+        );
     }
     // Locator of the whole raster with the frame.
     if let Some(loc) = input.locator {
@@ -296,7 +378,13 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
         let ly0 = ly as usize;
         blit(&mut pm, loc, lx0, ly0, ls);
         let lr = Rect::from_xywh(lx0 as f32, ly0 as f32, lw as f32, lh as f32).expect("locator");
-        pm.stroke_path(&PathBuilder::from_rect(lr), &paint(palette::INK, 255), &stroke(1.0), id, None);
+        pm.stroke_path(
+            &PathBuilder::from_rect(lr),
+            &paint(palette::INK, 255),
+            &stroke(1.0),
+            id,
+            None,
+        );
         let w = img.window;
         let (lf, gw) = (loc.window.factor as f32 * 1.0, input.grid.width);
         let fx = |c: usize| lx0 as f32 + (c % gw.max(1)) as f32 / lf * ls as f32;
@@ -312,10 +400,24 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
         };
         for shift in [0.0, -(lw as f32)] {
             if let Some(r) = Rect::from_xywh(ax + shift, ay, fw, fh) {
-                pm.stroke_path(&PathBuilder::from_rect(r), &paint(palette::DROPPED, 255), &stroke(2.0), id, Some(&loc_clip));
+                pm.stroke_path(
+                    &PathBuilder::from_rect(r),
+                    &paint(palette::DROPPED, 255),
+                    &stroke(2.0),
+                    id,
+                    Some(&loc_clip),
+                );
             }
         }
-        text::draw(&mut pm, "whole raster", (lx0 + lw / 2) as f32, ly0 as f32 + lh as f32 + 13.0, 11.0, palette::INK, 0.5);
+        text::draw(
+            &mut pm,
+            "whole raster",
+            (lx0 + lw / 2) as f32,
+            ly0 as f32 + lh as f32 + 13.0,
+            11.0,
+            palette::INK,
+            0.5,
+        );
     }
     let png = pm.encode_png().map_err(|e| Error::Processing {
         what: "map".into(),

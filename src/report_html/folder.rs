@@ -46,17 +46,26 @@ pub fn run_report(dir: &Path) -> Result<Vec<PathBuf>> {
     }
     let summary_path = dir.join("summary.json");
     let text = std::fs::read_to_string(&summary_path).map_err(Error::input_io(&summary_path))?;
-    let summary: Value = serde_json::from_str(&text)
-        .map_err(|e| bad(&summary_path, format!("is not valid JSON ({e}); give the summary.json areal wrote")))?;
+    let summary: Value = serde_json::from_str(&text).map_err(|e| {
+        bad(
+            &summary_path,
+            format!("is not valid JSON ({e}); give the summary.json areal wrote"),
+        )
+    })?;
     let classes_path = dir.join("classes.tif");
     let raster = SuitabilityRaster::open(&classes_path)?;
     let grid = raster.grid().clone();
     let num = |p: &str| {
         summary.pointer(p).and_then(Value::as_f64).ok_or_else(|| {
-            bad(&summary_path, format!("has no number at {p}; give the summary.json areal wrote"))
+            bad(
+                &summary_path,
+                format!("has no number at {p}; give the summary.json areal wrote"),
+            )
         })
     };
-    if num("/inputs/width")? as usize != grid.width || num("/inputs/height")? as usize != grid.height {
+    if num("/inputs/width")? as usize != grid.width
+        || num("/inputs/height")? as usize != grid.height
+    {
         return Err(bad(
             &summary_path,
             format!(
@@ -83,7 +92,11 @@ pub fn run_report(dir: &Path) -> Result<Vec<PathBuf>> {
             let row_areas = areas.row_allow_outside(y0 + r)?;
             let mut sums = [0f64; 3];
             for (c, &v) in line.iter().enumerate() {
-                let k = if raster.is_data(v) { v } else { class::NODATA as f64 };
+                let k = if raster.is_data(v) {
+                    v
+                } else {
+                    class::NODATA as f64
+                };
                 let k = match k {
                     0.0 => 0u8,
                     1.0 => 1,
@@ -113,7 +126,15 @@ pub fn run_report(dir: &Path) -> Result<Vec<PathBuf>> {
             runs.push_row(&codes);
         }
     }
-    for (k, key) in ["unsuitable", "inside_accessible", "outside_accessible", "nodata"].iter().enumerate() {
+    for (k, key) in [
+        "unsuitable",
+        "inside_accessible",
+        "outside_accessible",
+        "nodata",
+    ]
+    .iter()
+    .enumerate()
+    {
         let want = num(&format!("/cells/{key}"))?;
         if want != cells[k] as f64 {
             return Err(bad(
@@ -122,7 +143,10 @@ pub fn run_report(dir: &Path) -> Result<Vec<PathBuf>> {
             ));
         }
     }
-    for (k, key) in ["unsuitable", "inside_accessible", "outside_accessible"].iter().enumerate() {
+    for (k, key) in ["unsuitable", "inside_accessible", "outside_accessible"]
+        .iter()
+        .enumerate()
+    {
         let want = num(&format!("/area_km2/{key}"))?;
         let got = area_m2[k] / 1e6;
         if (want - got).abs() > 1e-9 * want.abs().max(got.abs()).max(1e-300) {
@@ -136,7 +160,11 @@ pub fn run_report(dir: &Path) -> Result<Vec<PathBuf>> {
     if num("/records/total")? as usize != records.len() {
         return Err(bad(
             &summary_path,
-            format!("counts {} records but records.csv holds {}; the files come from different runs", num("/records/total")?, records.len()),
+            format!(
+                "counts {} records but records.csv holds {}; the files come from different runs",
+                num("/records/total")?,
+                records.len()
+            ),
         ));
     }
     let patches = read_patches(&dir.join("patches.csv"))?;
@@ -150,13 +178,26 @@ pub fn run_report(dir: &Path) -> Result<Vec<PathBuf>> {
         }
     }
     // M, rebuilt from the options the run recorded.
-    let whole = summary.pointer("/accessible/whole_raster").and_then(Value::as_bool).unwrap_or(false);
+    let whole = summary
+        .pointer("/accessible/whole_raster")
+        .and_then(Value::as_bool)
+        .unwrap_or(false);
     let spec = AccessSpec {
-        polygon: summary.pointer("/accessible/polygon").and_then(Value::as_str).map(PathBuf::from),
-        buffer_km: summary.pointer("/accessible/buffer_km").and_then(Value::as_f64),
-        hull_buffer_km: summary.pointer("/accessible/hull_buffer_km").and_then(Value::as_f64),
+        polygon: summary
+            .pointer("/accessible/polygon")
+            .and_then(Value::as_str)
+            .map(PathBuf::from),
+        buffer_km: summary
+            .pointer("/accessible/buffer_km")
+            .and_then(Value::as_f64),
+        hull_buffer_km: summary
+            .pointer("/accessible/hull_buffer_km")
+            .and_then(Value::as_f64),
     };
-    let description = summary.pointer("/accessible/description").and_then(Value::as_str).unwrap_or("");
+    let description = summary
+        .pointer("/accessible/description")
+        .and_then(Value::as_str)
+        .unwrap_or("");
     if !whole && spec == AccessSpec::default() {
         return Err(bad(
             &summary_path,
@@ -191,7 +232,10 @@ pub fn run_report(dir: &Path) -> Result<Vec<PathBuf>> {
 /// Write map.png and report.html into `dir`, each through a temporary name and a rename.
 pub fn write_files(dir: &Path, files: &super::ReportFiles) -> Result<Vec<PathBuf>> {
     let mut done = Vec::new();
-    let items: [(&str, &[u8]); 2] = [("map.png", &files.map_png), ("report.html", files.html.as_bytes())];
+    let items: [(&str, &[u8]); 2] = [
+        ("map.png", &files.map_png),
+        ("report.html", files.html.as_bytes()),
+    ];
     let mut tmps = Vec::new();
     for (name, bytes) in items {
         let tmp = dir.join(format!(".{name}.areal-tmp-{}", std::process::id()));
@@ -200,7 +244,10 @@ pub fn write_files(dir: &Path, files: &super::ReportFiles) -> Result<Vec<PathBuf
                 let _ = std::fs::remove_file(t);
             }
             let _ = std::fs::remove_file(&tmp);
-            return Err(Error::Io { path: dir.join(name), source: e });
+            return Err(Error::Io {
+                path: dir.join(name),
+                source: e,
+            });
         }
         tmps.push(tmp);
     }
@@ -213,8 +260,12 @@ pub fn write_files(dir: &Path, files: &super::ReportFiles) -> Result<Vec<PathBuf
 }
 
 fn read_csv(path: &Path) -> Result<(csv::StringRecord, Vec<csv::StringRecord>)> {
-    let mut r = csv::Reader::from_path(path).map_err(|e| bad(path, format!("cannot be read as CSV: {e}")))?;
-    let head = r.headers().map_err(|e| bad(path, format!("has no CSV header: {e}")))?.clone();
+    let mut r = csv::Reader::from_path(path)
+        .map_err(|e| bad(path, format!("cannot be read as CSV: {e}")))?;
+    let head = r
+        .headers()
+        .map_err(|e| bad(path, format!("has no CSV header: {e}")))?
+        .clone();
     let rows = r
         .records()
         .collect::<std::result::Result<Vec<_>, _>>()
@@ -223,19 +274,33 @@ fn read_csv(path: &Path) -> Result<(csv::StringRecord, Vec<csv::StringRecord>)> 
 }
 
 fn column(path: &Path, head: &csv::StringRecord, name: &str) -> Result<usize> {
-    head.iter()
-        .position(|h| h == name)
-        .ok_or_else(|| bad(path, format!("has no column {name}; give the file areal wrote")))
+    head.iter().position(|h| h == name).ok_or_else(|| {
+        bad(
+            path,
+            format!("has no column {name}; give the file areal wrote"),
+        )
+    })
 }
 
-fn field<T: std::str::FromStr>(path: &Path, row: &csv::StringRecord, i: usize, line: usize) -> Result<Option<T>> {
+fn field<T: std::str::FromStr>(
+    path: &Path,
+    row: &csv::StringRecord,
+    i: usize,
+    line: usize,
+) -> Result<Option<T>> {
     let s = row.get(i).unwrap_or("");
     if s.is_empty() {
         return Ok(None);
     }
-    s.parse()
-        .map(Some)
-        .map_err(|_| bad(path, format!("line {}: \"{s}\" is not a number; give the file areal wrote", line + 2)))
+    s.parse().map(Some).map_err(|_| {
+        bad(
+            path,
+            format!(
+                "line {}: \"{s}\" is not a number; give the file areal wrote",
+                line + 2
+            ),
+        )
+    })
 }
 
 fn read_records(path: &Path) -> Result<Vec<MapRecord>> {

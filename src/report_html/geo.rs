@@ -126,16 +126,17 @@ pub fn graticule_step(span: f64) -> f64 {
     const STEPS: [f64; 13] = [
         0.01, 0.02, 0.05, 0.1, 0.25, 0.5, 1.0, 2.0, 5.0, 10.0, 15.0, 30.0, 60.0,
     ];
-    STEPS
-        .into_iter()
-        .find(|s| span / s <= 8.0)
-        .unwrap_or(90.0)
+    STEPS.into_iter().find(|s| span / s <= 8.0).unwrap_or(90.0)
 }
 
 /// A degree label: `20°E`, `5.5°S`, `0°`, `180°`.
 pub fn degree_label(v: f64, is_lon: bool) -> String {
     let v = if is_lon { normalise_lon(v) } else { v };
-    let v = if is_lon && (v + 180.0).abs() < 1e-9 { 180.0 } else { v };
+    let v = if is_lon && (v + 180.0).abs() < 1e-9 {
+        180.0
+    } else {
+        v
+    };
     let a = v.abs();
     let num = if (a - a.round()).abs() < 1e-9 {
         format!("{}", a.round())
@@ -199,7 +200,10 @@ pub fn choose_frame(
         let last = col_bins.iter().rposition(|&b| b).unwrap_or(nb - 1);
         (first, last + 1)
     };
-    let (mut c0, mut c1) = (b0 * bin, (b1 * bin).min(if wraps { b0 * bin + w } else { w }));
+    let (mut c0, mut c1) = (
+        b0 * bin,
+        (b1 * bin).min(if wraps { b0 * bin + w } else { w }),
+    );
     let (mut rr0, mut rr1) = (r0, r1 + 1);
     // Pad by 8% of the larger side (at least 2 cells).
     let pad = ((c1 - c0).max(rr1 - rr0) as f64 * 0.08).ceil() as usize + 2;

@@ -5,7 +5,7 @@
 //! class present in the block: class 1 > class 2 > class 0 > nodata, so a class-1 patch of a
 //! single cell still colours its pixel, however large the grid.
 
-use super::runs::{Run, RowRuns};
+use super::runs::{RowRuns, Run};
 use crate::raster_io::class;
 use crate::Result;
 
@@ -118,7 +118,10 @@ impl ClassImage {
             cols: iw,
             rows: ih,
             window,
-            pixels: ranks.into_iter().map(|k| CLASS_OF_RANK[k as usize]).collect(),
+            pixels: ranks
+                .into_iter()
+                .map(|k| CLASS_OF_RANK[k as usize])
+                .collect(),
         }
     }
 
@@ -134,7 +137,12 @@ impl ClassImage {
 
 /// The window columns (relative to `col0`) of grid columns `start..end`: up to two
 /// half-open intervals.
-fn clip(start: usize, end: usize, w: &Window, width: usize) -> impl Iterator<Item = (usize, usize)> {
+fn clip(
+    start: usize,
+    end: usize,
+    w: &Window,
+    width: usize,
+) -> impl Iterator<Item = (usize, usize)> {
     let mut out = [(0, 0); 2];
     let mut n = 0;
     // The window covers grid columns col0..col0+cols, and on a wrapping grid also their
@@ -164,13 +172,20 @@ impl AccessRows for crate::access::AccessMask {
 
 /// M on the image's pixels: a pixel is in M when the cell at its block's centre is.
 /// Rows are asked in increasing order.
-pub fn access_image(m: &mut dyn AccessRows, window: &Window, width: usize, height: usize) -> Result<Vec<bool>> {
+pub fn access_image(
+    m: &mut dyn AccessRows,
+    window: &Window,
+    width: usize,
+    height: usize,
+) -> Result<Vec<bool>> {
     let (iw, ih) = window.image_size();
     let f = window.factor;
     let mut row = vec![false; width];
     let mut out = vec![false; iw * ih];
     for r in 0..ih {
-        let gr = (window.row0 + r * f + f / 2).min(window.row0 + window.rows - 1).min(height - 1);
+        let gr = (window.row0 + r * f + f / 2)
+            .min(window.row0 + window.rows - 1)
+            .min(height - 1);
         m.access_row(gr, &mut row)?;
         for c in 0..iw {
             let wc = (c * f + f / 2).min(window.cols - 1);
@@ -217,7 +232,16 @@ mod tests {
         let mut runs = ClassRuns::new(4);
         runs.push_row(&[255, 255, 255, 255]);
         runs.push_row(&[255, 255, 0, 255]);
-        let img = ClassImage::build(&runs, Window { col0: 0, row0: 0, cols: 4, rows: 2, factor: 2 });
+        let img = ClassImage::build(
+            &runs,
+            Window {
+                col0: 0,
+                row0: 0,
+                cols: 4,
+                rows: 2,
+                factor: 2,
+            },
+        );
         assert_eq!(img.pixels, vec![255, 0]);
     }
 
@@ -226,7 +250,16 @@ mod tests {
         // 10 columns; window of 4 columns starting at column 8: columns 8, 9, 0, 1.
         let mut runs = ClassRuns::new(10);
         runs.push_row(&[1, 0, 0, 0, 0, 0, 0, 0, 0, 2]);
-        let img = ClassImage::build(&runs, Window { col0: 8, row0: 0, cols: 4, rows: 1, factor: 1 });
+        let img = ClassImage::build(
+            &runs,
+            Window {
+                col0: 8,
+                row0: 0,
+                cols: 4,
+                rows: 1,
+                factor: 1,
+            },
+        );
         assert_eq!(img.pixels, vec![0, 2, 1, 0]);
     }
 }

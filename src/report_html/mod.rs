@@ -124,7 +124,11 @@ pub struct ReportFiles {
 }
 
 /// Make the map and the page.
-pub fn render(data: &ReportData, classes: &dyn RowRuns, access: &mut AccessFactory<'_>) -> Result<ReportFiles> {
+pub fn render(
+    data: &ReportData,
+    classes: &dyn RowRuns,
+    access: &mut AccessFactory<'_>,
+) -> Result<ReportFiles> {
     let grid = &data.grid;
     let (w, h) = (grid.width, grid.height);
     let (mw, mh) = draw::PANEL_MAX;
@@ -166,7 +170,12 @@ pub fn render(data: &ReportData, classes: &dyn RowRuns, access: &mut AccessFacto
             Some(mut m) => Some(access_image(m.as_mut(), &win, w, h)?),
             None => None,
         };
-        let locator = (cols < w || nrows < h).then(|| ClassImage::build(classes, Window::fit(0, 0, w, h, draw::LOCATOR.0, draw::LOCATOR.1)));
+        let locator = (cols < w || nrows < h).then(|| {
+            ClassImage::build(
+                classes,
+                Window::fit(0, 0, w, h, draw::LOCATOR.0, draw::LOCATOR.1),
+            )
+        });
         (img, m, locator)
     };
     let s = &data.summary;
@@ -186,7 +195,11 @@ pub fn render(data: &ReportData, classes: &dyn RowRuns, access: &mut AccessFacto
         access: m.as_deref(),
         locator: locator.as_ref(),
         records: &data.records,
-        areas_km2: [km2("unsuitable"), km2("inside_accessible"), km2("outside_accessible")],
+        areas_km2: [
+            km2("unsuitable"),
+            km2("inside_accessible"),
+            km2("outside_accessible"),
+        ],
     })?;
     let html = page::page(data, &map, &image, &title)?;
     Ok(ReportFiles {
@@ -201,7 +214,9 @@ pub fn fmt_num(x: f64, decimals: usize) -> String {
         return "n/a".into();
     }
     let s = format!("{:.*}", decimals, x.abs());
-    let (int, frac) = s.split_once('.').map_or((s.as_str(), None), |(a, b)| (a, Some(b)));
+    let (int, frac) = s
+        .split_once('.')
+        .map_or((s.as_str(), None), |(a, b)| (a, Some(b)));
     let mut out = String::new();
     for (i, ch) in int.chars().enumerate() {
         if i > 0 && (int.len() - i) % 3 == 0 {

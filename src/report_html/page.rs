@@ -20,7 +20,10 @@ pub fn escape(s: &str) -> String {
 
 /// A command line argument quoted for a POSIX shell when it needs it.
 fn shell_quote(a: &str) -> String {
-    if !a.is_empty() && a.chars().all(|c| c.is_ascii_alphanumeric() || "-_./=:,+@%".contains(c)) {
+    if !a.is_empty()
+        && a.chars()
+            .all(|c| c.is_ascii_alphanumeric() || "-_./=:,+@%".contains(c))
+    {
         a.to_string()
     } else {
         format!("'{}'", a.replace('\'', "'\\''"))
@@ -33,13 +36,19 @@ struct Table {
 
 impl Table {
     fn new() -> Self {
-        Table { html: String::from("<table class=\"figures\">\n") }
+        Table {
+            html: String::from("<table class=\"figures\">\n"),
+        }
     }
     fn head(&mut self, t: &str) {
         self.html += &format!("<tr><th colspan=\"2\">{}</th></tr>\n", escape(t));
     }
     fn text(&mut self, label: &str, v: &str) {
-        self.html += &format!("<tr><td>{}</td><td>{}</td></tr>\n", escape(label), escape(v));
+        self.html += &format!(
+            "<tr><td>{}</td><td>{}</td></tr>\n",
+            escape(label),
+            escape(v)
+        );
     }
     /// A number from the summary at `pointer`, with `decimals` (None: exact).
     fn num(&mut self, s: &Value, label: &str, pointer: &str, decimals: Option<usize>, unit: &str) {
@@ -55,7 +64,11 @@ impl Table {
             escape(label),
             escape(pointer),
             shown,
-            if unit.is_empty() { String::new() } else { format!(" {unit}") }
+            if unit.is_empty() {
+                String::new()
+            } else {
+                format!(" {unit}")
+            }
         );
     }
 }
@@ -63,9 +76,17 @@ impl Table {
 /// The whole page.
 pub fn page(data: &ReportData, map: &MapPng, image: &ClassImage, title: &str) -> Result<String> {
     let s = &data.summary;
-    let str_at = |p: &str| s.pointer(p).and_then(Value::as_str).unwrap_or("").to_string();
+    let str_at = |p: &str| {
+        s.pointer(p)
+            .and_then(Value::as_str)
+            .unwrap_or("")
+            .to_string()
+    };
     let version = str_at("/areal_version");
-    let t = s.pointer("/threshold/value").and_then(Value::as_f64).unwrap_or(f64::NAN);
+    let t = s
+        .pointer("/threshold/value")
+        .and_then(Value::as_f64)
+        .unwrap_or(f64::NAN);
     let mut h = String::new();
     h += "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n";
     h += "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n";
@@ -77,9 +98,7 @@ pub fn page(data: &ReportData, map: &MapPng, image: &ClassImage, title: &str) ->
           table.figures th{background:#f2f2f2}table.figures td:first-child{width:34%}\n.num{font-variant-numeric:tabular-nums}\npre{white-space:pre-wrap;background:#f6f6f6;padding:.5em}\n.note{color:#555;font-size:.92em}\n</style>\n";
     h += "</head>\n<body>\n";
     h += &format!("<h1>{}</h1>\n", escape(title));
-    h += &format!(
-        "<p class=\"caution\">Model-based estimates: every area below inherits the errors of the suitability model, the records, the threshold and the accessible area M. E is chosen before looking at the results. Any threat assessment belongs to the responsible authority and its reviewers.</p>\n"
-    );
+    h += "<p class=\"caution\">Model-based estimates: every area below inherits the errors of the suitability model, the records, the threshold and the accessible area M. E is chosen before looking at the results. Any threat assessment belongs to the responsible authority and its reviewers.</p>\n";
     // Map.
     let b64 = base64::engine::general_purpose::STANDARD.encode(&map.png);
     let w = image.window;
@@ -117,7 +136,9 @@ pub fn page(data: &ReportData, map: &MapPng, image: &ClassImage, title: &str) ->
         })
         .unwrap_or_default();
     h += "<h2>Sensitivity of the area to E (not a way to choose E)</h2>\n";
-    let chosen = s.pointer("/threshold/omission_percent").and_then(Value::as_f64);
+    let chosen = s
+        .pointer("/threshold/omission_percent")
+        .and_then(Value::as_f64);
     match charts::sensitivity_chart(&sens, chosen) {
         Some(svg) => {
             h += &svg;
@@ -152,12 +173,20 @@ pub fn page(data: &ReportData, map: &MapPng, image: &ClassImage, title: &str) ->
     h += "</ul>\n<h2>How this was made</h2>\n";
     let cmd: Vec<String> = s["command_line"]
         .as_array()
-        .map(|a| a.iter().filter_map(|x| x.as_str()).map(shell_quote).collect())
+        .map(|a| {
+            a.iter()
+                .filter_map(|x| x.as_str())
+                .map(shell_quote)
+                .collect()
+        })
         .unwrap_or_default();
     if cmd.is_empty() {
         h += "<p class=\"note\">The command line was not recorded.</p>\n";
     } else {
-        h += &format!("<pre id=\"command-line\">{}</pre>\n", escape(&cmd.join(" ")));
+        h += &format!(
+            "<pre id=\"command-line\">{}</pre>\n",
+            escape(&cmd.join(" "))
+        );
     }
     h += &format!(
         "<p class=\"note\">areal <span id=\"version\">{}</span>. Map text in DejaVu Sans (Bitstream Vera licence, bundled with areal). Colours: {}.</p>\n",
@@ -176,10 +205,34 @@ fn figures(s: &Value) -> String {
         t.text("rule", m);
     }
     t.num(s, "T", "/threshold/value", None, "");
-    t.num(s, "tolerated omission E", "/threshold/omission_percent", None, "%");
-    t.num(s, "values the rule saw (n)", "/threshold/records_used", Some(0), "");
-    t.num(s, "lowest values dropped (k)", "/threshold/records_dropped", Some(0), "");
-    t.num(s, "record values below T", "/threshold/records_omitted", Some(0), "");
+    t.num(
+        s,
+        "tolerated omission E",
+        "/threshold/omission_percent",
+        None,
+        "%",
+    );
+    t.num(
+        s,
+        "values the rule saw (n)",
+        "/threshold/records_used",
+        Some(0),
+        "",
+    );
+    t.num(
+        s,
+        "lowest values dropped (k)",
+        "/threshold/records_dropped",
+        Some(0),
+        "",
+    );
+    t.num(
+        s,
+        "record values below T",
+        "/threshold/records_omitted",
+        Some(0),
+        "",
+    );
     t.head("Records");
     for (l, k) in [
         ("read", "total"),
@@ -191,7 +244,12 @@ fn figures(s: &Value) -> String {
         t.num(s, l, &format!("/records/{k}"), Some(0), "");
     }
     t.head("Accessible area M");
-    t.text("M", s.pointer("/accessible/description").and_then(Value::as_str).unwrap_or(""));
+    t.text(
+        "M",
+        s.pointer("/accessible/description")
+            .and_then(Value::as_str)
+            .unwrap_or(""),
+    );
     t.head("Areas (true areas on the ellipsoid)");
     for (l, k) in [
         ("suitable (classes 1 + 2)", "suitable"),
@@ -216,44 +274,129 @@ fn figures(s: &Value) -> String {
         t.head("Sensitivity to E (for reading only; E is fixed before looking)");
         for (i, r) in rows.iter().enumerate() {
             let e = r["omission_percent"].as_f64().unwrap_or(f64::NAN);
-            t.num(s, &format!("E = {e}%: T"), &format!("/sensitivity/{i}/threshold"), None, "");
-            t.num(s, &format!("E = {e}%: records dropped"), &format!("/sensitivity/{i}/records_dropped"), Some(0), "");
-            t.num(s, &format!("E = {e}%: suitable"), &format!("/sensitivity/{i}/area_km2_suitable"), Some(3), "km²");
-            t.num(s, &format!("E = {e}%: suitable inside M"), &format!("/sensitivity/{i}/area_km2_inside_accessible"), Some(3), "km²");
+            t.num(
+                s,
+                &format!("E = {e}%: T"),
+                &format!("/sensitivity/{i}/threshold"),
+                None,
+                "",
+            );
+            t.num(
+                s,
+                &format!("E = {e}%: records dropped"),
+                &format!("/sensitivity/{i}/records_dropped"),
+                Some(0),
+                "",
+            );
+            t.num(
+                s,
+                &format!("E = {e}%: suitable"),
+                &format!("/sensitivity/{i}/area_km2_suitable"),
+                Some(3),
+                "km²",
+            );
+            t.num(
+                s,
+                &format!("E = {e}%: suitable inside M"),
+                &format!("/sensitivity/{i}/area_km2_inside_accessible"),
+                Some(3),
+                "km²",
+            );
         }
     }
     if s["metrics"].is_object() {
-        for (base, what) in [("/metrics", "records"), ("/metrics/modelled", "occupied modelled range")] {
-            if s.pointer(base).is_none_or(Value::is_null) {
+        for (base, what) in [
+            ("/metrics", "records"),
+            ("/metrics/modelled", "occupied modelled range"),
+        ] {
+            if s.pointer(base).map_or(true, Value::is_null) {
                 continue;
             }
             t.head(&format!("EOO and AOO of the {what}"));
             t.num(s, "EOO", &format!("{base}/eoo_km2"), Some(3), "km²");
             t.num(s, "AOO", &format!("{base}/aoo_km2"), Some(3), "km²");
-            t.num(s, "AOO, largest over the grid origins", &format!("{base}/aoo_max_km2"), Some(3), "km²");
-            t.num(s, "AOO grid cell", &format!("{base}/aoo_cell_km"), None, "km");
-            for st in s.pointer(&format!("{base}/criterion_b/statements")).and_then(Value::as_array).into_iter().flatten() {
+            t.num(
+                s,
+                "AOO, largest over the grid origins",
+                &format!("{base}/aoo_max_km2"),
+                Some(3),
+                "km²",
+            );
+            t.num(
+                s,
+                "AOO grid cell",
+                &format!("{base}/aoo_cell_km"),
+                None,
+                "km",
+            );
+            for st in s
+                .pointer(&format!("{base}/criterion_b/statements"))
+                .and_then(Value::as_array)
+                .into_iter()
+                .flatten()
+            {
                 t.text("criterion B", st.as_str().unwrap_or(""));
             }
-            if let Some(c) = s.pointer(&format!("{base}/criterion_b/caution")).and_then(Value::as_str) {
+            if let Some(c) = s
+                .pointer(&format!("{base}/criterion_b/caution"))
+                .and_then(Value::as_str)
+            {
                 t.text("caution", c);
             }
         }
-        if let Some(src) = s.pointer("/metrics/criterion_b/source").and_then(Value::as_str) {
+        if let Some(src) = s
+            .pointer("/metrics/criterion_b/source")
+            .and_then(Value::as_str)
+        {
             t.text("thresholds from", src);
         }
         if s.pointer("/metrics/reach").is_some_and(Value::is_object) {
             t.head("Reach");
             t.num(s, "largest jump", "/metrics/reach/gap_km", None, "km");
-            t.num(s, "patches reached", "/metrics/reach/reachable_patches", Some(0), "");
-            t.num(s, "area reached", "/metrics/reach/reachable_km2", Some(3), "km²");
-            t.num(s, "of it beyond M", "/metrics/reach/reachable_outside_accessible_km2", Some(3), "km²");
-            t.num(s, "patches not reached", "/metrics/reach/unreachable_patches", Some(0), "");
-            t.num(s, "area not reached", "/metrics/reach/unreachable_km2", Some(3), "km²");
+            t.num(
+                s,
+                "patches reached",
+                "/metrics/reach/reachable_patches",
+                Some(0),
+                "",
+            );
+            t.num(
+                s,
+                "area reached",
+                "/metrics/reach/reachable_km2",
+                Some(3),
+                "km²",
+            );
+            t.num(
+                s,
+                "of it beyond M",
+                "/metrics/reach/reachable_outside_accessible_km2",
+                Some(3),
+                "km²",
+            );
+            t.num(
+                s,
+                "patches not reached",
+                "/metrics/reach/unreachable_patches",
+                Some(0),
+                "",
+            );
+            t.num(
+                s,
+                "area not reached",
+                "/metrics/reach/unreachable_km2",
+                Some(3),
+                "km²",
+            );
         }
     }
     t.head("Method");
-    t.text("area method", s.pointer("/area_method").and_then(Value::as_str).unwrap_or(""));
+    t.text(
+        "area method",
+        s.pointer("/area_method")
+            .and_then(Value::as_str)
+            .unwrap_or(""),
+    );
     t.html += "</table>\n";
     format!("<h2>Figures</h2>\n{}", t.html)
 }

@@ -76,9 +76,7 @@ impl ClassRuns {
             let row_has_runs = self.runs.len() > *self.row_start.last().unwrap_or(&0);
             match self.runs.last_mut() {
                 // Adjacent nodata codes (e.g. 255 and a stray value) merge into one run.
-                Some(last)
-                    if row_has_runs && last.end as usize == start && last.class == code =>
-                {
+                Some(last) if row_has_runs && last.end as usize == start && last.class == code => {
                     last.end = c as u32
                 }
                 _ => self.runs.push(Run {
@@ -162,7 +160,9 @@ mod tests {
 
     #[test]
     fn runs_cover_every_non_zero_cell_and_nothing_else() {
-        let row = [0, 1, 1, 0, 2, 255, 255, 7, 1, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 2];
+        let row = [
+            0, 1, 1, 0, 2, 255, 255, 7, 1, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 2,
+        ];
         let mut r = ClassRuns::new(row.len());
         r.push_row(&row);
         // Rebuild the row from the runs: codes other than 1 and 2 become nodata.

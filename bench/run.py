@@ -61,7 +61,11 @@ def main():
     ap.add_argument("--out", default=os.path.join(ROOT, "docs", "bench-results.md"))
     ap.add_argument("--peer-limit-gb", type=float, default=20.0)
     ap.add_argument("--no-peer", action="store_true")
+    ap.add_argument("--report-cost", action="store_true",
+                    help="only measure what report.html, map.png and the classes.tif overviews add to a run")
     a = ap.parse_args()
+    if a.report_cost:
+        return report_cost(a)
     rows = []
     env = dict(os.environ)
     env.setdefault("GDAL_CACHEMAX", "32")
@@ -98,6 +102,52 @@ def main():
                 label = "numpy/scipy/rasterio peer" + ("" if pok else f" (FAILED: {ptail.splitlines()[-1] if ptail else '?'})")
                 rows.append((size, mode, label, ps, pmb, ps / floor_s, None, None))
     write_table(a.out, rows)
+
+
+def report_cost(a):
+    """The report (report.html, map.png) and the classes.tif overviews as a share of the run.
+
+    Side by side on the polygon-M input: areal with the report, areal with --no-report, and
+    the overviews alone, timed as GDAL building the same levels (gdaladdo -r nearest) on a
+    copy of classes.tif without them. Run without both = no-report run - overviews."""
+    lines = ["| size | areal (report) s | areal --no-report s | overviews s (gdaladdo) | report s | "
+             "(report + overviews) / run without them |", "|---|---:|---:|---:|---:|---:|"]
+    env = dict(os.environ)
+    env.setdefault("GDAL_CACHEMAX", "32")
+    for size in a.sizes.split(","):
+        prefix = ensure_inputs(size)
+        tif, occ, m = prefix + ".tif", prefix + ".occ.csv", prefix + ".m.geojson"
+        base = [AREAL, "range", "--suitability", tif, "--records", occ, "--omission", "5",
+                "--accessible", m, "--no-metrics", "--overwrite", "--quiet"]
+        out_r, out_n = os.path.join(DATA, f"out-{size}-report"), os.path.join(DATA, f"out-{size}-noreport")
+        ok1, with_s, _, _, t1 = timed(base + ["--out", out_r], env=env)
+        ok2, without_s, _, _, t2 = timed(base + ["--out", out_n, "--no-report"], env=env)
+        if not (ok1 and ok2):
+            sys.exit(f"areal failed on {size}: {t1} {t2}")
+        bare = os.path.join(DATA, f"classes-{size}-bare.tif")
+        subprocess.run(["gdal_translate", "-q", "-co", "TILED=YES", "-co", "BLOCKXSIZE=256", "-co", "BLOCKYSIZE=256",
+                        "-co", "COMPRESS=DEFLATE", "-co", "BIGTIFF=IF_SAFER", os.path.join(out_n, "classes.tif"), bare],
+                       check=True, env=env)
+        info = subprocess.run(["gdalinfo", os.path.join(out_n, "classes.tif")], capture_output=True, text=True).stdout
+        w, h = map(int, re.search(r"Size is (\d+), (\d+)", info).group(1, 2))
+        levels, f = [], 2
+        while max(w, h) // f >= 256 and len(levels) < 12:
+            levels.append(str(f))
+            f *= 2
+        ok3, ovr_s, _, _, t3 = timed(["gdaladdo", "-q", "-r", "nearest", bare, *levels], env=env)
+        os.remove(bare)
+        if not ok3:
+            sys.exit("gdaladdo failed: " + t3)
+        run_s = without_s - ovr_s
+        report_s = with_s - without_s
+        lines.append(f"| {size} | {with_s:.2f} | {without_s:.2f} | {ovr_s:.2f} | {report_s:.2f} | "
+                     f"{(report_s + ovr_s) / run_s:.3f} |")
+    text = "\n".join(lines) + "\n"
+    header = f"Report cost, run {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())} on {platform.node()} ({os.cpu_count()} cores).\n\n"
+    with open(a.out + ".tmp", "w") as f:
+        f.write(header + text)
+    os.replace(a.out + ".tmp", a.out)
+    print(header + text)
 
 
 def write_table(path, rows):

@@ -338,3 +338,45 @@ pub fn reach_chart(patches: &[PatchInfo]) -> Option<String> {
             .map_err(|e| e.to_string())
     }))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sensitivity_chart_marks_each_row_and_the_runs_e() {
+        let rows: Vec<Sensitivity> = [0.0, 1.0, 2.0, 5.0, 10.0]
+            .iter()
+            .map(|&e| Sensitivity {
+                e,
+                suitable: 1000.0 - 50.0 * e,
+                inside: 800.0 - 40.0 * e,
+            })
+            .collect();
+        let svg = sensitivity_chart(&rows, Some(5.0)).unwrap();
+        // One dot per row and series, plus none elsewhere.
+        assert_eq!(svg.matches("<circle").count(), 10, "{svg}");
+        assert!(svg.contains("E of this run (5%)"));
+        assert!(sensitivity_chart(&[], None).is_none());
+    }
+
+    #[test]
+    fn records_chart_draws_used_dots_and_dropped_crosses() {
+        let rec = |s: f64, status: &str| MapRecord {
+            lon: 0.0,
+            lat: 0.0,
+            cell: Some((0, 0)),
+            suitability: Some(s),
+            status: status.into(),
+        };
+        let recs = [
+            rec(0.9, "used"),
+            rec(0.7, "used"),
+            rec(0.1, "below_threshold"),
+        ];
+        let svg = records_chart(&recs, 0.5).unwrap();
+        // Two used dots plus the legend's dot.
+        assert_eq!(svg.matches("<circle").count(), 3, "{svg}");
+        assert!(svg.contains("T = 0.5000"));
+    }
+}

@@ -244,6 +244,8 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
 
     // Records: used (black dot, white ring), dropped (vermillion cross), excluded (purple square).
     let white = paint(palette::NODATA, 255);
+    // Many records: smaller symbols, so the classes beneath stay readable.
+    let size = if input.records.len() > 300 { 0.6 } else { 1.0 };
     for kind in ["excluded", "below_threshold", "used"] {
         for r in input.records.iter().filter(|r| r.kind() == kind) {
             let pos = match r.cell {
@@ -255,7 +257,7 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
             if x < x0 as f32 || y < y0 as f32 || x > (x0 + pw) as f32 || y > (y0 + ph) as f32 {
                 continue;
             }
-            marker(&mut pm, kind, x, y, &white, Some(&clip));
+            marker(&mut pm, kind, x, y, size, &white, Some(&clip));
         }
     }
     // Frame.
@@ -339,7 +341,7 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
     .enumerate()
     {
         let y = ly + 20.0 * (i + 1) as f32;
-        marker(&mut pm, kind, lx2 + 8.0, y + 7.0, &white, None);
+        marker(&mut pm, kind, lx2 + 8.0, y + 7.0, 1.0, &white, None);
         text::draw(&mut pm, t, lx2 + 24.0, y + 12.0, 12.0, palette::INK, 0.0);
     }
     // Scale bar, true along the horizontal through the map's centre.
@@ -431,33 +433,53 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
 }
 
 /// One record symbol at (x, y).
-fn marker(pm: &mut Pixmap, kind: &str, x: f32, y: f32, white: &Paint<'_>, clip: Option<&Mask>) {
+fn marker(
+    pm: &mut Pixmap,
+    kind: &str,
+    x: f32,
+    y: f32,
+    k: f32,
+    white: &Paint<'_>,
+    clip: Option<&Mask>,
+) {
     let id = Transform::identity();
     match kind {
         "used" => {
-            if let Some(p) = PathBuilder::from_circle(x, y, 4.5) {
+            if let Some(p) = PathBuilder::from_circle(x, y, 4.5 * k) {
                 pm.fill_path(&p, white, FillRule::Winding, id, clip);
             }
-            if let Some(p) = PathBuilder::from_circle(x, y, 3.0) {
+            if let Some(p) = PathBuilder::from_circle(x, y, 3.0 * k) {
                 pm.fill_path(&p, &paint(palette::INK, 255), FillRule::Winding, id, clip);
             }
         }
         "below_threshold" => {
             let mut pb = PathBuilder::new();
-            pb.move_to(x - 4.5, y - 4.5);
-            pb.line_to(x + 4.5, y + 4.5);
-            pb.move_to(x - 4.5, y + 4.5);
-            pb.line_to(x + 4.5, y - 4.5);
+            pb.move_to(x - 4.5 * k, y - 4.5 * k);
+            pb.line_to(x + 4.5 * k, y + 4.5 * k);
+            pb.move_to(x - 4.5 * k, y + 4.5 * k);
+            pb.line_to(x + 4.5 * k, y - 4.5 * k);
             if let Some(p) = pb.finish() {
-                pm.stroke_path(&p, white, &stroke(4.5), id, clip);
-                pm.stroke_path(&p, &paint(palette::DROPPED, 255), &stroke(2.2), id, clip);
+                pm.stroke_path(&p, white, &stroke(4.5 * k), id, clip);
+                pm.stroke_path(
+                    &p,
+                    &paint(palette::DROPPED, 255),
+                    &stroke(2.2 * k),
+                    id,
+                    clip,
+                );
             }
         }
         _ => {
-            if let Some(r) = Rect::from_xywh(x - 4.0, y - 4.0, 8.0, 8.0) {
+            if let Some(r) = Rect::from_xywh(x - 4.0 * k, y - 4.0 * k, 8.0 * k, 8.0 * k) {
                 let p = PathBuilder::from_rect(r);
-                pm.stroke_path(&p, white, &stroke(3.5), id, clip);
-                pm.stroke_path(&p, &paint(palette::EXCLUDED, 255), &stroke(1.8), id, clip);
+                pm.stroke_path(&p, white, &stroke(3.5 * k), id, clip);
+                pm.stroke_path(
+                    &p,
+                    &paint(palette::EXCLUDED, 255),
+                    &stroke(1.8 * k),
+                    id,
+                    clip,
+                );
             }
         }
     }

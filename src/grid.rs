@@ -4,6 +4,17 @@
 //! has its centre at pixel coordinates (col + 0.5, row + 0.5). Rotated or sheared
 //! geotransforms are refused when the grid is built.
 
+/// Longitude in degrees into [-180, 180): the one longitude normaliser (180 becomes -180;
+/// callers that must keep the eastern seam say so where they use it).
+pub fn normalise_lon(lon: f64) -> f64 {
+    let l = (lon + 180.0).rem_euclid(360.0) - 180.0;
+    if l >= 180.0 {
+        l - 360.0
+    } else {
+        l
+    }
+}
+
 /// A north-up raster grid with its CRS.
 #[derive(Debug, Clone, PartialEq)]
 pub struct GridSpec {

@@ -177,7 +177,7 @@ impl SuitabilityRaster {
         }
         let nodata = band.no_data_value();
         let band_type = band.band_type();
-        let data_type = format!("{band_type:?}");
+        let data_type = band_type.name(); // GDAL's own name: "Float32", "Int16", ...
         use gdal::raster::GdalDataType as T;
         // float32 holds these types exactly; wider ones are read as float64.
         let fits_f32 = matches!(band_type, T::UInt8 | T::UInt16 | T::Int16 | T::Float32);

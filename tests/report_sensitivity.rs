@@ -76,10 +76,10 @@ impl Recount {
                 A * A / 2.0 * dlon * (q(top) - q(bottom)).abs() / 1e6
             })
             .collect();
-        // One value per occupied cell, from records.csv (suitability sampled by areal; the
-        // threshold test in tests/demo.rs checks those samples against GDAL).
+        // One value per occupied cell: the records' cells from records.csv, their values
+        // read here from the raster through GDAL.
         let (hd, rows) = read_csv(&out.join("records.csv"));
-        let (ir, ic, is) = (col(&hd, "row"), col(&hd, "col"), col(&hd, "suitability"));
+        let (ir, ic) = (col(&hd, "row"), col(&hd, "col"));
         let mut cells = BTreeMap::new();
         for r in &rows {
             if let (Ok(row), Ok(c)) = (r[ir].parse::<usize>(), r[ic].parse::<usize>()) {

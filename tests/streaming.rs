@@ -101,6 +101,18 @@ fn reference(path: &Path, t: f64, eight: bool) -> Reference {
 }
 
 fn streaming(path: &Path, records: &Path, t: f64, eight: bool) -> (Vec<u8>, areal::RangeResult) {
+    let (classes, res, _) = streaming_model(path, records, t, eight, None);
+    (classes, res)
+}
+
+/// The pass with the range model; `budget` in bytes forces the model to spill.
+fn streaming_model(
+    path: &Path,
+    records: &Path,
+    t: f64,
+    eight: bool,
+    budget: Option<usize>,
+) -> (Vec<u8>, areal::RangeResult, areal::RangeModel) {
     let opts = RangeOptions {
         threshold: ThresholdSpec::fixed(t).unwrap(),
         access: AccessSpec::default(),
@@ -116,11 +128,74 @@ fn streaming(path: &Path, records: &Path, t: f64, eight: bool) -> (Vec<u8>, area
         metrics: Default::default(),
         report: false,
         command_line: Vec::new(),
+        model: areal::ModelOptions {
+            budget_bytes: budget.unwrap_or(64 << 20),
+            spill_dir: None,
+        },
     };
     let w = Dataset::open(path).unwrap().raster_size().0;
     let mut sink = MemorySink::new(w);
-    let res = compute_range(path, records, &opts, &mut sink).unwrap();
-    (sink.classes, res)
+    let (res, model) = compute_range(path, records, &opts, &mut sink).unwrap();
+    (sink.classes, res, model)
+}
+
+/// The model's runs expanded to a label grid (0 = no patch).
+fn model_labels(model: &areal::RangeModel) -> Vec<u32> {
+    let (w, h) = (model.grid().width, model.grid().height);
+    let mut labels = vec![0u32; w * h];
+    model
+        .for_each_row(&mut |r, runs| {
+            for run in runs {
+                for c in run.start..run.end {
+                    labels[r * w + c as usize] = run.patch;
+                }
+            }
+            Ok(())
+        })
+        .unwrap();
+    labels
+}
+
+/// The model agrees with the class rows and the reference labelling: its runs cover exactly
+/// the class-1 and class-2 cells, each with its patch's class; every patch has the reference's
+/// cell count; ids follow the scan order of first cells; edge neighbours of one class share an
+/// id. And a model forced to spill to disk holds the same runs.
+fn assert_model(path: &Path, records: &Path, t: f64, eight: bool) {
+    let want = reference(path, t, eight);
+    let (classes, got, model) = streaming_model(path, records, t, eight, None);
+    let labels = model_labels(&model);
+    let (w, h) = (model.grid().width, model.grid().height);
+    let mut cells = vec![0u64; model.patches().len()];
+    let mut next_new = 1u32;
+    for i in 0..w * h {
+        let (k, l) = (classes[i], labels[i]);
+        assert_eq!(k == 1 || k == 2, l != 0, "cell {i}: class {k}, label {l}");
+        if l == 0 {
+            continue;
+        }
+        assert_eq!(model.class_of(l), k, "cell {i}");
+        cells[l as usize - 1] += 1;
+        if l == next_new {
+            next_new += 1;
+        } else {
+            assert!(
+                l < next_new,
+                "id {l} met before id {next_new} in scan order"
+            );
+        }
+        let east = if i % w + 1 < w { Some(i + 1) } else { None };
+        for j in east.into_iter().chain((i + w < w * h).then_some(i + w)) {
+            if classes[j] == k {
+                assert_eq!(labels[j], l, "neighbours {i} and {j}");
+            }
+        }
+    }
+    let want_cells: Vec<u64> = want.patches.iter().map(|p| p.2).collect();
+    assert_eq!(cells, want_cells);
+    assert_eq!(got.patches.len(), want.patches.len());
+    let (_, _, spilled) = streaming_model(path, records, t, eight, Some(1));
+    assert!(spilled.spilled() && !model.spilled());
+    assert_eq!(model_labels(&spilled), labels, "spilled model differs");
 }
 
 fn assert_equal(path: &Path, records: &Path, t: f64, eight: bool) -> usize {
@@ -191,6 +266,8 @@ fn u_shape_joining_only_at_the_bottom_across_strips() {
     let rec = one_record(t.path(), 0.55, 79.95);
     assert_eq!(assert_equal(&p, &rec, 0.5, true), 1);
     assert_eq!(assert_equal(&p, &rec, 0.5, false), 1);
+    assert_model(&p, &rec, 0.5, true);
+    assert_model(&p, &rec, 0.5, false);
 }
 
 #[test]
@@ -263,6 +340,7 @@ fn comb_and_antimeridian_on_a_global_grid() {
         "comb + band joined across 180"
     );
     assert_eq!(assert_equal(&p, &rec, 0.5, false), 2);
+    assert_model(&p, &rec, 0.5, true);
 }
 
 #[test]
@@ -295,6 +373,7 @@ fn random_speckle_with_nodata_matches() {
     let rec = one_record(t.path(), 10.005, 59.995);
     for eight in [true, false] {
         assert!(assert_equal(&p, &rec, 0.8, eight) > 50);
+        assert_model(&p, &rec, 0.8, eight);
     }
 }
 
@@ -351,9 +430,10 @@ fn buffer_m_applied_in_the_workers_matches_geographiclib_per_cell() {
         metrics: Default::default(),
         report: false,
         command_line: Vec::new(),
+        model: Default::default(),
     };
     let mut sink = MemorySink::new(w);
-    let res = compute_range(&tif, &rec, &opts, &mut sink).unwrap();
+    let (res, _model) = compute_range(&tif, &rec, &opts, &mut sink).unwrap();
     let g = Geodesic::wgs84();
     let mut in_m_cells = 0u64;
     for r in 0..h {

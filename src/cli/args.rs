@@ -313,6 +313,7 @@ impl RangeArgs {
             metrics: self.metrics.to_options(!self.no_metrics)?,
             report: !self.no_report,
             command_line: std::env::args().collect(),
+            model: Default::default(),
         })
     }
 }

@@ -15,8 +15,26 @@
 //! reference scale), with the maximum and the origin that gave the minimum (the first in
 //! the order ox, then oy, increasing, when several tie).
 
-use crate::{Error, Result};
-use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
+pub(crate) use super::laea::RowProjector;
+pub(crate) use crate::crs::{traditional, wgs84};
+use crate::{Error, GridSpec, Result};
+use gdal::spatial_ref::{CoordTransform, SpatialRef};
+
+/// The AOO grid's CRS as plain data, shareable between threads.
+#[derive(Debug, Clone)]
+pub(crate) struct AooSpec {
+    /// PROJ definition of the LAEA.
+    pub(crate) proj: String,
+    /// Centre (lon, lat), degrees.
+    pub(crate) centre: (f64, f64),
+}
+
+impl AooSpec {
+    /// Projects the cell centres of rows of `grid` into the grid's CRS (one per thread).
+    pub(crate) fn projector(&self, grid: &GridSpec) -> Result<RowProjector> {
+        RowProjector::new(self, grid)
+    }
+}
 
 /// Grid-origin offsets as fractions of the cell width, for x and for y.
 pub const ORIGIN_FRACTIONS: [f64; 4] = [0.0, 0.25, 0.5, 0.75];
@@ -28,6 +46,8 @@ pub(crate) struct AooGrid {
     /// Cell width, metres.
     pub(crate) cell_m: f64,
     srs: SpatialRef,
+    /// Centre (lon, lat), degrees.
+    centre: (f64, f64),
 }
 
 fn crs_err(what: &str) -> impl Fn(gdal::errors::GdalError) -> Error + '_ {
@@ -35,19 +55,6 @@ fn crs_err(what: &str) -> impl Fn(gdal::errors::GdalError) -> Error + '_ {
         what: what.into(),
         reason: e.to_string(),
     }
-}
-
-/// A `SpatialRef` with x = longitude / easting.
-pub(crate) fn traditional(mut srs: SpatialRef) -> SpatialRef {
-    srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-    srs
-}
-
-/// WGS84 lon/lat, x = longitude.
-pub(crate) fn wgs84() -> Result<SpatialRef> {
-    Ok(traditional(
-        SpatialRef::from_epsg(4326).map_err(crs_err("EPSG:4326"))?,
-    ))
 }
 
 /// The centre of `points` ((lon, lat) degrees): normalised mean of their unit normals as
@@ -68,7 +75,7 @@ pub(crate) fn centre_of(points: &[(f64, f64)]) -> (f64, f64) {
     };
     let r = |x: f64| (x * 100.0).round() / 100.0;
     (
-        crate::pipeline::normalise_lon(r(lon)),
+        crate::grid::normalise_lon(r(lon)),
         r(lat).clamp(-90.0, 90.0),
     )
 }
@@ -84,7 +91,16 @@ impl AooGrid {
             proj,
             cell_m: cell_km * 1000.0,
             srs,
+            centre: (lon0, lat0),
         })
+    }
+
+    /// What a thread needs to project rows into this grid's CRS (`Sync`, unlike the CRS).
+    pub(crate) fn spec(&self) -> AooSpec {
+        AooSpec {
+            proj: self.proj.clone(),
+            centre: self.centre,
+        }
     }
 
     /// A transform from `src` (any CRS, traditional axis order) to the grid's CRS.
@@ -100,22 +116,7 @@ pub(crate) fn transform(
     ys: &mut [f64],
     what: &str,
 ) -> Result<()> {
-    if xs.is_empty() {
-        return Ok(());
-    }
-    ct.transform_coords(xs, ys, &mut [])
-        .map_err(|e| Error::Crs {
-            what: what.into(),
-            reason: format!("transforming points: {e}"),
-        })?;
-    if xs.iter().chain(ys.iter()).any(|v| !v.is_finite()) {
-        return Err(Error::Crs {
-            what: what.into(),
-            reason: "a point could not be transformed (it may lie opposite the grid's centre)"
-                .into(),
-        });
-    }
-    Ok(())
+    crate::crs::transform_points(ct, xs, ys, what)
 }
 
 /// Occupied cells for the 16 grid origins.
@@ -190,6 +191,12 @@ impl AooCounter {
         if self.fine.len() >= 2 * self.clean + (1 << 20) {
             self.compact();
         }
+    }
+
+    /// Add every cell another counter (on the same grid) marked.
+    pub(crate) fn merge(&mut self, other: AooCounter) {
+        self.fine.extend(other.fine);
+        self.compact();
     }
 
     fn compact(&mut self) {

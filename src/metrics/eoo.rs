@@ -56,7 +56,7 @@ pub(crate) fn distinct_points(points: &[(f64, f64)]) -> Vec<(f64, f64)> {
             if lat.abs() >= 90.0 {
                 (0.0, lat.signum() * 90.0)
             } else {
-                (crate::pipeline::normalise_lon(lon), lat)
+                (crate::grid::normalise_lon(lon), lat)
             }
         })
         .collect();

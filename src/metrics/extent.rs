@@ -5,14 +5,14 @@
 //! 1 suitable in M, 2 suitable beyond M, 255 nodata). Without a range every record is used.
 //! With one, the records are placed on its grid: a record on a class-0 cell counts as below
 //! the threshold (the class says its suitability is below T), one outside the raster or on
-//! nodata is excluded; the patches are labelled again (true areas as in `areal range`) and
-//! the modelled figures, structure, distances and reach are added.
+//! nodata is excluded; the range model is rebuilt from the raster through the same labeller
+//! (true areas as in `areal range`) and the modelled figures, structure, distances and reach
+//! are added.
 
-use super::scan::ClassRows;
 use super::*;
-use crate::area::CellAreas;
-use crate::patches::{Connectivity, PatchLabeler};
-use crate::raster_io::{class, SuitabilityRaster, STRIP_ROWS};
+use crate::model::RangeModel;
+use crate::patches::Connectivity;
+use crate::raster_io::{class, SuitabilityRaster};
 use crate::records::{read_records, RecordOptions};
 use std::collections::BTreeMap;
 use std::path::Path;
@@ -69,7 +69,7 @@ pub fn extent(
             cautions,
         });
     };
-    let mut raster = SuitabilityRaster::open(range_path)?;
+    let raster = SuitabilityRaster::open(range_path)?;
     let grid = raster.grid().clone();
     let set = read_records(records_path, record_opts, &grid.crs_wkt)?;
     let mut warnings = set.warnings.clone();
@@ -106,24 +106,10 @@ pub fn extent(
             range_path.display()
         ));
     }
-    // Label the patches with true areas and record counts, as `areal range` does.
-    let mut areas = CellAreas::new(&grid)?;
-    let mut labeler = PatchLabeler::new(grid.width, connectivity, grid.wraps_antimeridian());
-    let mut strip = Vec::new();
-    for y0 in (0..grid.height).step_by(STRIP_ROWS) {
-        let n = STRIP_ROWS.min(grid.height - y0);
-        raster.read_class_rows(y0, n, &mut strip)?;
-        for r in 0..n {
-            let row = y0 + r;
-            let cls = &strip[r * grid.width..(r + 1) * grid.width];
-            let row_areas = areas.row_allow_outside(row)?;
-            let empty = Vec::new();
-            let rr = rows_records.get(&row).unwrap_or(&empty);
-            labeler.push_row(row, cls, &row_areas, rr);
-        }
-    }
-    let patches: Vec<PatchInfo> = labeler
-        .finish()
+    drop(raster);
+    let model = RangeModel::from_class_raster(range_path, connectivity, &rows_records, None)?;
+    let patches: Vec<PatchInfo> = model
+        .patches()
         .iter()
         .map(|p| PatchInfo {
             id: p.id,
@@ -133,25 +119,7 @@ pub fn extent(
             records: p.records,
         })
         .collect();
-    if let Some(p) = patches.iter().find(|p| !p.area_km2.is_finite()) {
-        return Err(Error::UnsupportedRaster {
-            path: range_path.to_path_buf(),
-            reason: format!(
-                "patch {} has cells outside the valid area of the raster's projection, so its true area cannot be measured; set them to nodata or reproject the raster",
-                p.id
-            ),
-        });
-    }
-    let (metrics, cols) = range_metrics(
-        &grid,
-        &mut raster,
-        range_path,
-        connectivity,
-        records_path,
-        &recs,
-        &patches,
-        opts,
-    )?;
+    let (metrics, cols) = range_metrics(&model, records_path, &recs, opts)?;
     Ok(ExtentReport {
         areal_version: env!("CARGO_PKG_VERSION").into(),
         records_file: records_path.display().to_string(),

@@ -2,9 +2,8 @@
 //! patch structure, edge-to-edge distances between patches and stepping-stone reach.
 //!
 //! Inputs: records as WGS84 (lon, lat) degrees, each marked used, below the threshold or
-//! excluded ([`MetricRecord`]); optionally the class raster of a range (classes 0, 1, 2,
-//! 255 as in `classes.tif`, any CRS, north-up, read strip by strip through [`ClassRows`])
-//! with its patch list ([`PatchInfo`], ids in scan order of each patch's first cell).
+//! excluded ([`MetricRecord`]); optionally a range as its [`crate::RangeModel`] (runs of
+//! patch cells with their patch ids, the patch list, any CRS, north-up).
 //! Units: km and km2 at the interface; geodesics and areas on the WGS84 ellipsoid.
 //!
 //! - EOO ([`eoo`]): convex hull on the sphere, geodesic polygon area; for the records and for
@@ -22,14 +21,16 @@
 //! the raster, on nodata) are always left out.
 
 mod aoo;
-mod attach;
+mod aoo_runs;
 pub mod criterion_b;
 mod eoo;
 mod extent;
 mod figures;
+mod hull_points;
 mod kdtree;
+mod laea;
+mod range;
 mod reach;
-mod scan;
 mod structure;
 #[cfg(test)]
 mod tests;
@@ -37,12 +38,11 @@ mod tests;
 mod tests_range;
 
 pub use aoo::ORIGIN_FRACTIONS;
-pub use attach::add_range_metrics;
 pub use criterion_b::CriterionB;
 pub use eoo::{geodesic_polygon_area_km2, hull_area, HullArea, EOO_METHOD};
 pub use extent::{extent, ExtentReport};
-pub use figures::{range_metrics, records_metrics};
-pub use scan::{ClassRows, InMemoryClasses, MAX_ITEMS};
+pub use figures::records_metrics;
+pub use range::{add_range_metrics, range_metrics};
 pub use structure::{patch_structure, PatchStructure, StructureReport};
 
 use crate::{Error, Result};

@@ -68,6 +68,26 @@ impl Corners {
         }
     }
 
+    /// The boundary corners of every patch of `model`.
+    pub(crate) fn from_model(model: &crate::model::RangeModel) -> crate::Result<Corners> {
+        let bc = model.boundary_corners(&|_| true)?;
+        let ll = model.corner_lonlat(&bc)?;
+        let n = model.patches().len();
+        let mut label = Vec::with_capacity(ll.len());
+        for p in 0..n {
+            label.extend(std::iter::repeat(p as u32).take(bc.start[p + 1] - bc.start[p]));
+        }
+        let pts: Vec<(f64, f64)> = ll.iter().map(|&(lon, lat)| (lat, lon)).collect();
+        let xyz = pts.iter().map(|&(la, lo)| unit(la, lo)).collect();
+        Ok(Corners {
+            pts,
+            xyz,
+            label,
+            start: bc.start,
+            geod: Geodesic::wgs84(),
+        })
+    }
+
     fn n(&self) -> usize {
         self.start.len() - 1
     }

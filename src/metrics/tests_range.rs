@@ -1,20 +1,47 @@
-//! Metrics pass, distances and stepping-stone reach on hand-made class grids.
+//! The range model's runs and boundary corners, distances and stepping-stone reach on
+//! hand-made class grids.
 
-use super::scan::{scan, InMemoryClasses};
 use super::*;
-use crate::patches::{label_grid, Connectivity};
+use crate::model::RangeModel;
+use crate::patches::Connectivity;
 use crate::GridSpec;
 use geographiclib_rs::{Geodesic, InverseGeodesic};
+use std::collections::BTreeMap;
 use std::path::Path;
 
+fn model_of(
+    classes: &[u8],
+    grid: &GridSpec,
+    conn: Connectivity,
+    rec: &[(usize, usize)],
+) -> RangeModel {
+    let mut records: BTreeMap<usize, Vec<(usize, u64)>> = BTreeMap::new();
+    for &(r, c) in rec {
+        records.entry(r).or_default().push((c, 1));
+    }
+    RangeModel::from_class_grid(grid, conn, classes, &records).unwrap()
+}
+
+/// Cells per patch id, counted from the model's runs.
 fn cells_per_patch(classes: &[u8], width: usize, conn: Connectivity, wrap: bool) -> Vec<u64> {
     let h = classes.len() / width;
-    let mut src = InMemoryClasses { classes, width };
-    let sc = scan(&mut src, width, h, wrap, conn, Path::new("mem")).unwrap();
-    let mut cells = vec![0u64; sc.patches];
-    for (r, &p) in sc.runs.iter().zip(&sc.run_patch) {
-        cells[p as usize - 1] += (r.end - r.start) as u64;
-    }
+    let grid = if wrap {
+        let mut g = GridSpec::lonlat(width, h, -180.0, 90.0, 360.0 / width as f64);
+        g.geo_transform[5] = -180.0 / h as f64;
+        g
+    } else {
+        GridSpec::lonlat(width, h, 0.0, 10.0, 0.01)
+    };
+    let model = model_of(classes, &grid, conn, &[]);
+    let mut cells = vec![0u64; model.patches().len()];
+    model
+        .for_each_row(&mut |_, runs| {
+            for r in runs {
+                cells[r.patch as usize - 1] += (r.end - r.start) as u64;
+            }
+            Ok(())
+        })
+        .unwrap();
     cells
 }
 
@@ -46,38 +73,41 @@ fn scan_numbers_patches_like_the_published_grid() {
 }
 
 #[test]
-fn boundary_cells_are_the_rim_of_a_block() {
-    // A 4×4 block in a 6×6 grid: the 12 rim cells are boundary cells, the 4 inner ones not;
-    // on the raster edge every patch cell is a boundary cell ([DER]).
+fn boundary_corners_are_the_rim_of_a_block() {
+    // A 4×4 block in a 6×6 grid: its boundary corners are the 16 grid points on the rim of
+    // the block; the 9 corners inside it are not boundary corners ([DER]).
     let mut g = [0u8; 36];
     for r in 1..5 {
         for c in 1..5 {
             g[r * 6 + c] = 1;
         }
     }
-    let mut src = InMemoryClasses {
-        classes: &g,
-        width: 6,
-    };
-    let sc = scan(&mut src, 6, 6, false, Connectivity::Eight, Path::new("m")).unwrap();
-    assert_eq!(sc.boundary.len(), 12);
-    assert!(!sc
-        .boundary
-        .iter()
-        .any(|&(r, c, _)| (2..4).contains(&r) && (2..4).contains(&c)));
+    let grid = GridSpec::lonlat(6, 6, 0.0, 10.0, 0.01);
+    let m = model_of(&g, &grid, Connectivity::Eight, &[]);
+    let bc = m.boundary_corners(&|_| true).unwrap();
+    assert_eq!(bc.len(), 16);
+    let inside =
+        (0..bc.len()).filter(|&i| (2..5).contains(&bc.line[i]) && (2..5).contains(&bc.col[i]));
+    assert_eq!(inside.count(), 0);
+    // A patch filling the raster: its rim of 3 × 4 grid points on a 3×3 grid is the boundary.
     let full = [2u8; 9];
-    let mut src = InMemoryClasses {
-        classes: &full,
-        width: 3,
-    };
-    let sc = scan(&mut src, 3, 3, false, Connectivity::Eight, Path::new("m")).unwrap();
-    assert_eq!(sc.boundary.len(), 8);
+    let grid = GridSpec::lonlat(3, 3, 0.0, 10.0, 0.01);
+    let m = model_of(&full, &grid, Connectivity::Eight, &[]);
+    assert_eq!(m.boundary_corners(&|_| true).unwrap().len(), 12);
+    // Two 4-connected patches touching at a corner both own that corner.
+    let diag = [1u8, 0, 0, 1];
+    let grid = GridSpec::lonlat(2, 2, 0.0, 10.0, 0.01);
+    let m = model_of(&diag, &grid, Connectivity::Four, &[]);
+    let bc = m.boundary_corners(&|_| true).unwrap();
+    assert_eq!((bc.of(1).len(), bc.of(2).len()), (4, 4));
+    assert!(bc.of(1).any(|i| (bc.line[i], bc.col[i]) == (1, 1)));
+    assert!(bc.of(2).any(|i| (bc.line[i], bc.col[i]) == (1, 1)));
 }
 
 /// One row of patches at the equator, 0.01-degree cells, in row 1 of a 3-row grid:
 /// A cols 0-1 (class 1, one record), gap 2, B cols 4-5 (class 1), gap 5, C cols 11-12
 /// (class 2), gap 2, D cols 15-16 (class 2), gap 10, E cols 27-28 (class 1).
-fn strip_grid() -> (GridSpec, Vec<u8>, Vec<PatchInfo>) {
+fn strip_grid() -> (GridSpec, Vec<u8>) {
     let w = 30;
     let mut g = vec![0u8; 3 * w];
     for (cols, k) in [
@@ -91,18 +121,7 @@ fn strip_grid() -> (GridSpec, Vec<u8>, Vec<PatchInfo>) {
             g[w + c] = k;
         }
     }
-    let (_, patches) = label_grid(&g, w, Connectivity::Eight, false);
-    let info = patches
-        .iter()
-        .map(|p| PatchInfo {
-            id: p.id,
-            class: p.class,
-            cells: p.cells,
-            area_km2: p.cells as f64,
-            records: u64::from(p.id == 1),
-        })
-        .collect();
-    (GridSpec::lonlat(w, 3, 0.0, 0.015, 0.01), g, info)
+    (GridSpec::lonlat(w, 3, 0.0, 0.015, 0.01), g)
 }
 
 /// GeographicLib distance (km) between corners at latitude 0.005 separated by `cells` columns
@@ -113,8 +132,14 @@ fn gap_km(c0: usize, cells: usize) -> f64 {
     d / 1000.0
 }
 
+/// Area (km2) of patch `id` of the strip grid, from the model.
+fn strip_area(id: u32) -> f64 {
+    let (grid, g) = strip_grid();
+    model_of(&g, &grid, Connectivity::Eight, &[(1, 0)]).patches()[id as usize - 1].area_m2 / 1e6
+}
+
 fn run(gap: Option<f64>) -> (Metrics, Vec<PatchMetrics>) {
-    let (grid, g, info) = strip_grid();
+    let (grid, g) = strip_grid();
     let recs = [MetricRecord {
         lon: 0.005,
         lat: 0.0,
@@ -125,21 +150,8 @@ fn run(gap: Option<f64>) -> (Metrics, Vec<PatchMetrics>) {
         min_patch_km2: Some(2.5),
         ..Default::default()
     };
-    let mut src = InMemoryClasses {
-        classes: &g,
-        width: grid.width,
-    };
-    range_metrics(
-        &grid,
-        &mut src,
-        Path::new("mem"),
-        Connectivity::Eight,
-        Path::new("r.csv"),
-        &recs,
-        &info,
-        &opts,
-    )
-    .unwrap()
+    let model = model_of(&g, &grid, Connectivity::Eight, &[(1, 0)]);
+    range_metrics(&model, Path::new("r.csv"), &recs, &opts).unwrap()
 }
 
 #[test]
@@ -169,7 +181,8 @@ fn stepping_stone_reach_with_known_gaps() {
     let jumps: Vec<Option<u32>> = cols.iter().map(|c| c.reach_jumps).collect();
     assert_eq!(jumps, [Some(0), Some(1), None, None, None]);
     let r = m.reach.unwrap();
-    assert_eq!((r.reachable_patches, r.reachable_km2), (2, 4.0));
+    let (a, b, c, d) = (strip_area(1), strip_area(2), strip_area(3), strip_area(4));
+    assert_eq!((r.reachable_patches, r.reachable_km2), (2, a + b + 0.0));
     assert_eq!(r.reachable_outside_accessible_km2, 0.0);
     // Just above 5 cells: A -> B -> C -> D in successive jumps; E (10 cells away) is not reached.
     let (m, cols) = run(Some(g5 + 0.01));
@@ -178,8 +191,8 @@ fn stepping_stone_reach_with_known_gaps() {
     assert_eq!(cols[4].reachable, Some(false));
     let r = m.reach.unwrap();
     assert_eq!((r.reachable_patches, r.unreachable_patches), (4, 1));
-    assert_eq!(r.reachable_outside_accessible_km2, 4.0); // C and D, 2 "km2" each here
-                                                         // Just below 5 cells: C stays out, and D with it.
+    assert_eq!(r.reachable_outside_accessible_km2, c + d + 0.0); // C and D
+                                                                 // Just below 5 cells: C stays out, and D with it.
     let (_, cols) = run(Some(g5 - 0.01));
     assert_eq!(cols[2].reachable, Some(false));
     assert_eq!(cols[3].reachable, Some(false));
@@ -201,69 +214,34 @@ fn modelled_figures_of_the_occupied_patch() {
     // 2.46 km2 < AOO 4 km2: EOO := AOO (Guidelines §4.9, from memory).
     assert!(md.figures.eoo_set_to_aoo);
     assert_eq!(md.figures.eoo_km2, Some(4.0));
-    // Structure of the class-1 patches A, B, E (2 "km2" each in this grid).
+    // Structure of the class-1 patches A, B, E (2 cells of about 1.24 km2 each, all below
+    // the 2.5 km2 of the options).
     let s = m.structure.unwrap();
     assert_eq!((s.inside_accessible.patches, s.suitable.patches), (3, 5));
     assert_eq!(s.suitable.share_below_min, Some(1.0));
 }
 
 #[test]
-fn touching_patches_are_zero_apart_and_mismatched_lists_are_refused() {
+fn touching_patches_are_zero_apart() {
     // With 4 neighbours two diagonal cells are two patches sharing a corner: 0 km apart.
     let g = [1u8, 0, 0, 1];
-    let (_, patches) = label_grid(&g, 2, Connectivity::Four, false);
-    let info: Vec<PatchInfo> = patches
-        .iter()
-        .map(|p| PatchInfo {
-            id: p.id,
-            class: p.class,
-            cells: p.cells,
-            area_km2: 1.0,
-            records: 1,
-        })
-        .collect();
     let grid = GridSpec::lonlat(2, 2, 10.0, 45.0, 0.01);
+    let model = model_of(&g, &grid, Connectivity::Four, &[(0, 0), (1, 1)]);
+    assert_eq!(model.patches().len(), 2);
     let recs = [MetricRecord {
         lon: 10.005,
         lat: 44.995,
         usage: RecordUse::Used,
     }];
-    let opts = MetricsOptions::default();
-    let mut src = InMemoryClasses {
-        classes: &g,
-        width: 2,
-    };
-    let (_, cols) = range_metrics(
-        &grid,
-        &mut src,
-        Path::new("m"),
-        Connectivity::Four,
-        Path::new("r"),
-        &recs,
-        &info,
-        &opts,
-    )
-    .unwrap();
+    let (_, cols) =
+        range_metrics(&model, Path::new("r"), &recs, &MetricsOptions::default()).unwrap();
     assert_eq!(cols[0].nearest_patch_km, Some(0.0));
     assert_eq!(cols[1].nearest_occupied_km, Some(0.0));
-    // The same classes read with 8 neighbours make one patch: the list no longer matches.
-    let mut src = InMemoryClasses {
-        classes: &g,
-        width: 2,
-    };
-    let e = range_metrics(
-        &grid,
-        &mut src,
-        Path::new("classes.tif"),
-        Connectivity::Eight,
-        Path::new("r"),
-        &recs,
-        &info,
-        &opts,
-    )
-    .unwrap_err();
-    assert!(
-        e.to_string().contains("classes.tif") && e.to_string().contains("--connectivity"),
-        "{e}"
+    // Read with 8 neighbours the two cells are one patch.
+    assert_eq!(
+        model_of(&g, &grid, Connectivity::Eight, &[])
+            .patches()
+            .len(),
+        1
     );
 }

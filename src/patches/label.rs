@@ -5,6 +5,11 @@
 //! the row, so afterwards the only slots anyone refers to are the roots of the components that
 //! reach the current row; every other slot is released and reused. The number of slots in use
 //! is therefore bounded by the runs of two consecutive rows, never by the rows seen so far.
+//!
+//! Serials: every new component also gets a serial number, and a union links the absorbed
+//! root's serial to the survivor's in an append-only parent array (4 bytes per component ever
+//! created). A run emitted with its root's serial can so be resolved to its final patch at the
+//! end ([`Forest::serial_roots`]), although slots are reused and ids are given only then.
 
 use super::measure::{Acc, Columns};
 
@@ -15,6 +20,8 @@ struct Node {
     rank: u8,
     /// Last row in which a run of the current row resolved to this root.
     live_row: usize,
+    /// The component's serial (a root of the serial forest while this node is a root).
+    serial: u32,
     acc: Acc,
 }
 
@@ -23,15 +30,21 @@ struct Node {
 pub(crate) struct Forest {
     nodes: Vec<Node>,
     free: Vec<u32>,
+    /// Parent of each serial; a serial absorbed by a union points to the survivor's.
+    serial_parent: Vec<u32>,
 }
 
 impl Forest {
     /// A new singleton label holding `acc`.
     pub(crate) fn alloc(&mut self, acc: Acc) -> u32 {
+        let serial = u32::try_from(self.serial_parent.len())
+            .expect("more than 4 billion components in one raster");
+        self.serial_parent.push(serial);
         let node = |id| Node {
             parent: id,
             rank: 0,
             live_row: usize::MAX,
+            serial,
             acc,
         };
         match self.free.pop() {
@@ -75,8 +88,9 @@ impl Forest {
         };
         let gone_node = &mut self.nodes[gone as usize];
         gone_node.parent = keep;
-        let (gone_acc, gone_rank) = (gone_node.acc, gone_node.rank);
+        let (gone_acc, gone_rank, gone_serial) = (gone_node.acc, gone_node.rank, gone_node.serial);
         let k = &mut self.nodes[keep as usize];
+        self.serial_parent[gone_serial as usize] = k.serial;
         k.acc.merge(&gone_acc, cols);
         if k.rank == gone_rank {
             k.rank += 1;
@@ -109,10 +123,38 @@ impl Forest {
         self.nodes[x as usize].rank = 0;
     }
 
-    /// Release slot `x` for reuse and return its accumulator. Nothing may refer to `x` after.
-    pub(crate) fn release(&mut self, x: u32) -> Acc {
+    /// Release slot `x` for reuse and return its accumulator and serial. Nothing may refer to
+    /// `x` after.
+    pub(crate) fn release(&mut self, x: u32) -> (Acc, u32) {
         self.free.push(x);
-        self.nodes[x as usize].acc
+        let n = &self.nodes[x as usize];
+        (n.acc, n.serial)
+    }
+
+    /// The serial of root `x`.
+    pub(crate) fn serial(&self, x: u32) -> u32 {
+        self.nodes[x as usize].serial
+    }
+
+    /// Serials created so far.
+    pub(crate) fn serials(&self) -> usize {
+        self.serial_parent.len()
+    }
+
+    /// Every serial mapped to its final root serial (the serial array is consumed).
+    pub(crate) fn serial_roots(&mut self) -> Vec<u32> {
+        let mut p = std::mem::take(&mut self.serial_parent);
+        for i in 0..p.len() {
+            // Path halving to the root, then point `i` straight at it.
+            let mut x = i as u32;
+            while p[x as usize] != x {
+                let gp = p[p[x as usize] as usize];
+                p[x as usize] = gp;
+                x = gp;
+            }
+            p[i] = x;
+        }
+        p
     }
 
     /// Slots ever allocated (in use or free): the labeller's working memory, in slots.

@@ -25,6 +25,7 @@ pub use raster::label_grid;
 
 use crate::area::RowAreas;
 use label::Forest;
+pub(crate) use measure::Neumaier;
 use measure::{Acc, Columns};
 
 /// Which neighbours join cells into one patch.
@@ -110,8 +111,21 @@ pub struct PatchLabeler {
     /// Scratch: labels created in the row being pushed.
     fresh: Vec<u32>,
     last_row: Option<usize>,
-    /// Finished patches, ids not yet given.
-    done: Vec<Patch>,
+    /// Finished patches with their root serial, ids not yet given.
+    done: Vec<(Patch, u32)>,
+}
+
+/// Final patch ids of the serials the labeller gave its components (see
+/// [`PatchLabeler::last_runs`]): `ids[serial]` is the 1-based id of the patch it ended in.
+#[derive(Debug, Clone, Default)]
+pub struct SerialIds(pub Vec<u32>);
+
+impl SerialIds {
+    /// The patch id of `serial`.
+    #[inline]
+    pub fn id(&self, serial: u32) -> u32 {
+        self.0[serial as usize]
+    }
 }
 
 impl PatchLabeler {
@@ -183,14 +197,40 @@ impl PatchLabeler {
     }
 
     /// All patches, sorted by id.
-    pub fn finish(mut self) -> Vec<Patch> {
+    pub fn finish(self) -> Vec<Patch> {
+        self.finish_with_serials().0
+    }
+
+    /// All patches, sorted by id, and the final id of every serial the labeller gave out.
+    pub fn finish_with_serials(mut self) -> (Vec<Patch>, SerialIds) {
         self.close_all();
-        let mut patches = self.done;
-        patches.sort_unstable_by_key(|p| p.first_cell);
-        for (i, p) in patches.iter_mut().enumerate() {
+        let mut done = std::mem::take(&mut self.done);
+        done.sort_unstable_by_key(|p| p.0.first_cell);
+        let mut ids = self.forest.serial_roots();
+        // Root serials first take their patch's id, then every serial its root's.
+        let mut root_id = vec![0u32; ids.len()];
+        for (i, (p, serial)) in done.iter_mut().enumerate() {
             p.id = u32::try_from(i + 1).expect("more than 4 billion patches");
+            root_id[*serial as usize] = p.id;
         }
-        patches
+        for s in ids.iter_mut() {
+            *s = root_id[*s as usize];
+        }
+        let patches = done.into_iter().map(|(p, _)| p).collect();
+        (patches, SerialIds(ids))
+    }
+
+    /// The runs of the last pushed row as (start, end, serial): columns `start..end`, and the
+    /// serial of their component (resolve it with [`PatchLabeler::finish_with_serials`]).
+    pub fn last_runs(&self) -> impl Iterator<Item = (u32, u32, u32)> + '_ {
+        self.prev
+            .iter()
+            .map(|r| (r.start as u32, r.end as u32, self.forest.serial(r.label)))
+    }
+
+    /// Serials given out so far (4 bytes each are kept until [`Self::finish_with_serials`]).
+    pub fn serials(&self) -> usize {
+        self.forest.serials()
     }
 
     /// Number of components that reach the last pushed row.
@@ -318,8 +358,8 @@ impl PatchLabeler {
                 self.forest.reset_rank(x);
                 still.push(x);
             } else {
-                let acc = self.forest.release(x);
-                self.done.push(acc.into_patch(&self.cols));
+                let (acc, serial) = self.forest.release(x);
+                self.done.push((acc.into_patch(&self.cols), serial));
             }
         }
         self.active = still;
@@ -330,8 +370,8 @@ impl PatchLabeler {
     /// Finish every component still open (end of input, or a gap in the rows).
     fn close_all(&mut self) {
         for &x in &self.active {
-            let acc = self.forest.release(x);
-            self.done.push(acc.into_patch(&self.cols));
+            let (acc, serial) = self.forest.release(x);
+            self.done.push((acc.into_patch(&self.cols), serial));
         }
         self.active.clear();
         self.prev.clear();

@@ -218,11 +218,15 @@ pub fn run_report(dir: &Path) -> Result<Vec<PathBuf>> {
         patches,
         grid: grid.clone(),
     };
-    let mut factory = || -> Result<Option<Box<dyn super::image::AccessRows>>> {
+    let runs_ref = &runs;
+    let mut factory = || -> Result<Option<Box<dyn super::image::AccessRows + '_>>> {
         if whole {
             Ok(None)
         } else {
-            Ok(Some(Box::new(AccessMask::build(&grid, &spec, &lonlat)?)))
+            Ok(Some(Box::new(super::image::RebuiltAccess {
+                mask: AccessMask::build(&grid, &spec, &lonlat)?,
+                classes: runs_ref,
+            })))
         }
     };
     let files = super::render(&data, &runs, &mut factory)?;

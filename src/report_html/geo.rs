@@ -2,9 +2,9 @@
 //! graticule lines and the scale bar.
 
 use super::image::Window;
-use crate::pipeline::normalise_lon;
-use crate::vectors::lonlat::{grid_srs, wgs84};
-use crate::{Error, GridSpec, Result};
+use crate::crs::{grid_srs, transform, wgs84};
+use crate::normalise_lon;
+use crate::{GridSpec, Result};
 use gdal::spatial_ref::CoordTransform;
 use geographiclib_rs::{Geodesic, InverseGeodesic};
 
@@ -18,13 +18,6 @@ pub struct MapGeo {
     from_ll: Option<CoordTransform>,
 }
 
-fn crs_err(e: gdal::errors::GdalError) -> Error {
-    Error::Crs {
-        what: "raster CRS (map)".into(),
-        reason: e.to_string(),
-    }
-}
-
 impl MapGeo {
     /// For `window` of `grid`.
     pub fn new(grid: &GridSpec, window: Window) -> Result<Self> {
@@ -33,8 +26,8 @@ impl MapGeo {
         } else {
             let (g, w) = (grid_srs(grid)?, wgs84()?);
             (
-                Some(CoordTransform::new(&g, &w).map_err(crs_err)?),
-                Some(CoordTransform::new(&w, &g).map_err(crs_err)?),
+                Some(transform(&g, &w, "raster CRS to WGS84 (map)")?),
+                Some(transform(&w, &g, "WGS84 to the raster CRS (map)")?),
             )
         };
         Ok(MapGeo {

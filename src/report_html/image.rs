@@ -5,7 +5,7 @@
 //! class present in the block: class 1 > class 2 > class 0 > nodata, so a class-1 patch of a
 //! single cell still colours its pixel, however large the grid.
 
-use super::runs::{RowRuns, Run};
+use super::runs::{ClassRuns, RowSource, Run};
 use crate::raster_io::class;
 use crate::Result;
 
@@ -82,16 +82,14 @@ const CLASS_OF_RANK: [u8; 5] = [class::NODATA, class::NODATA, 0, 2, 1];
 
 impl ClassImage {
     /// Decimate the runs of `src` inside `window`.
-    pub fn build(src: &dyn RowRuns, window: Window) -> Self {
+    pub fn build(src: &dyn RowSource, window: Window) -> Result<Self> {
         let (iw, ih) = window.image_size();
         let width = src.width();
         let f = window.factor;
         let mut ranks = vec![0u8; iw * ih];
-        for r in 0..window.rows {
-            let row = window.row0 + r;
-            if row >= src.height() {
-                break;
-            }
+        let rows = window.row0..(window.row0 + window.rows).min(src.height());
+        src.for_rows(rows, &mut |row, runs| {
+            let r = row - window.row0;
             let line = &mut ranks[(r / f) * iw..(r / f + 1) * iw];
             let mut mark = |start: usize, end: usize, k: u8| {
                 for (a, b) in clip(start, end, &window, width) {
@@ -102,7 +100,7 @@ impl ClassImage {
                 }
             };
             let mut c = 0usize;
-            for &Run { start, end, class } in src.row_runs(row) {
+            for &Run { start, end, class } in runs {
                 let (s, e) = (start as usize, end as usize);
                 if s > c {
                     mark(c, s, 0);
@@ -113,8 +111,9 @@ impl ClassImage {
             if c < width {
                 mark(c, width, 0);
             }
-        }
-        ClassImage {
+            Ok(())
+        })?;
+        Ok(ClassImage {
             cols: iw,
             rows: ih,
             window,
@@ -122,7 +121,7 @@ impl ClassImage {
                 .into_iter()
                 .map(|k| CLASS_OF_RANK[k as usize])
                 .collect(),
-        }
+        })
     }
 
     /// Pixels of each class: [class 0, class 1, class 2, nodata].
@@ -164,9 +163,40 @@ pub trait AccessRows {
     fn access_row(&mut self, row: usize, out: &mut [bool]) -> Result<()>;
 }
 
-impl AccessRows for crate::access::AccessMask {
+/// M of the run: the range model's M runs (data cells inside M).
+pub struct ModelAccess<'a>(pub &'a crate::RangeModel);
+
+impl AccessRows for ModelAccess<'_> {
     fn access_row(&mut self, row: usize, out: &mut [bool]) -> Result<()> {
-        self.fill_row(row, out)
+        out.iter_mut().for_each(|v| *v = false);
+        for &(s, e) in self.0.m_row(row) {
+            out[s as usize..e as usize]
+                .iter_mut()
+                .for_each(|v| *v = true);
+        }
+        Ok(())
+    }
+}
+
+/// M rebuilt from the run's M options, restricted to data cells like the model's M.
+pub struct RebuiltAccess<'a> {
+    /// M from the options.
+    pub mask: crate::access::AccessMask,
+    /// The classes (for nodata).
+    pub classes: &'a ClassRuns,
+}
+
+impl AccessRows for RebuiltAccess<'_> {
+    fn access_row(&mut self, row: usize, out: &mut [bool]) -> Result<()> {
+        self.mask.fill_row(row, out)?;
+        for r in self.classes.row_runs(row) {
+            if r.class == class::NODATA {
+                out[r.start as usize..r.end as usize]
+                    .iter_mut()
+                    .for_each(|v| *v = false);
+            }
+        }
+        Ok(())
     }
 }
 
@@ -219,7 +249,7 @@ mod tests {
         let runs = grid_runs(w, h, &cells);
         let win = Window::fit(0, 0, w, h, 100, 50);
         assert_eq!(win.factor, 40);
-        let img = ClassImage::build(&runs, win);
+        let img = ClassImage::build(&runs, win).unwrap();
         assert_eq!((img.cols, img.rows), (100, 50));
         // The pixel holding (777, 1235) is class 1; the rest of that column of pixels is class 2.
         assert_eq!(img.pixels[(777 / 40) * 100 + 1235 / 40], 1);
@@ -241,7 +271,8 @@ mod tests {
                 rows: 2,
                 factor: 2,
             },
-        );
+        )
+        .unwrap();
         assert_eq!(img.pixels, vec![255, 0]);
     }
 
@@ -259,7 +290,8 @@ mod tests {
                 rows: 1,
                 factor: 1,
             },
-        );
+        )
+        .unwrap();
         assert_eq!(img.pixels, vec![0, 2, 1, 0]);
     }
 }

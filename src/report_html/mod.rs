@@ -2,7 +2,7 @@
 //! PNG, the charts as inline SVG, no network) and `map.png`.
 //!
 //! Data flow: the report is drawn from the run's own figures (summary.json's content, the
-//! record and patch rows) and from the class rows as runs ([`runs::RowRuns`]), decimated with
+//! record and patch rows) and from the range model's runs ([`runs::RowSource`]), decimated with
 //! class priority ([`image::ClassImage`]); M is sampled at the map's pixels. `areal report DIR`
 //! ([`folder::run_report`]) rebuilds the same inputs from a finished run folder.
 
@@ -18,7 +18,7 @@ pub mod text;
 
 use crate::{GridSpec, Result};
 use image::{access_image, AccessRows, ClassImage, Window};
-use runs::RowRuns;
+use runs::RowSource;
 
 /// How the report is made.
 #[derive(Debug, Clone, Default)]
@@ -93,7 +93,7 @@ impl ReportData {
                     lat: x.lat,
                     cell: x.row.zip(x.col),
                     suitability: x.suitability,
-                    status: x.status.to_string(),
+                    status: x.status.as_str().to_string(),
                 })
                 .collect(),
             patches: r
@@ -113,7 +113,7 @@ impl ReportData {
 
 /// Makes a fresh M to sample rows from (rows are asked in increasing order), or None when
 /// M is the whole raster.
-pub type AccessFactory<'a> = dyn FnMut() -> Result<Option<Box<dyn AccessRows>>> + 'a;
+pub type AccessFactory<'a> = dyn FnMut() -> Result<Option<Box<dyn AccessRows + 'a>>> + 'a;
 
 /// The finished report files.
 pub struct ReportFiles {
@@ -126,14 +126,14 @@ pub struct ReportFiles {
 /// Make the map and the page.
 pub fn render(
     data: &ReportData,
-    classes: &dyn RowRuns,
+    classes: &dyn RowSource,
     access: &mut AccessFactory<'_>,
 ) -> Result<ReportFiles> {
     let grid = &data.grid;
     let (w, h) = (grid.width, grid.height);
     let (mw, mh) = draw::PANEL_MAX;
     let whole = Window::fit(0, 0, w, h, mw, mh);
-    let whole_img = ClassImage::build(classes, whole);
+    let whole_img = ClassImage::build(classes, whole)?;
     let whole_m = match access()? {
         Some(mut m) => Some(access_image(m.as_mut(), &whole, w, h)?),
         None => None,
@@ -165,17 +165,19 @@ pub fn render(
         (whole_img, whole_m, None)
     } else {
         let win = Window::fit(c0, r0, cols, nrows, mw, mh);
-        let img = ClassImage::build(classes, win);
+        let img = ClassImage::build(classes, win)?;
         let m = match access()? {
             Some(mut m) => Some(access_image(m.as_mut(), &win, w, h)?),
             None => None,
         };
-        let locator = (cols < w || nrows < h).then(|| {
-            ClassImage::build(
+        let locator = if cols < w || nrows < h {
+            Some(ClassImage::build(
                 classes,
                 Window::fit(0, 0, w, h, draw::LOCATOR.0, draw::LOCATOR.1),
-            )
-        });
+            )?)
+        } else {
+            None
+        };
         (img, m, locator)
     };
     let s = &data.summary;
@@ -244,28 +246,22 @@ mod tests {
     }
 }
 
-/// The report of a run in progress: drawn from the run's result and the class runs kept
-/// during the pass, written into the run's temporary folder.
+/// The report of a run in progress: drawn from the run's result and its range model (with
+/// the nodata runs kept during the pass), written into the run's temporary folder.
 pub fn write_run_report(
     dir: &crate::OutputDir,
     result: &crate::RangeResult,
-    grid: &GridSpec,
-    classes: &dyn RowRuns,
-    access: &crate::access::AccessSpec,
+    model: &crate::RangeModel,
+    nodata: &runs::ClassRuns,
 ) -> Result<()> {
+    let grid = model.grid();
     let data = ReportData::from_result(result, grid);
-    let lonlat: Vec<(f64, f64)> = result.records.iter().map(|r| (r.lon, r.lat)).collect();
-    let whole = result.summary.accessible.whole_raster;
-    let mut factory = || -> Result<Option<Box<dyn AccessRows>>> {
-        if whole {
-            Ok(None)
-        } else {
-            Ok(Some(Box::new(crate::access::AccessMask::build(
-                grid, access, &lonlat,
-            )?)))
-        }
+    let whole = result.summary.accessible.whole_raster || !model.has_m();
+    let mut factory = || -> Result<Option<Box<dyn AccessRows + '_>>> {
+        Ok((!whole).then(|| Box::new(image::ModelAccess(model)) as Box<dyn AccessRows>))
     };
-    let files = render(&data, classes, &mut factory)?;
+    let rows = runs::ModelRows { model, nodata };
+    let files = render(&data, &rows, &mut factory)?;
     let png = dir.file("map.png");
     std::fs::write(&png, &files.map_png).map_err(crate::Error::io(&png))?;
     crate::output::write_text(&dir.file("report.html"), &files.html)

@@ -1,11 +1,13 @@
 //! Class rows as runs: the form the map is drawn from.
 //!
 //! A row is a sorted list of non-overlapping [`Run`]s of class 1, class 2 and nodata cells;
-//! cells that no run covers are class 0. [`ClassRuns`] builds them from class rows as the
-//! pass writes them (or as `areal report` reads a finished `classes.tif`); anything that can
-//! hand out a row's runs ([`RowRuns`]) can be drawn.
+//! cells that no run covers are class 0. Sources ([`RowSource`]): the run's [`RangeModel`]
+//! (patch runs) with the nodata runs kept as the pass wrote its rows ([`NodataTee`]), or, for
+//! `areal report`, [`ClassRuns`] read from a finished `classes.tif`.
 
 use crate::raster_io::class;
+use crate::{RangeModel, Result};
+use std::ops::Range;
 
 /// Cells `start..end` of a row hold `class` (1, 2 or 255).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -19,18 +21,25 @@ pub struct Run {
 }
 
 /// Rows of runs on a grid.
-pub trait RowRuns {
+pub trait RowSource {
     /// Grid width (columns).
     fn width(&self) -> usize;
     /// Grid height (rows).
     fn height(&self) -> usize;
-    /// The runs of `row`, sorted by start, not overlapping; uncovered cells are class 0.
-    fn row_runs(&self, row: usize) -> &[Run];
+    /// Call `f` for each row of `rows`, in order, with its runs (sorted by start, not
+    /// overlapping; uncovered cells are class 0).
+    fn for_rows(
+        &self,
+        rows: Range<usize>,
+        f: &mut dyn FnMut(usize, &[Run]) -> Result<()>,
+    ) -> Result<()>;
 }
 
 /// Runs of every row, built from class rows.
 #[derive(Debug, Clone, Default)]
 pub struct ClassRuns {
+    /// Keep nodata runs only (class 1 and 2 come from the model).
+    nodata_only: bool,
     width: usize,
     /// `runs[row_start[r]..row_start[r + 1]]` are the runs of row r.
     row_start: Vec<usize>,
@@ -41,6 +50,7 @@ impl ClassRuns {
     /// No rows yet, on a grid `width` columns wide.
     pub fn new(width: usize) -> Self {
         ClassRuns {
+            nodata_only: false,
             width,
             row_start: vec![0],
             runs: Vec::new(),
@@ -69,6 +79,9 @@ impl ClassRuns {
                 c += 1;
             }
             let code = if k == class::INSIDE || k == class::OUTSIDE {
+                if self.nodata_only {
+                    continue;
+                }
                 k
             } else {
                 class::NODATA
@@ -107,43 +120,117 @@ impl ClassRuns {
     }
 }
 
-impl RowRuns for ClassRuns {
+impl ClassRuns {
+    /// The runs of `row`.
+    pub fn row_runs(&self, row: usize) -> &[Run] {
+        &self.runs[self.row_start[row]..self.row_start[row + 1]]
+    }
+
+    /// Whether cell (`row`, `col`) is nodata.
+    pub fn is_nodata(&self, row: usize, col: usize) -> bool {
+        let runs = self.row_runs(row);
+        let i = runs.partition_point(|r| (r.end as usize) <= col);
+        runs.get(i)
+            .is_some_and(|r| r.start as usize <= col && r.class == class::NODATA)
+    }
+}
+
+impl RowSource for ClassRuns {
     fn width(&self) -> usize {
         self.width
     }
     fn height(&self) -> usize {
         self.rows()
     }
-    fn row_runs(&self, row: usize) -> &[Run] {
-        &self.runs[self.row_start[row]..self.row_start[row + 1]]
+    fn for_rows(
+        &self,
+        rows: Range<usize>,
+        f: &mut dyn FnMut(usize, &[Run]) -> Result<()>,
+    ) -> Result<()> {
+        for r in rows.start..rows.end.min(self.rows()) {
+            f(r, self.row_runs(r))?;
+        }
+        Ok(())
     }
 }
 
-/// Receives the class rows of the pass and forwards them: keeps the runs for the map.
-pub struct RunsTee<'a> {
+/// The run's range model (patch runs) with the nodata runs kept during the pass.
+pub struct ModelRows<'a> {
+    /// The model.
+    pub model: &'a RangeModel,
+    /// Nodata runs of every row ([`NodataTee`]).
+    pub nodata: &'a ClassRuns,
+}
+
+impl RowSource for ModelRows<'_> {
+    fn width(&self) -> usize {
+        self.model.grid().width
+    }
+    fn height(&self) -> usize {
+        self.model.grid().height
+    }
+    fn for_rows(
+        &self,
+        rows: Range<usize>,
+        f: &mut dyn FnMut(usize, &[Run]) -> Result<()>,
+    ) -> Result<()> {
+        let mut merged: Vec<Run> = Vec::new();
+        self.model.for_rows(rows, &mut |row, patch_runs| {
+            merged.clear();
+            let holes: &[Run] = if row < self.nodata.rows() {
+                self.nodata.row_runs(row)
+            } else {
+                &[]
+            };
+            let mut h = holes.iter().peekable();
+            for pr in patch_runs {
+                while let Some(n) = h.next_if(|n| n.start < pr.start) {
+                    merged.push(*n);
+                }
+                merged.push(Run {
+                    start: pr.start,
+                    end: pr.end,
+                    class: self.model.class_of(pr.patch),
+                });
+            }
+            merged.extend(h);
+            f(row, &merged)
+        })
+    }
+}
+
+/// Receives the class rows of the pass and forwards them, keeping the nodata runs (the
+/// range model holds the patch cells and M, not nodata).
+pub struct NodataTee<'a> {
     /// The sink the rows go to (`classes.tif`).
     pub inner: &'a mut dyn crate::RowSink,
-    /// The runs kept.
+    /// The nodata runs kept.
     pub runs: ClassRuns,
     next_row: usize,
 }
 
-impl<'a> RunsTee<'a> {
-    /// Forward to `inner`, keeping runs of a grid `width` wide.
+impl<'a> NodataTee<'a> {
+    /// Forward to `inner`, keeping nodata runs of a grid `width` wide.
     pub fn new(inner: &'a mut dyn crate::RowSink, width: usize) -> Self {
-        RunsTee {
+        NodataTee {
             inner,
-            runs: ClassRuns::new(width),
+            runs: ClassRuns {
+                nodata_only: true,
+                ..ClassRuns::new(width)
+            },
             next_row: 0,
         }
     }
 }
 
-impl crate::RowSink for RunsTee<'_> {
+impl crate::RowSink for NodataTee<'_> {
     fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> crate::Result<Vec<u8>> {
         if y0 < self.next_row {
             // A second classification (binary input) replaces the rows: start again.
-            self.runs = ClassRuns::new(self.runs.width);
+            self.runs = ClassRuns {
+                nodata_only: true,
+                ..ClassRuns::new(self.runs.width)
+            };
             self.next_row = 0;
         }
         if y0 == self.next_row {

@@ -81,7 +81,7 @@ pub(crate) fn choose(spec: &VectorCrs, grid: &GridSpec) -> Result<Target> {
                 });
             }
             let r = |v: f64| (v * 1000.0).round() / 1000.0;
-            let lon0 = r(crate::pipeline::normalise_lon((w + e) / 2.0));
+            let lon0 = r(crate::grid::normalise_lon((w + e) / 2.0));
             let lat0 = r((s + n) / 2.0);
             let proj = format!(
                 "+proj=laea +lat_0={lat0} +lon_0={lon0} +x_0=0 +y_0=0 +datum=WGS84 +units=m +no_defs"

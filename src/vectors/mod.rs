@@ -26,7 +26,7 @@ mod crs;
 mod distance;
 mod inputs;
 mod layers;
-pub(crate) mod lonlat;
+mod lonlat;
 mod polygonize;
 #[cfg(test)]
 mod tests;

@@ -3,6 +3,10 @@
 //!
 //! Every area is in km2 on the ellipsoid (see `area_method`); every count says what it counts.
 
+mod build;
+
+pub(crate) use build::{build_result, BuildInput};
+
 use crate::{Error, Result};
 use serde::{Deserialize, Serialize};
 use std::path::Path;
@@ -260,7 +264,38 @@ pub struct RecordRow {
     /// Class of its cell (0, 1, 2, 255), empty when outside.
     pub class: Option<u8>,
     /// used, below_threshold, outside_raster or on_nodata.
-    pub status: &'static str,
+    pub status: RecordStatus,
+}
+
+/// Where a record stands after the pass.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RecordStatus {
+    /// On a cell at or above the threshold.
+    Used,
+    /// On a data cell below the threshold: dropped by it.
+    BelowThreshold,
+    /// Outside the raster: excluded.
+    OutsideRaster,
+    /// On a nodata cell: excluded.
+    OnNodata,
+}
+
+impl RecordStatus {
+    /// The word written in records.csv.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            RecordStatus::Used => "used",
+            RecordStatus::BelowThreshold => "below_threshold",
+            RecordStatus::OutsideRaster => "outside_raster",
+            RecordStatus::OnNodata => "on_nodata",
+        }
+    }
+
+    /// Whether the record is excluded from everything (outside the raster or on nodata).
+    pub fn excluded(self) -> bool {
+        matches!(self, RecordStatus::OutsideRaster | RecordStatus::OnNodata)
+    }
 }
 
 /// Write rows as CSV with a header.

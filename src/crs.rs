@@ -1,0 +1,118 @@
+//! The one place that builds GDAL spatial references: WGS84, the grid's CRS, the axis order,
+//! and the transform from grid pixels to WGS84 lon/lat.
+//!
+//! Every `SpatialRef` here has the traditional GIS axis order (x = longitude or easting), so
+//! no caller has to think about EPSG:4326's official latitude-first order.
+
+use crate::grid::normalise_lon;
+use crate::{Error, GridSpec, Result};
+use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
+
+fn crs_err(what: &str) -> impl Fn(gdal::errors::GdalError) -> Error + '_ {
+    move |e| Error::Crs {
+        what: what.into(),
+        reason: e.to_string(),
+    }
+}
+
+/// `srs` with x = longitude / easting.
+pub(crate) fn traditional(mut srs: SpatialRef) -> SpatialRef {
+    srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
+    srs
+}
+
+/// WGS84 lon/lat (EPSG:4326), x = longitude.
+pub(crate) fn wgs84() -> Result<SpatialRef> {
+    Ok(traditional(
+        SpatialRef::from_epsg(4326).map_err(crs_err("EPSG:4326"))?,
+    ))
+}
+
+/// The grid's CRS (WGS84 lon/lat when a geographic grid carries none), x first. A projected
+/// grid without a CRS is an error.
+pub(crate) fn grid_srs(grid: &GridSpec) -> Result<SpatialRef> {
+    if grid.crs_wkt.trim().is_empty() {
+        if !grid.geographic {
+            return Err(Error::Crs {
+                what: "raster CRS".into(),
+                reason: "the raster is projected but carries no CRS; assign one to the raster \
+                         (e.g. gdal_edit.py -a_srs EPSG:6933 FILE) and run again"
+                    .into(),
+            });
+        }
+        return wgs84();
+    }
+    Ok(traditional(
+        SpatialRef::from_wkt(&grid.crs_wkt).map_err(crs_err("raster CRS"))?,
+    ))
+}
+
+/// A transform between two spatial references, named `what` in errors.
+pub(crate) fn transform(src: &SpatialRef, dst: &SpatialRef, what: &str) -> Result<CoordTransform> {
+    CoordTransform::new(src, dst).map_err(crs_err(what))
+}
+
+/// Transform `xs`/`ys` in place; any failure, or a point that does not transform to finite
+/// values, is an error naming `what`.
+pub(crate) fn transform_points(
+    ct: &CoordTransform,
+    xs: &mut [f64],
+    ys: &mut [f64],
+    what: &str,
+) -> Result<()> {
+    if xs.is_empty() {
+        return Ok(());
+    }
+    ct.transform_coords(xs, ys, &mut [])
+        .map_err(|e| Error::Crs {
+            what: what.into(),
+            reason: format!("transforming points: {e}"),
+        })?;
+    if xs.iter().chain(ys.iter()).any(|v| !v.is_finite()) {
+        return Err(Error::Crs {
+            what: what.into(),
+            reason: "a point could not be transformed (it may lie opposite the grid's centre)"
+                .into(),
+        });
+    }
+    Ok(())
+}
+
+/// Grid coordinates (the grid's CRS units) to WGS84 lon/lat.
+pub(crate) struct LonLat {
+    to_wgs84: Option<CoordTransform>,
+}
+
+impl LonLat {
+    /// For `grid`: no transform on a lon/lat grid.
+    pub(crate) fn new(grid: &GridSpec) -> Result<Self> {
+        if grid.geographic {
+            return Ok(LonLat { to_wgs84: None });
+        }
+        let src = grid_srs(grid)?;
+        Ok(LonLat {
+            to_wgs84: Some(transform(&src, &wgs84()?, "raster CRS")?),
+        })
+    }
+
+    /// The transform to WGS84, `None` on a lon/lat grid.
+    pub(crate) fn transform(&self) -> Option<&CoordTransform> {
+        self.to_wgs84.as_ref()
+    }
+
+    /// One point to (lon, lat); longitudes of a lon/lat grid into [-180, 180).
+    pub(crate) fn point(&self, x: f64, y: f64) -> Result<(f64, f64)> {
+        match &self.to_wgs84 {
+            None => Ok((normalise_lon(x), y)),
+            Some(ct) => {
+                let (mut xs, mut ys) = ([x], [y]);
+                ct.transform_coords(&mut xs, &mut ys, &mut [])
+                    .map_err(|e| Error::Crs {
+                        what: "raster CRS".into(),
+                        reason: format!("to WGS84: {e}"),
+                    })?;
+                Ok((xs[0], ys[0]))
+            }
+        }
+    }
+}

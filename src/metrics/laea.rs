@@ -1,0 +1,149 @@
+//! Cell centres of grid rows into the AOO grid's Lambert azimuthal equal-area CRS.
+//!
+//! On a WGS84 lon/lat grid the forward projection is done here, row by row: every cell of a
+//! row has the same latitude, so its authalic latitude and the row's constants are computed
+//! once, and each cell costs one sine and cosine of its longitude difference. Formulas: the
+//! ellipsoidal oblique LAEA of Snyder (1987), USGS Professional Paper 1395, eqs. 3-12 (q),
+//! 24-2, 24-3 and 24-10 to 24-14, as PROJ's `laea` uses them. Other grids (projected, another
+//! datum, or an AOO grid centred within 0.01 degrees of a pole, where the oblique formulas
+//! degenerate) go through PROJ.
+
+use super::aoo::AooSpec;
+use crate::area::Ellipsoid;
+use crate::{GridSpec, Result};
+use gdal::spatial_ref::CoordTransform;
+
+/// Projects the cell centres of one row at a time.
+pub(crate) enum RowProjector {
+    /// The closed form on WGS84.
+    Laea(Laea),
+    /// PROJ, for every other grid.
+    Proj {
+        ct: CoordTransform,
+        gt: [f64; 6],
+        xs: Vec<f64>,
+        ys: Vec<f64>,
+    },
+}
+
+/// Constants of an oblique ellipsoidal LAEA, and the source grid's geotransform.
+pub(crate) struct Laea {
+    e: f64,
+    e2: f64,
+    qp: f64,
+    rq: f64,
+    d: f64,
+    sin_b1: f64,
+    cos_b1: f64,
+    lon0: f64,
+    gt: [f64; 6],
+}
+
+/// Snyder's q (eq. 3-12) for sin(phi).
+fn q(e: f64, e2: f64, s: f64) -> f64 {
+    (1.0 - e2) * (s / (1.0 - e2 * s * s) - (1.0 / (2.0 * e)) * ((1.0 - e * s) / (1.0 + e * s)).ln())
+}
+
+impl Laea {
+    fn new(lon0: f64, lat0: f64, gt: [f64; 6]) -> Laea {
+        let ell = Ellipsoid::WGS84;
+        let (a, e2) = (ell.a, ell.e2());
+        let e = e2.sqrt();
+        let qp = q(e, e2, 1.0);
+        let rq = a * (qp / 2.0).sqrt();
+        let s1 = lat0.to_radians().sin();
+        let sin_b1 = q(e, e2, s1) / qp;
+        let cos_b1 = (1.0 - sin_b1 * sin_b1).sqrt();
+        let m1 = lat0.to_radians().cos() / (1.0 - e2 * s1 * s1).sqrt();
+        let d = a * m1 / (rq * cos_b1);
+        Laea {
+            e,
+            e2,
+            qp,
+            rq,
+            d,
+            sin_b1,
+            cos_b1,
+            lon0,
+            gt,
+        }
+    }
+
+    /// Project the centres of columns `cols` of the row at latitude `lat` (degrees).
+    pub(crate) fn row_at(&self, lat: f64, cols: &[u32], out: &mut Vec<(f64, f64)>) {
+        let sin_b = (q(self.e, self.e2, lat.to_radians().sin()) / self.qp).clamp(-1.0, 1.0);
+        let cos_b = (1.0 - sin_b * sin_b).sqrt();
+        let (x0, dx) = (self.gt[0], self.gt[1]);
+        for &c in cols {
+            let lon = x0 + (c as f64 + 0.5) * dx;
+            let (sl, cl) = (lon - self.lon0).to_radians().sin_cos();
+            let b = self.rq * (2.0 / (1.0 + self.sin_b1 * sin_b + self.cos_b1 * cos_b * cl)).sqrt();
+            out.push((
+                b * self.d * cos_b * sl,
+                (b / self.d) * (self.cos_b1 * sin_b - self.sin_b1 * cos_b * cl),
+            ));
+        }
+    }
+}
+
+impl RowProjector {
+    pub(crate) fn new(aoo: &AooSpec, grid: &GridSpec) -> Result<RowProjector> {
+        let (lon0, lat0) = aoo.centre;
+        let src = crate::crs::grid_srs(grid)?;
+        let on_wgs84 =
+            grid.geographic && (grid.crs_wkt.trim().is_empty() || src == crate::crs::wgs84()?);
+        if on_wgs84 && lat0.abs() < 89.99 {
+            return Ok(RowProjector::Laea(Laea::new(
+                lon0,
+                lat0,
+                grid.geo_transform,
+            )));
+        }
+        Ok(RowProjector::Proj {
+            ct: crate::crs::transform(
+                &src,
+                &crate::crs::traditional(
+                    gdal::spatial_ref::SpatialRef::from_proj4(&aoo.proj).map_err(|e| {
+                        crate::Error::Crs {
+                            what: "AOO grid CRS".into(),
+                            reason: e.to_string(),
+                        }
+                    })?,
+                ),
+                "AOO grid CRS",
+            )?,
+            gt: grid.geo_transform,
+            xs: Vec::new(),
+            ys: Vec::new(),
+        })
+    }
+
+    /// Project the centres of `cols` in grid row `row`, appending (x, y) metres to `out`
+    /// (cleared first).
+    pub(crate) fn row(
+        &mut self,
+        row: usize,
+        cols: &[u32],
+        out: &mut Vec<(f64, f64)>,
+    ) -> Result<()> {
+        out.clear();
+        match self {
+            RowProjector::Laea(l) => {
+                let lat = l.gt[3] + (row as f64 + 0.5) * l.gt[5];
+                l.row_at(lat, cols, out);
+            }
+            RowProjector::Proj { ct, gt, xs, ys } => {
+                let y = gt[3] + (row as f64 + 0.5) * gt[5];
+                for chunk in cols.chunks(65_536) {
+                    xs.clear();
+                    ys.clear();
+                    xs.extend(chunk.iter().map(|&c| gt[0] + (c as f64 + 0.5) * gt[1]));
+                    ys.resize(xs.len(), y);
+                    crate::crs::transform_points(ct, xs, ys, "range cells to the AOO grid CRS")?;
+                    out.extend(xs.iter().copied().zip(ys.iter().copied()));
+                }
+            }
+        }
+        Ok(())
+    }
+}

@@ -1,0 +1,175 @@
+//! The pass's consumer: the strips in order; M applied, cells counted and measured, rows
+//! fed to the model builder.
+
+use super::place::PlacedRecord;
+use super::{PassInput, PassOutput, UNSUITABLE_IN_M};
+use crate::access::AccessMask;
+use crate::area::{CellAreas, RowAreas};
+use crate::model::{ModelBuilder, RowM, Totals};
+use crate::patches::Neumaier;
+use crate::raster_io::{class, SuitabilityRaster};
+use crate::{Error, GridSpec, Result};
+use std::collections::BTreeMap;
+
+pub(super) struct Consumer {
+    width: usize,
+    cells: [u64; 4], // 0, 1, 2, nodata
+    area_m2: [Neumaier; 3],
+    accessible_m2: Neumaier,
+    all_binary: bool,
+    builder: ModelBuilder,
+    connectivity: crate::patches::Connectivity,
+    in_m: Vec<bool>,
+    rec_counts: Vec<(usize, u64)>,
+    /// The workers applied M already (codes 0..=3, see `apply_m_in_worker`).
+    prefilled: bool,
+}
+
+impl Consumer {
+    pub(super) fn new(grid: &GridSpec, input: &PassInput<'_>, prefilled: bool) -> Self {
+        Consumer {
+            width: grid.width,
+            cells: [0; 4],
+            area_m2: Default::default(),
+            accessible_m2: Neumaier::default(),
+            all_binary: true,
+            builder: ModelBuilder::new(grid, input.connectivity, input.model),
+            connectivity: input.connectivity,
+            in_m: vec![false; grid.width],
+            rec_counts: Vec::new(),
+            prefilled,
+        }
+    }
+
+    /// Apply M, measure, label; returns the finished class rows.
+    #[allow(clippy::too_many_arguments)]
+    pub(super) fn strip(
+        &mut self,
+        y0: usize,
+        codes: Vec<u8>,
+        binary: bool,
+        access: &mut AccessMask,
+        areas: &mut CellAreas,
+        rows_records: &BTreeMap<usize, Vec<(usize, usize)>>,
+        placed: &mut [PlacedRecord],
+        raster: &SuitabilityRaster,
+    ) -> Result<Vec<u8>> {
+        let w = self.width;
+        let mut classes = codes;
+        self.all_binary &= binary;
+        let whole = access.is_whole_raster();
+        for (r, cls) in classes.chunks_mut(w).enumerate() {
+            let row = y0 + r;
+            if self.prefilled {
+                // Codes from the workers: 3 = below threshold in M, back to 0.
+                for (k, m) in cls.iter_mut().zip(self.in_m.iter_mut()) {
+                    *m = (*k == class::INSIDE) | (*k == UNSUITABLE_IN_M);
+                    *k -= (*k == UNSUITABLE_IN_M) as u8 * UNSUITABLE_IN_M;
+                }
+            } else if !whole {
+                access.fill_row(row, &mut self.in_m)?;
+                // Suitable cells outside M become class 2 (branch-free so the loops vectorise).
+                for (k, &m) in cls.iter_mut().zip(&self.in_m) {
+                    *k += (*k == class::INSIDE) as u8 & (m as u8 ^ 1);
+                }
+            }
+            let row_areas = areas.row_allow_outside(row)?;
+            self.measure(row, cls, &row_areas, whole, raster)?;
+            self.rec_counts.clear();
+            if let Some(list) = rows_records.get(&row) {
+                for &(c, i) in list {
+                    placed[i].class = Some(cls[c]);
+                    self.rec_counts.push((c, 1));
+                }
+            }
+            let m = if whole {
+                RowM::Whole
+            } else {
+                RowM::Cells(&self.in_m)
+            };
+            self.builder
+                .push_row(row, cls, &row_areas, &self.rec_counts, m)?;
+        }
+        Ok(classes)
+    }
+
+    /// Count the row's cells per class and add their areas.
+    fn measure(
+        &mut self,
+        row: usize,
+        cls: &[u8],
+        row_areas: &RowAreas,
+        whole: bool,
+        raster: &SuitabilityRaster,
+    ) -> Result<()> {
+        let w = self.width;
+        // u32 sums widen less than u64 counts in the vector loops (a row has < 2^32 cells).
+        let count = |v: u8| cls.iter().map(|&k| (k == v) as u32).sum::<u32>() as u64;
+        let (n0, n1, nd) = (count(0), count(1), count(class::NODATA));
+        let counts = [n0, n1, w as u64 - n0 - n1 - nd, nd];
+        let m_cells = if whole {
+            w as u64 - nd
+        } else {
+            cls.iter()
+                .zip(&self.in_m)
+                .map(|(&k, &m)| (m as u32) & (k != class::NODATA) as u32)
+                .sum::<u32>() as u64
+        };
+        for k in 0..4 {
+            self.cells[k] += counts[k];
+        }
+        match row_areas {
+            RowAreas::Uniform(a) => {
+                for k in 0..3 {
+                    self.area_m2[k].add(counts[k] as f64 * a);
+                }
+                self.accessible_m2.add(m_cells as f64 * a);
+            }
+            RowAreas::PerCell(v) => {
+                let mut sums = [0f64; 3];
+                let mut m = 0f64;
+                for (c, &k) in cls.iter().enumerate() {
+                    if k == class::NODATA {
+                        continue;
+                    }
+                    let a = v[c];
+                    if !a.is_finite() {
+                        return Err(Error::UnsupportedRaster {
+                            path: raster.path().to_path_buf(),
+                            reason: format!(
+                                "the data cell at row {row}, column {c} lies outside the valid area of the raster's \
+                                 projection, so its true area cannot be measured; set it to nodata or reproject the raster"
+                            ),
+                        });
+                    }
+                    sums[k as usize] += a;
+                    if whole || self.in_m[c] {
+                        m += a;
+                    }
+                }
+                for k in 0..3 {
+                    self.area_m2[k].add(sums[k]);
+                }
+                self.accessible_m2.add(m);
+            }
+        }
+        Ok(())
+    }
+
+    pub(super) fn finish(self, grid: &GridSpec) -> Result<PassOutput> {
+        let totals = Totals {
+            cells_unsuitable: self.cells[0],
+            cells_inside: self.cells[1],
+            cells_outside: self.cells[2],
+            cells_nodata: self.cells[3],
+            area_m2_unsuitable: self.area_m2[0].value(),
+            area_m2_inside: self.area_m2[1].value(),
+            area_m2_outside: self.area_m2[2].value(),
+            area_m2_accessible: self.accessible_m2.value(),
+        };
+        Ok(PassOutput {
+            model: self.builder.finish(grid, self.connectivity, totals)?,
+            all_binary: self.all_binary,
+        })
+    }
+}

@@ -1,0 +1,199 @@
+//! The pass: one streaming read of the suitability raster that classifies every cell, writes
+//! the class rows and builds the [`RangeModel`].
+//!
+//! Decoding dominates the cost, so `decode_threads` workers (each with its own GDAL handle)
+//! read strips and compare them with T (and, for a record buffer on a lon/lat grid, apply M);
+//! the calling thread receives the strips in order, applies M, counts and measures cells,
+//! feeds the model builder and hands the rows to the class sink.
+//!
+//! Memory: a few strips of values and classes, the labeller's two-row state, the per-patch
+//! accumulators and the model's runs (spilled beyond its budget). The raster is never held
+//! whole.
+
+mod consumer;
+pub(crate) mod place;
+mod sink;
+
+pub use sink::{MemorySink, RowSink};
+
+use crate::access::{AccessMask, RowFiller};
+use crate::area::CellAreas;
+use crate::model::{ModelOptions, RangeModel};
+use crate::patches::Connectivity;
+use crate::progress::ProgressHandle;
+use crate::raster_io::{class, StripBuffers, SuitabilityRaster, STRIP_ROWS};
+use crate::{Error, Result};
+use consumer::Consumer;
+use place::PlacedRecord;
+use std::collections::BTreeMap;
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::mpsc;
+use std::sync::Mutex;
+
+/// What the pass needs besides the raster.
+pub(crate) struct PassInput<'a> {
+    pub(crate) access: &'a mut AccessMask,
+    pub(crate) areas: &'a mut CellAreas,
+    /// The threshold.
+    pub(crate) t: f64,
+    pub(crate) connectivity: Connectivity,
+    /// Row -> (col, record index) of the records on data cells.
+    pub(crate) rows_records: &'a BTreeMap<usize, Vec<(usize, usize)>>,
+    pub(crate) placed: &'a mut [PlacedRecord],
+    pub(crate) model: &'a ModelOptions,
+    pub(crate) progress: &'a ProgressHandle,
+}
+
+/// What the pass yields.
+pub(crate) struct PassOutput {
+    pub(crate) model: RangeModel,
+    /// Every strip held only 0 and 1 (and nodata).
+    pub(crate) all_binary: bool,
+}
+
+/// Worker code for a cell below the threshold but inside M (only between worker and consumer).
+const UNSUITABLE_IN_M: u8 = 3;
+
+/// A decoded strip: 0 below T, 1 suitable, 255 nodata (and, when the workers apply M,
+/// the codes of [`apply_m_in_worker`]).
+struct StripClasses {
+    index: usize,
+    codes: Vec<u8>,
+    binary: bool,
+}
+
+/// One streaming pass: classify, measure, label, write.
+pub(crate) fn run_pass(
+    raster: &SuitabilityRaster,
+    input: PassInput<'_>,
+    sink: &mut dyn RowSink,
+) -> Result<PassOutput> {
+    let grid = raster.grid();
+    let (w, h) = (grid.width, grid.height);
+    let n_strips = h.div_ceil(STRIP_ROWS);
+    let threads = decode_threads().min(n_strips).max(1);
+    let next = AtomicUsize::new(0);
+    // Strip buffers go round between the workers and the consumer: fresh pages cost
+    // more to touch than the work done on them.
+    let pool: Mutex<Vec<Vec<u8>>> = Mutex::new(Vec::new());
+    // A record buffer on a lon/lat grid is the costly M: the workers apply it themselves.
+    let filler = input.access.row_filler();
+    let prefilled = filler.is_some();
+    let t = input.t;
+    let (tx, rx) = mpsc::sync_channel::<Result<StripClasses>>(2 * threads);
+    std::thread::scope(|scope| {
+        for _ in 0..threads {
+            let tx = tx.clone();
+            let next = &next;
+            let pool = &pool;
+            let spec = raster.reader_spec();
+            let mut filler = filler.clone();
+            scope.spawn(move || {
+                let reader = match spec.open() {
+                    Ok(r) => r,
+                    Err(e) => {
+                        let _ = tx.send(Err(e));
+                        return;
+                    }
+                };
+                let mut bufs = StripBuffers::default();
+                loop {
+                    let mut codes = pool
+                        .lock()
+                        .map(|mut p| p.pop())
+                        .ok()
+                        .flatten()
+                        .unwrap_or_default();
+                    let i = next.fetch_add(1, Ordering::Relaxed);
+                    if i >= n_strips {
+                        return;
+                    }
+                    let y0 = i * STRIP_ROWS;
+                    let rows = STRIP_ROWS.min(h - y0);
+                    let out = reader
+                        .classify_rows(y0, rows, t, &mut bufs, &mut codes)
+                        .map(|binary| {
+                            if let Some(f) = filler.as_mut() {
+                                apply_m_in_worker(f, y0, w, &mut codes);
+                            }
+                            StripClasses {
+                                index: i,
+                                codes,
+                                binary,
+                            }
+                        });
+                    let failed = out.is_err();
+                    if tx.send(out).is_err() || failed {
+                        return; // the consumer stopped, or this worker failed
+                    }
+                }
+            });
+        }
+        drop(tx);
+        let mut consumer = Consumer::new(grid, &input, prefilled);
+        input
+            .progress
+            .start("classifying, labelling and writing rows", h as u64);
+        let mut pending: BTreeMap<usize, StripClasses> = BTreeMap::new();
+        let mut expect = 0;
+        // `rx` is moved in: an early return drops it, so workers blocked on a full
+        // channel get an error instead of waiting forever for the scope to end.
+        for msg in rx {
+            let strip = msg?;
+            pending.insert(strip.index, strip);
+            while let Some(strip) = pending.remove(&expect) {
+                let y0 = expect * STRIP_ROWS;
+                let classes = consumer.strip(
+                    y0,
+                    strip.codes,
+                    strip.binary,
+                    input.access,
+                    input.areas,
+                    input.rows_records,
+                    input.placed,
+                    raster,
+                )?;
+                let spent = sink.write_rows(y0, classes)?;
+                if let Ok(mut p) = pool.lock() {
+                    p.push(spent);
+                }
+                input.progress.advance(STRIP_ROWS.min(h - y0) as u64);
+                expect += 1;
+            }
+        }
+        if expect != n_strips {
+            return Err(Error::UnsupportedRaster {
+                path: raster.path().to_path_buf(),
+                reason: format!("only {expect} of {n_strips} strips could be read"),
+            });
+        }
+        input.progress.finish();
+        consumer.finish(grid)
+    })
+}
+
+/// Worker threads for decoding: the machine's cores (at least 1), or `AREAL_THREADS`.
+pub(crate) fn decode_threads() -> usize {
+    std::env::var("AREAL_THREADS")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .filter(|&n: &usize| n > 0)
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+}
+
+/// Apply M in a worker: codes 0/1 become 0 (below T, outside M), 3 (below T, in M),
+/// 1 (suitable, in M) or 2 (suitable, beyond M); 255 stays.
+fn apply_m_in_worker(filler: &mut RowFiller, y0: usize, w: usize, codes: &mut [u8]) {
+    let mut in_m = vec![false; w];
+    for (r, row) in codes.chunks_mut(w).enumerate() {
+        filler.fill_row(y0 + r, &mut in_m);
+        for (k, &m) in row.iter_mut().zip(&in_m) {
+            let m = m as u8;
+            *k = match *k {
+                class::NODATA => class::NODATA,
+                1 => 2 - m,
+                _ => UNSUITABLE_IN_M * m,
+            };
+        }
+    }
+}

@@ -1,0 +1,47 @@
+//! Where the pass's class rows go: `classes.tif` ([`crate::raster_io::ClassWriter`]) or
+//! memory ([`MemorySink`], for tests and small grids).
+
+use crate::raster_io::class;
+use crate::Result;
+
+/// Where class rows go during the pass.
+pub trait RowSink {
+    /// Receive whole rows starting at `y0`. A later call for the same rows replaces them.
+    /// Returns the buffer for reuse.
+    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>>;
+}
+
+impl RowSink for crate::raster_io::ClassWriter {
+    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
+        crate::raster_io::ClassWriter::write_rows(self, y0, rows)
+    }
+}
+
+/// Collects every class row in memory (for tests and small grids).
+#[derive(Debug, Default)]
+pub struct MemorySink {
+    width: usize,
+    /// Class rows, row-major.
+    pub classes: Vec<u8>,
+}
+
+impl MemorySink {
+    /// A sink for a grid `width` columns wide.
+    pub fn new(width: usize) -> Self {
+        MemorySink {
+            width,
+            classes: Vec::new(),
+        }
+    }
+}
+
+impl RowSink for MemorySink {
+    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
+        let start = y0 * self.width;
+        if self.classes.len() < start + rows.len() {
+            self.classes.resize(start + rows.len(), class::NODATA);
+        }
+        self.classes[start..start + rows.len()].copy_from_slice(&rows);
+        Ok(rows)
+    }
+}

@@ -1,0 +1,44 @@
+//! Progress of the long stages, for the CLI's bars (the library never draws anything).
+
+/// Receives progress of the long stages. Implementations must be cheap: `advance` is
+/// called once per strip.
+pub trait Progress: Send + Sync {
+    /// A stage starts with `total` units of work.
+    fn start(&self, stage: &str, total: u64);
+    /// `n` more units are done.
+    fn advance(&self, n: u64);
+    /// The stage is over.
+    fn finish(&self);
+}
+
+/// An optional, shareable [`Progress`].
+#[derive(Clone, Default)]
+pub struct ProgressHandle(pub Option<std::sync::Arc<dyn Progress>>);
+
+impl std::fmt::Debug for ProgressHandle {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(if self.0.is_some() {
+            "ProgressHandle(Some)"
+        } else {
+            "ProgressHandle(None)"
+        })
+    }
+}
+
+impl ProgressHandle {
+    pub(crate) fn start(&self, stage: &str, total: u64) {
+        if let Some(p) = &self.0 {
+            p.start(stage, total);
+        }
+    }
+    pub(crate) fn advance(&self, n: u64) {
+        if let Some(p) = &self.0 {
+            p.advance(n);
+        }
+    }
+    pub(crate) fn finish(&self) {
+        if let Some(p) = &self.0 {
+            p.finish();
+        }
+    }
+}

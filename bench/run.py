@@ -108,48 +108,34 @@ def main():
 def report_cost(a):
     """The report (report.html, map.png) and the classes.tif overviews as a share of the run.
 
-    Side by side on the polygon-M input: areal with the report, areal with --no-report, and
-    the overviews alone, timed as GDAL building the same levels (gdaladdo -r nearest) on a
-    copy of classes.tif without them. Run without both = no-report run - overviews."""
-    lines = ["| size | areal (report) s | areal --no-report s | overviews s (gdaladdo) | report s | "
-             "(report + overviews) / run without them | peak RSS MB with / without report |",
-             "|---|---:|---:|---:|---:|---:|---:|"]
+    Side by side on the polygon-M input, alternating, fastest of --repeat kept: areal as
+    shipped, areal --no-report, and areal --no-report with AREAL_CLASS_OVERVIEWS=0 (no
+    overviews): the run without both."""
+    lines = ["| size | areal s | --no-report s | --no-report, no overviews s | report s | overviews s | "
+             "(report + overviews) / run without them | peak RSS MB: areal / without both |",
+             "|---|---:|---:|---:|---:|---:|---:|---:|"]
     env = dict(os.environ)
     env.setdefault("GDAL_CACHEMAX", "32")
+    bare_env = dict(env, AREAL_CLASS_OVERVIEWS="0")
     for size in a.sizes.split(","):
         prefix = ensure_inputs(size)
         tif, occ, m = prefix + ".tif", prefix + ".occ.csv", prefix + ".m.geojson"
         base = [AREAL, "range", "--suitability", tif, "--records", occ, "--omission", "5",
                 "--accessible", m, "--no-metrics", "--overwrite", "--quiet"]
-        out_r, out_n = os.path.join(DATA, f"out-{size}-report"), os.path.join(DATA, f"out-{size}-noreport")
-        # Alternate the two runs and keep the fastest of each (the machine is shared).
-        with_s = without_s = float("inf")
-        with_mb = without_mb = 0.0
+        kinds = [("full", base, env), ("noreport", base + ["--no-report"], env),
+                 ("bare", base + ["--no-report"], bare_env)]
+        best = {k: float("inf") for k, _, _ in kinds}
+        rss = {k: 0.0 for k, _, _ in kinds}
         for _ in range(a.repeat):
-            ok1, s1, mb1, _, t1 = timed(base + ["--out", out_r], env=env)
-            ok2, s2, mb2, _, t2 = timed(base + ["--out", out_n, "--no-report"], env=env)
-            if not (ok1 and ok2):
-                sys.exit(f"areal failed on {size}: {t1} {t2}")
-            with_s, without_s = min(with_s, s1), min(without_s, s2)
-            with_mb, without_mb = max(with_mb, mb1), max(without_mb, mb2)
-        bare = os.path.join(DATA, f"classes-{size}-bare.tif")
-        subprocess.run(["gdal_translate", "-q", "-co", "TILED=YES", "-co", "BLOCKXSIZE=256", "-co", "BLOCKYSIZE=256",
-                        "-co", "COMPRESS=DEFLATE", "-co", "BIGTIFF=IF_SAFER", os.path.join(out_n, "classes.tif"), bare],
-                       check=True, env=env)
-        info = subprocess.run(["gdalinfo", os.path.join(out_n, "classes.tif")], capture_output=True, text=True).stdout
-        w, h = map(int, re.search(r"Size is (\d+), (\d+)", info).group(1, 2))
-        levels, f = [], 2
-        while max(w, h) // f >= 256 and len(levels) < 12:
-            levels.append(str(f))
-            f *= 2
-        ok3, ovr_s, _, _, t3 = timed(["gdaladdo", "-q", "-r", "nearest", bare, *levels], env=env)
-        os.remove(bare)
-        if not ok3:
-            sys.exit("gdaladdo failed: " + t3)
-        run_s = without_s - ovr_s
-        report_s = with_s - without_s
-        lines.append(f"| {size} | {with_s:.2f} | {without_s:.2f} | {ovr_s:.2f} | {report_s:.2f} | "
-                     f"{(report_s + ovr_s) / run_s:.3f} | {with_mb:.0f} / {without_mb:.0f} |")
+            for k, cmd, e in kinds:
+                ok, s, mb, _, tail = timed(cmd + ["--out", os.path.join(DATA, f"out-{size}-{k}")], env=e)
+                if not ok:
+                    sys.exit(f"areal failed on {size} ({k}): {tail}")
+                best[k], rss[k] = min(best[k], s), max(rss[k], mb)
+        report_s = best["full"] - best["noreport"]
+        ovr_s = best["noreport"] - best["bare"]
+        lines.append(f"| {size} | {best['full']:.2f} | {best['noreport']:.2f} | {best['bare']:.2f} | {report_s:.2f} | "
+                     f"{ovr_s:.2f} | {(report_s + ovr_s) / best['bare']:.3f} | {rss['full']:.0f} / {rss['bare']:.0f} |")
     text = "\n".join(lines) + "\n"
     header = f"Report cost, run {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())} on {platform.node()} ({os.cpu_count()} cores).\n\n"
     with open(a.out + ".tmp", "w") as f:

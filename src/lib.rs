@@ -20,6 +20,7 @@ pub mod report_html;
 pub mod vectors;
 
 // Internals: the pass, the model's storage, I/O and the orchestration.
+mod class_overviews;
 mod crs;
 mod error;
 mod grid;

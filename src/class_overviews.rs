@@ -9,15 +9,12 @@
 
 use crate::raster_io::class;
 
-/// Rank of a class code: higher wins in a block. 0 = nothing seen.
-const fn rank_table() -> [u8; 256] {
-    let mut t = [1u8; 256]; // nodata and any other code
-    t[0] = 2;
-    t[2] = 3;
-    t[1] = 4;
-    t
+/// Rank of a class code, higher wins in a block: 1 -> 4, 2 -> 3, 0 -> 2, nodata (any other
+/// code) -> 1; 0 = nothing seen. Branch-free, so the row loops vectorise.
+#[inline]
+fn rank(k: u8) -> u8 {
+    1 + (k == 1) as u8 * 3 + (k == 2) as u8 * 2 + (k == 0) as u8
 }
-const RANK: [u8; 256] = rank_table();
 const CLASS_OF_RANK: [u8; 5] = [class::NODATA, class::NODATA, 0, 2, 1];
 
 /// The overview factors for a `w` x `h` grid. `AREAL_CLASS_OVERVIEWS=0` turns them off
@@ -60,6 +57,8 @@ pub(crate) struct OverviewFolder {
     height: usize,
     levels: Vec<Level>,
     next_row: usize,
+    /// Ranks of the full-resolution rows of the current first-level block, per cell.
+    full: Vec<u8>,
 }
 
 const FLUSH_ROWS: usize = 256;
@@ -89,6 +88,11 @@ impl OverviewFolder {
             height,
             levels,
             next_row: 0,
+            full: if factors.is_empty() {
+                Vec::new()
+            } else {
+                vec![0; width]
+            },
         }
     }
 
@@ -113,13 +117,18 @@ impl OverviewFolder {
         let Some(first) = self.levels.first_mut() else {
             return;
         };
-        let f = first.ratio;
-        for (acc, chunk) in first.acc.iter_mut().zip(classes.chunks(f)) {
-            let m = chunk.iter().map(|&k| RANK[k as usize]).max().unwrap_or(0);
-            *acc = (*acc).max(m);
+        // Cell by cell over the block's rows; across the block only when it is complete.
+        for (m, &k) in self.full.iter_mut().zip(classes) {
+            *m = (*m).max(rank(k));
         }
         first.folded += 1;
         let last = row + 1 == self.height;
+        if first.folded == first.ratio || last {
+            for (acc, chunk) in first.acc.iter_mut().zip(self.full.chunks(first.ratio)) {
+                *acc = chunk.iter().copied().max().unwrap_or(0);
+            }
+            self.full.iter_mut().for_each(|v| *v = 0);
+        }
         self.emit_from(0, last, ready);
     }
 
@@ -199,10 +208,15 @@ mod tests {
             }
             f.push_row(r, &row, &mut ready);
         }
-        let rows_of = |l: usize| -> usize { ready.iter().filter(|x| x.0 == l).map(|x| x.2.len()).sum() };
+        let rows_of =
+            |l: usize| -> usize { ready.iter().filter(|x| x.0 == l).map(|x| x.2.len()).sum() };
         assert_eq!(rows_of(0), 512 * 256);
         assert_eq!(rows_of(1), 256 * 128);
-        let l1: Vec<u8> = ready.iter().filter(|x| x.0 == 1).flat_map(|x| x.2.clone()).collect();
+        let l1: Vec<u8> = ready
+            .iter()
+            .filter(|x| x.0 == 1)
+            .flat_map(|x| x.2.clone())
+            .collect();
         assert_eq!(l1[(1000 / 8) * 256], 1);
         assert_eq!(l1.iter().filter(|&&k| k == 1).count(), 1);
     }

@@ -199,15 +199,41 @@ fn classes_tif_has_internal_overviews_that_keep_a_one_cell_patch() {
     let t = tempfile::tempdir().unwrap();
     let (w, h) = (1100usize, 600usize);
     let values: Vec<f32> = (0..w * h)
-        .map(|i| if (i % w) < 300 || i == 501 * w + 901 { 0.9 } else { 0.1 })
+        .map(|i| {
+            if (i % w) < 300 || i == 501 * w + 901 {
+                0.9
+            } else {
+                0.1
+            }
+        })
         .collect();
     let tif = t.path().join("s.tif");
-    write_raster(&tif, w, h, [0.0, 0.01, 0.0, 10.0, 0.0, -0.01], Some(4326), None, &values);
+    write_raster(
+        &tif,
+        w,
+        h,
+        [0.0, 0.01, 0.0, 10.0, 0.0, -0.01],
+        Some(4326),
+        None,
+        &values,
+    );
     let rec = t.path().join("r.csv");
     std::fs::write(&rec, "lon,lat\n1.0,7.0\n").unwrap();
     let out = t.path().join("out");
-    let o = run(&["range", "--suitability", tif.to_str().unwrap(), "--records", rec.to_str().unwrap(),
-        "--threshold", "0.5", "--no-metrics", "--no-report", "--out", out.to_str().unwrap(), "--quiet"]);
+    let o = run(&[
+        "range",
+        "--suitability",
+        tif.to_str().unwrap(),
+        "--records",
+        rec.to_str().unwrap(),
+        "--threshold",
+        "0.5",
+        "--no-metrics",
+        "--no-report",
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ]);
     assert!(o.status.success(), "{}", stderr(&o));
     // Read back through GDAL: one internal overview, no external .ovr file.
     let ds = gdal::Dataset::open(out.join("classes.tif")).unwrap();
@@ -215,13 +241,21 @@ fn classes_tif_has_internal_overviews_that_keep_a_one_cell_patch() {
     assert_eq!(band.overview_count().unwrap(), 1);
     let ov = band.overview(0).unwrap();
     assert_eq!(ov.size(), (275, 150));
-    let px = ov.read_as::<u8>((0, 0), (275, 150), (275, 150), None).unwrap();
+    let px = ov
+        .read_as::<u8>((0, 0), (275, 150), (275, 150), None)
+        .unwrap();
     let px = px.data();
     assert_eq!(px[10], 1); // the suitable columns
     assert_eq!(px[200], 0);
     // The one-cell patch is class 1 in its 4 x 4 block, and the only class-1 pixel there.
     assert_eq!(px[(501 / 4) * 275 + 901 / 4], 1);
-    assert_eq!(px.iter().enumerate().filter(|(i, &k)| k == 1 && i % 275 >= 75).count(), 1);
+    assert_eq!(
+        px.iter()
+            .enumerate()
+            .filter(|(i, &k)| k == 1 && i % 275 >= 75)
+            .count(),
+        1
+    );
     assert!(!out.join("classes.tif.ovr").exists());
 }
 

@@ -60,6 +60,9 @@ impl ClassRuns {
     /// Append the next row (`classes.len() == width`).
     pub fn push_row(&mut self, classes: &[u8]) {
         debug_assert_eq!(classes.len(), self.width);
+        if self.nodata_only {
+            return self.push_nodata_row(classes);
+        }
         let mut c = 0;
         let n = classes.len();
         while c < n {
@@ -98,6 +101,40 @@ impl ClassRuns {
                     class: code,
                 }),
             }
+        }
+        self.row_start.push(self.runs.len());
+    }
+
+    /// The nodata runs of a row (codes above 2), skipping 32 cells at a time (the checks
+    /// are branch-free so they vectorise: this runs on every cell of the pass).
+    fn push_nodata_row(&mut self, classes: &[u8]) {
+        const B: usize = 32;
+        let n = classes.len();
+        let none =
+            |s: &[u8], nodata: bool| s.iter().fold(0u8, |a, &v| a | ((v > 2) == nodata) as u8) == 0;
+        let mut c = 0;
+        while c < n {
+            while c + B <= n && none(&classes[c..c + B], true) {
+                c += B;
+            }
+            while c < n && classes[c] <= 2 {
+                c += 1;
+            }
+            if c >= n {
+                break;
+            }
+            let start = c;
+            while c + B <= n && none(&classes[c..c + B], false) {
+                c += B;
+            }
+            while c < n && classes[c] > 2 {
+                c += 1;
+            }
+            self.runs.push(Run {
+                start: start as u32,
+                end: c as u32,
+                class: class::NODATA,
+            });
         }
         self.row_start.push(self.runs.len());
     }
@@ -262,5 +299,30 @@ mod tests {
         let want: Vec<u8> = row.iter().map(|&k| if k > 2 { 255 } else { k }).collect();
         assert_eq!(back, want);
         assert_eq!(r.row_runs(0).len(), 5); // 1-1, 2, nodata (255,255,7), 1, 2
+    }
+
+    #[test]
+    fn nodata_runs_alone_match_the_full_runs() {
+        // Long stretches on both sides of the 32-cell blocks.
+        let mut row = vec![0u8; 200];
+        row[31..70].iter_mut().for_each(|v| *v = 255);
+        row[70] = 1;
+        row[100] = 255;
+        row[150..200].iter_mut().for_each(|v| *v = 254);
+        let mut full = ClassRuns::new(200);
+        full.push_row(&row);
+        let mut holes = ClassRuns {
+            nodata_only: true,
+            ..ClassRuns::new(200)
+        };
+        holes.push_row(&row);
+        let want: Vec<Run> = full
+            .row_runs(0)
+            .iter()
+            .copied()
+            .filter(|r| r.class == 255)
+            .collect();
+        assert_eq!(holes.row_runs(0), &want[..]);
+        assert_eq!(want.len(), 3);
     }
 }

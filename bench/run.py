@@ -24,6 +24,7 @@ GEN = os.path.join(ROOT, "..", "shared", "tools", "make-landscape.py")
 AREAL = os.path.join(ROOT, "target", "release", "areal")
 FLOOR = os.path.join(ROOT, "target", "release", "examples", "decode_floor")
 POINTS = {"tiny": None, "S": None, "M": None, "L": "10000"}
+tail_full = [""]  # stderr of the last timed() call
 
 
 def timed(cmd, limit_kb=None, env=None):
@@ -32,6 +33,7 @@ def timed(cmd, limit_kb=None, env=None):
     shell = pre + "exec /usr/bin/time -v " + " ".join(f"'{c}'" for c in cmd)
     p = subprocess.run(["bash", "-c", shell], capture_output=True, text=True, env=env)
     err = p.stderr
+    tail_full[0] = err
     m = re.search(r"Elapsed \(wall clock\) time \(h:mm:ss or m:ss\): (\S+)", err)
     parts = [float(x) for x in m.group(1).split(":")] if m else [float("nan")]
     wall = sum(v * 60 ** i for i, v in enumerate(reversed(parts)))
@@ -112,8 +114,9 @@ def report_cost(a):
     shipped, areal --no-report, and areal --no-report with AREAL_CLASS_OVERVIEWS=0 (no
     overviews): the run without both."""
     lines = ["| size | areal s | --no-report s | --no-report, no overviews s | report s | overviews s | "
-             "(report + overviews) / run without them | peak RSS MB: areal / without both |",
-             "|---|---:|---:|---:|---:|---:|---:|---:|"]
+             "(report + overviews) / run without them | CPU s: areal / without both | CPU ratio | "
+             "peak RSS MB: areal / without both |",
+             "|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|"]
     env = dict(os.environ)
     env.setdefault("GDAL_CACHEMAX", "32")
     bare_env = dict(env, AREAL_CLASS_OVERVIEWS="0")
@@ -125,6 +128,7 @@ def report_cost(a):
         kinds = [("full", base, env), ("noreport", base + ["--no-report"], env),
                  ("bare", base + ["--no-report"], bare_env)]
         best = {k: float("inf") for k, _, _ in kinds}
+        cpu = {k: float("inf") for k, _, _ in kinds}
         rss = {k: 0.0 for k, _, _ in kinds}
         for _ in range(a.repeat):
             for k, cmd, e in kinds:
@@ -132,10 +136,16 @@ def report_cost(a):
                 if not ok:
                     sys.exit(f"areal failed on {size} ({k}): {tail}")
                 best[k], rss[k] = min(best[k], s), max(rss[k], mb)
+                # User + system CPU seconds: less sensitive than wall time to other load.
+                u = re.search(r"User time \(seconds\): ([\d.]+)", tail_full[0])
+                y = re.search(r"System time \(seconds\): ([\d.]+)", tail_full[0])
+                if u and y:
+                    cpu[k] = min(cpu[k], float(u.group(1)) + float(y.group(1)))
         report_s = best["full"] - best["noreport"]
         ovr_s = best["noreport"] - best["bare"]
         lines.append(f"| {size} | {best['full']:.2f} | {best['noreport']:.2f} | {best['bare']:.2f} | {report_s:.2f} | "
-                     f"{ovr_s:.2f} | {(report_s + ovr_s) / best['bare']:.3f} | {rss['full']:.0f} / {rss['bare']:.0f} |")
+                     f"{ovr_s:.2f} | {(report_s + ovr_s) / best['bare']:.3f} | {cpu['full']:.1f} / {cpu['bare']:.1f} | "
+                     f"{cpu['full'] / cpu['bare'] - 1:.3f} | {rss['full']:.0f} / {rss['bare']:.0f} |")
     text = "\n".join(lines) + "\n"
     header = f"Report cost, run {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())} on {platform.node()} ({os.cpu_count()} cores).\n\n"
     with open(a.out + ".tmp", "w") as f:

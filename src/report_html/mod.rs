@@ -236,16 +236,6 @@ pub fn fmt_num(x: f64, decimals: usize) -> String {
     out
 }
 
-#[cfg(test)]
-mod tests {
-    #[test]
-    fn numbers_are_grouped() {
-        assert_eq!(super::fmt_num(11613.0139, 3), "11,613.014");
-        assert_eq!(super::fmt_num(-1234567.0, 0), "-1,234,567");
-        assert_eq!(super::fmt_num(0.5, 1), "0.5");
-    }
-}
-
 /// The report of a run in progress: drawn from the run's result and its range model (with
 /// the nodata runs kept during the pass), written into the run's temporary folder.
 pub fn write_run_report(
@@ -265,4 +255,14 @@ pub fn write_run_report(
     let png = dir.file("map.png");
     std::fs::write(&png, &files.map_png).map_err(crate::Error::io(&png))?;
     crate::output::write_text(&dir.file("report.html"), &files.html)
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn numbers_are_grouped() {
+        assert_eq!(super::fmt_num(11613.0139, 3), "11,613.014");
+        assert_eq!(super::fmt_num(-1234567.0, 0), "-1,234,567");
+        assert_eq!(super::fmt_num(0.5, 1), "0.5");
+    }
 }

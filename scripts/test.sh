@@ -15,6 +15,18 @@ if [ ! -x .venv/bin/python ]; then
 fi
 .venv/bin/python -c "import shapely, pyproj, numpy" 2>/dev/null || .venv/bin/pip install -q -r tests/py/requirements.txt
 .venv/bin/python tests/py/check_eoo.py target/release/areal
+# The Python package (python/): built against the library by maturin through pip, then
+# pytest reads the demo's outputs with rasterio, pandas, geopandas and pyproj and compares
+# the package's run with the CLI's.
+.venv/bin/pip install --quiet --disable-pip-version-check -r python/requirements-test.txt
+.venv/bin/pip install --quiet --disable-pip-version-check ./python
+AREAL_BIN="$PWD/target/release/areal" .venv/bin/python -m pytest -q python/tests
+# The R package (r/): installed into .rlib, testthat reads every demo output with terra and
+# sf and compares the package's run with the CLI's.
+mkdir -p .rlib
+R CMD INSTALL --no-multiarch -l .rlib r >/dev/null
+R_LIBS=.rlib AREAL_BIN="$PWD/target/release/areal" \
+  Rscript -e 'library(areal); testthat::test_dir("r/tests/testthat", stop_on_failure = TRUE)'
 # The report: map.png decoded by Pillow against classes.tif, report.html in headless Chromium.
 bash scripts/check-report.sh
 # Atomic outputs: SIGKILL part way through runs on a large generated raster.

@@ -43,6 +43,51 @@ impl GridSpec {
         }
     }
 
+    /// The grid of a raster file, checked as `areal range` checks the suitability raster.
+    pub fn of_raster(path: &std::path::Path) -> crate::Result<Self> {
+        Ok(crate::raster_io::SuitabilityRaster::open(path)?
+            .grid()
+            .clone())
+    }
+
+    /// A grid from its size, GDAL geotransform and a CRS as the user gives it (EPSG code,
+    /// WKT or PROJ string), checked north-up; for callers that hold an array, not a file
+    /// (the Python package's cell areas).
+    pub fn with_crs(
+        width: usize,
+        height: usize,
+        geo_transform: [f64; 6],
+        crs: &str,
+    ) -> crate::Result<Self> {
+        let gt = geo_transform;
+        if width == 0
+            || height == 0
+            || gt[2] != 0.0
+            || gt[4] != 0.0
+            || !(gt[1] > 0.0 && gt[5] < 0.0)
+        {
+            return Err(crate::Error::InvalidOption {
+                option: "transform",
+                reason: format!(
+                    "{width} x {height} cells with geotransform {gt:?}: give a non-empty north-up \
+                     grid (GDAL order [x0, dx, 0, y0, 0, dy], dx > 0, dy < 0)"
+                ),
+            });
+        }
+        let srs = crate::records::user_srs(crs, "crs")?;
+        let crs_wkt = srs.to_wkt().map_err(|e| crate::Error::Crs {
+            what: "crs".into(),
+            reason: format!("cannot export '{crs}' as WKT ({e})"),
+        })?;
+        Ok(GridSpec {
+            width,
+            height,
+            geo_transform: gt,
+            crs_wkt,
+            geographic: srs.is_geographic(),
+        })
+    }
+
     /// Cell width in CRS units (positive).
     pub fn dx(&self) -> f64 {
         self.geo_transform[1].abs()

@@ -17,6 +17,7 @@ pub mod metrics;
 pub mod patches;
 pub mod records;
 pub mod report_html;
+pub mod styles;
 pub mod vectors;
 
 // Internals: the pass, the model's storage, I/O and the orchestration.
@@ -41,6 +42,7 @@ pub use output::{OutputDir, OUTPUT_NAMES};
 pub use pass::{MemorySink, RowSink};
 pub use progress::{Progress, ProgressHandle};
 pub use raster_io::class;
+pub use report::summary_schema;
 pub use report::{
     AccessReport, AreaReport, CellReport, ExcludedRecord, InputsReport, PatchReport, PatchRow,
     RecordRow, RecordStatus, RecordsReport, SensitivityRow, Summary, ThresholdReport, CAUTIONS,

@@ -26,6 +26,13 @@ pub const OUTPUT_NAMES: &[&str] = &[
     "summary.json",
     "report.html",
     "map.png",
+    // Style files (crate::styles::STYLE_NAMES).
+    "classes.qml",
+    "range.qml",
+    "patches.qml",
+    "unreachable.qml",
+    "accessible.qml",
+    "records.qml",
     // Vector outputs (crate::vectors::VECTOR_NAMES).
     "range.gpkg",
     "range.geojson",

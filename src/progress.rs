@@ -42,3 +42,31 @@ impl ProgressHandle {
         }
     }
 }
+
+/// Stage timings on stderr when `AREAL_TIMINGS` is set (for profiling; the CLI's output is
+/// unchanged otherwise).
+pub(crate) struct StageClock {
+    on: bool,
+    last: std::time::Instant,
+}
+
+impl StageClock {
+    pub(crate) fn new() -> Self {
+        StageClock {
+            on: std::env::var_os("AREAL_TIMINGS").is_some(),
+            last: std::time::Instant::now(),
+        }
+    }
+
+    /// Print the time since the last lap, labelled `stage`.
+    pub(crate) fn lap(&mut self, stage: &str) {
+        if self.on {
+            let now = std::time::Instant::now();
+            eprintln!(
+                "areal: timing: {stage}: {:.3} s",
+                (now - self.last).as_secs_f64()
+            );
+            self.last = now;
+        }
+    }
+}

@@ -628,15 +628,12 @@ impl ClassWriter {
             band.set_description("range class")
                 .map_err(err("setting the band description"))?;
             let mut ct = ColorTable::new(PaletteInterpretation::Rgba);
-            // The map's palette (report_html::palette); nodata transparent.
-            for k in [class::UNSUITABLE, class::INSIDE, class::OUTSIDE] {
-                let [r, g, b] = crate::report_html::palette::class_colour(k);
-                ct.set_color_entry(
-                    k as u16,
-                    &ColorEntry::rgba(r as i16, g as i16, b as i16, 255),
-                );
+            for c in crate::styles::CLASS_STYLES {
+                let [r, g, b, a] = c.rgba.map(i16::from);
+                ct.set_color_entry(c.value as u16, &ColorEntry::rgba(r, g, b, a));
             }
-            ct.set_color_entry(255, &ColorEntry::rgba(0, 0, 0, 0));
+            // Transparent nodata.
+            ct.set_color_entry(class::NODATA as u16, &ColorEntry::rgba(0, 0, 0, 0));
             band.set_color_table(&ct);
             let mut names = gdal::cpl::CslStringList::new();
             for n in class::NAMES {
@@ -713,6 +710,11 @@ impl ClassWriter {
                 format!("writing rows {y0}..{}", y0 + n),
             ))?;
         Ok(buf.into_shape_and_vec().1)
+    }
+
+    /// The dataset being written (for `styles::describe_classes`).
+    pub(crate) fn dataset(&self) -> &Dataset {
+        &self.ds
     }
 
     /// Flush and close (the overviews were written with the rows).

@@ -173,6 +173,7 @@ pub fn run_range(
     if let Some(p) = &opts.access.polygon {
         inputs.push(p);
     }
+    let mut clock = crate::progress::StageClock::new();
     let dir = crate::output::OutputDir::prepare(out, overwrite, &inputs)?;
     // Open the raster once up front so a bad raster fails before anything is created.
     let grid = SuitabilityRaster::open(suitability)?.grid().clone();
@@ -190,9 +191,12 @@ pub fn run_range(
         let (r, m) = compute_range(suitability, records, &opts_here, &mut writer)?;
         (r, m, None)
     };
+    crate::styles::describe_classes(writer.dataset(), &dir.file("classes.tif"), &result.summary)?;
     writer.close()?;
+    clock.lap("pass");
     if opts.metrics.enabled {
         crate::metrics::add_range_metrics(&mut result, &model, &opts.metrics)?;
+        clock.lap("metrics");
     }
     write_csv(&dir.file("patches.csv"), &result.patches)?;
     write_csv(&dir.file("records.csv"), &result.records)?;
@@ -204,8 +208,10 @@ pub fn run_range(
     if let Some(v) = &opts.vectors {
         let run_dir = dir.file("");
         crate::vectors::write_vectors(&run_dir, &run_dir, &opts.access, None, v)?;
+        crate::styles::write_layer_styles(&run_dir)?;
     }
     drop(model); // removes its spill file before the folder is committed
     dir.commit()?;
+    clock.lap("tables and commit");
     Ok(result)
 }

@@ -27,6 +27,17 @@ const CHANGED: &[(&str, &str)] = &[
         "inputs.data_type",
         "GDAL's type name (\"Float32\") instead of a Rust debug string",
     ),
+    (
+        "metrics.general_notes",
+        "the metrics' general notes were written as a second `notes` key beside the flattened \
+         record figures' `notes` (a duplicate key: readers kept one); they are now `general_notes`",
+    ),
+    (
+        "metrics.notes",
+        "with the duplicate key gone, the record figures' notes are kept (the golden files hold \
+         the general notes there, which won the duplicate; global-buffer's record note \
+         'the points do not fit in one hemisphere' was lost)",
+    ),
 ];
 
 fn golden_dir(case: &str) -> PathBuf {

@@ -126,12 +126,12 @@ fn range_writes_metrics_and_patch_columns() {
     // this close to its centre (about 1e-3, [DER]); 6.1 km jumps reach Q.
     let gap: f64 = rows[1][col(&h, "nearest_patch_km")].parse().unwrap();
     assert!((gap - 6.0).abs() < 0.02, "{gap}");
-    assert_eq!(rows[1][col(&h, "reachable")], "true");
+    assert_eq!(rows[1][col(&h, "reachable")], "TRUE");
     assert_eq!(rows[1][col(&h, "reach_jumps")], "1");
     // 5.9 km jumps do not.
     let out = range(dir.path(), &["--gap-km", "5.9"]);
     let (h, rows) = read_csv(&out.join("patches.csv"));
-    assert_eq!(rows[1][col(&h, "reachable")], "false");
+    assert_eq!(rows[1][col(&h, "reachable")], "FALSE");
     assert_eq!(rows[1][col(&h, "reach_jumps")], "");
 }
 

@@ -10,7 +10,7 @@ use std::path::PathBuf;
 
 /// areal: turn a suitability raster and occurrence records into a species range.
 #[derive(Parser, Debug)]
-#[command(name = "areal", version, about, long_about = None)]
+#[command(name = "areal", version, about, long_about = None, after_help = crate::cli::extras::EXAMPLES)]
 pub(crate) struct Cli {
     #[command(subcommand)]
     pub command: Command,
@@ -20,14 +20,27 @@ pub(crate) struct Cli {
 pub(crate) enum Command {
     /// Threshold the suitability raster, restrict it to the accessible area M, label
     /// patches and measure them in true area.
+    #[command(after_help = crate::cli::extras::RANGE_EXAMPLES)]
     Range(RangeArgs),
     /// Write the vector outputs (range.gpkg, GeoJSON) of an earlier `areal range` run.
+    #[command(after_help = crate::cli::extras::POLYGONS_EXAMPLES)]
     Polygons(PolygonsArgs),
     /// Extent of occurrence (EOO) and area of occupancy (AOO) of records, optionally with a
     /// range raster (classes.tif) for the modelled-range figures, patch distances and reach.
+    #[command(after_help = crate::cli::extras::EXTENT_EXAMPLES)]
     Extent(ExtentArgs),
     /// Write report.html and map.png again from an earlier `areal range` run's folder.
     Report(ReportArgs),
+    /// Print the JSON Schema of summary.json (the copy in docs/summary.schema.json).
+    Schema,
+    /// Print a shell completion script (e.g. `areal completions bash > /etc/bash_completion.d/areal`).
+    Completions {
+        /// The shell: bash, zsh, fish, elvish or powershell.
+        #[arg(value_enum)]
+        shell: clap_complete::Shell,
+    },
+    /// Print the man page, roff (e.g. `areal man > areal.1; man ./areal.1`).
+    Man,
 }
 
 #[derive(clap::Args, Debug)]

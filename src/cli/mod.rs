@@ -12,6 +12,7 @@
 //! printed once each as `areal: GDAL warning: ...` (unless `--quiet`).
 
 mod args;
+mod extras;
 pub(crate) mod progress;
 
 use args::{Cli, Command};
@@ -67,7 +68,7 @@ pub(crate) fn main() -> ExitCode {
     }
     let quiet = match &cli.command {
         Command::Range(a) => a.quiet,
-        Command::Polygons(_) | Command::Extent(_) | Command::Report(_) => false,
+        _ => false,
     };
     let result = run(cli);
     let gdal = gdal_messages();
@@ -94,6 +95,18 @@ pub(crate) fn main() -> ExitCode {
 
 fn run(cli: Cli) -> areal::Result<()> {
     match cli.command {
+        Command::Schema => {
+            let _ = std::io::stdout().write_all(areal::summary_schema().as_bytes());
+            Ok(())
+        }
+        Command::Completions { shell } => {
+            extras::completions(shell);
+            Ok(())
+        }
+        Command::Man => {
+            let _ = extras::man_page();
+            Ok(())
+        }
         Command::Range(a) => {
             let opts = a.to_options()?;
             let result = areal::run_range(&a.suitability, &a.records, &opts, &a.out, a.overwrite)?;
@@ -154,23 +167,24 @@ fn run(cli: Cli) -> areal::Result<()> {
                 a.connectivity(),
                 &opts,
             )?;
-            if a.json {
-                println!(
-                    "{}",
-                    serde_json::to_string_pretty(&report).expect("report serialises")
-                );
+            // A closed stdout (e.g. `| head`) is not an error.
+            let mut out = std::io::stdout().lock();
+            let text = if a.json {
+                serde_json::to_string_pretty(&report).expect("report serialises") + "\n"
             } else {
-                println!(
-                    "areal {}: extent of {}",
+                let mut t = format!(
+                    "areal {}: extent of {}\n",
                     report.areal_version, report.records_file
                 );
                 for l in report.metrics.text_lines() {
-                    println!("{l}");
+                    t += &format!("{l}\n");
                 }
                 for w in &report.warnings {
-                    println!("  warning: {w}");
+                    t += &format!("  warning: {w}\n");
                 }
-            }
+                t
+            };
+            let _ = out.write_all(text.as_bytes());
             Ok(())
         }
     }

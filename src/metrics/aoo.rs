@@ -132,12 +132,19 @@ pub(crate) struct AooCounter {
     clean: usize,
 }
 
+/// Sign bit flipped, so unsigned order is signed order.
+const FLIP: u32 = 0x8000_0000;
+
+/// A quarter cell as one key whose unsigned order is (a, b) in signed order.
 fn pack(a: i64, b: i64) -> u64 {
-    ((a as i32 as u32 as u64) << 32) | (b as i32 as u32 as u64)
+    (((a as i32 as u32) ^ FLIP) as u64) << 32 | ((b as i32 as u32) ^ FLIP) as u64
 }
 
 fn unpack(k: u64) -> (i64, i64) {
-    ((k >> 32) as u32 as i32 as i64, k as u32 as i32 as i64)
+    (
+        ((k >> 32) as u32 ^ FLIP) as i32 as i64,
+        (k as u32 ^ FLIP) as i32 as i64,
+    )
 }
 
 /// AOO over the 16 origins.
@@ -188,7 +195,7 @@ impl AooCounter {
         let q = self.cell_m / 4.0;
         self.fine
             .push(pack((x / q).floor() as i64, (y / q).floor() as i64));
-        if self.fine.len() >= 2 * self.clean + (1 << 20) {
+        if self.fine.len() >= 2 * self.clean + (1 << 22) {
             self.compact();
         }
     }
@@ -200,34 +207,63 @@ impl AooCounter {
     }
 
     fn compact(&mut self) {
-        self.fine.sort_unstable();
+        use rayon::slice::ParallelSliceMut;
+        self.fine.par_sort_unstable();
         self.fine.dedup();
         self.clean = self.fine.len();
     }
 
     /// Occupied cells at each origin, in the order ox (outer), oy (inner), each increasing.
+    ///
+    /// One sort of the quarter cells, then linear sweeps: sorted by (a, b), the quarter cells
+    /// of one grid column under x offset k (a in 4m + k .. 4m + k + 3) are consecutive, so
+    /// each column's b values are merged once and the rows it occupies counted for each y
+    /// offset.
     pub(crate) fn per_origin(&mut self) -> Vec<usize> {
         self.compact();
         let n = ORIGIN_FRACTIONS.len() as i64;
-        let mut coarse = Vec::with_capacity(self.fine.len());
-        (0..n * n)
-            .map(|k| {
-                let (i, j) = (k / n, k % n);
-                coarse.clear();
-                coarse.extend(self.fine.iter().map(|&f| {
-                    let (a, b) = unpack(f);
-                    pack((a - i).div_euclid(n), (b - j).div_euclid(n))
-                }));
-                coarse.sort_unstable();
-                coarse.dedup();
-                coarse.len()
-            })
-            .collect()
+        let fine: Vec<(i64, i64)> = self.fine.iter().map(|&f| unpack(f)).collect();
+        let mut out = vec![0usize; (n * n) as usize];
+        let mut bs: Vec<i64> = Vec::new();
+        for i in 0..n {
+            let mut s = 0;
+            while s < fine.len() {
+                let col = (fine[s].0 - i).div_euclid(n);
+                let mut e = s;
+                while e < fine.len() && (fine[e].0 - i).div_euclid(n) == col {
+                    e += 1;
+                }
+                // The b values of this grid column, sorted and distinct (at most 4 sorted runs).
+                bs.clear();
+                bs.extend(fine[s..e].iter().map(|f| f.1));
+                bs.sort_unstable();
+                bs.dedup();
+                for j in 0..n {
+                    let mut last = None;
+                    let mut cells = 0usize;
+                    for &b in &bs {
+                        let row = (b - j).div_euclid(n);
+                        if last != Some(row) {
+                            cells += 1;
+                            last = Some(row);
+                        }
+                    }
+                    out[(i * n + j) as usize] += cells;
+                }
+                s = e;
+            }
+        }
+        out
     }
 
     /// The figures over the origins.
     pub(crate) fn figures(&mut self) -> AooFigures {
         let per = self.per_origin();
+        self.figures_of(per)
+    }
+
+    /// The figures from the occupied cells of each origin (in [`Self::per_origin`]'s order).
+    pub(crate) fn figures_of(&self, per: Vec<usize>) -> AooFigures {
         let mut min_k = 0;
         for k in 1..per.len() {
             if per[k] < per[min_k] {

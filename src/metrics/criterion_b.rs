@@ -65,7 +65,7 @@ pub const CRITERION_B_SOURCE: &str = "IUCN Red List Categories and Criteria, ver
 pub const CRITERION_B_CAUTION: &str = "Being below an area threshold is not a listing: criterion B also requires at least two of its conditions (a) severe fragmentation or a small number of locations, (b) continuing decline, (c) extreme fluctuations, and any assessment must be made and reviewed by the responsible Red List authority. These are model- and record-based estimates.";
 
 /// The comparison of one EOO / AOO pair with criterion B's thresholds.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct CriterionB {
     /// The most severe category whose B1 threshold the EOO is below; null when none (or no EOO).
     pub eoo_below_threshold_for: Option<String>,

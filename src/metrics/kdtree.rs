@@ -37,6 +37,27 @@ impl Node {
             .map(|k| (self.lo[k] - x[k]).max(x[k] - self.hi[k]).max(0.0).powi(2))
             .sum()
     }
+
+    /// Smallest squared distance between this node's box and the box `lo..hi`.
+    fn min_d2_box(&self, lo: &[f64; 3], hi: &[f64; 3]) -> f64 {
+        (0..3)
+            .map(|k| {
+                (self.lo[k] - hi[k])
+                    .max(lo[k] - self.hi[k])
+                    .max(0.0)
+                    .powi(2)
+            })
+            .sum()
+    }
+}
+
+/// A leaf of the tree: its points, their bounding box, and their one label (or `None` when
+/// they carry several).
+pub(crate) struct Leaf<'a> {
+    pub(crate) items: &'a [u32],
+    pub(crate) lo: [f64; 3],
+    pub(crate) hi: [f64; 3],
+    pub(crate) label: Option<u32>,
 }
 
 impl KdTree {
@@ -98,6 +119,79 @@ impl KdTree {
             }
         }
     }
+}
+
+impl KdTree {
+    /// Every leaf, in tree order (points close in space come close in this order).
+    pub(crate) fn leaves(&self) -> impl Iterator<Item = Leaf<'_>> + '_ {
+        self.nodes.iter().filter(|n| n.kids[0] == 0).map(|n| Leaf {
+            items: &self.items[n.start as usize..n.end as usize],
+            lo: n.lo,
+            hi: n.hi,
+            label: (n.label != MIXED).then_some(n.label),
+        })
+    }
+
+    /// Like [`KdTree::search`], for a query box `lo..hi` instead of a point: visits every
+    /// point not rejected by `skip` whose squared distance to the box is at most the bound,
+    /// as `visit(point, squared distance to the box)`, which returns the new bound.
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn search_box(
+        &self,
+        xyz: &[[f64; 3]],
+        label: &[u32],
+        lo: &[f64; 3],
+        hi: &[f64; 3],
+        mut bound: f64,
+        skip: impl Fn(u32) -> bool,
+        mut visit: impl FnMut(usize, f64) -> f64,
+        stack: &mut Vec<(u32, f64)>,
+    ) {
+        if self.nodes.is_empty() {
+            return;
+        }
+        stack.clear();
+        stack.push((0, self.nodes[0].min_d2_box(lo, hi)));
+        while let Some((n, dmin)) = stack.pop() {
+            let node = &self.nodes[n as usize];
+            if dmin > bound || (node.label != MIXED && skip(node.label)) {
+                continue;
+            }
+            if node.kids[0] == 0 {
+                for &i in &self.items[node.start as usize..node.end as usize] {
+                    let i = i as usize;
+                    if skip(label[i]) {
+                        continue;
+                    }
+                    let p = &xyz[i];
+                    let d: f64 = (0..3)
+                        .map(|k| (lo[k] - p[k]).max(p[k] - hi[k]).max(0.0).powi(2))
+                        .sum();
+                    if d <= bound {
+                        bound = visit(i, d);
+                    }
+                }
+            } else {
+                let (a, b) = (node.kids[0], node.kids[1]);
+                let (da, db) = (
+                    self.nodes[a as usize].min_d2_box(lo, hi),
+                    self.nodes[b as usize].min_d2_box(lo, hi),
+                );
+                if da <= db {
+                    stack.push((b, db));
+                    stack.push((a, da));
+                } else {
+                    stack.push((a, da));
+                    stack.push((b, db));
+                }
+            }
+        }
+    }
+}
+
+/// Squared distance between two points.
+pub(crate) fn dist2(a: &[f64; 3], b: &[f64; 3]) -> f64 {
+    d2(a, b)
 }
 
 fn build(

@@ -21,6 +21,7 @@
 //! the raster, on nodata) are always left out.
 
 mod aoo;
+mod aoo_bitmap;
 mod aoo_runs;
 pub mod criterion_b;
 mod eoo;
@@ -34,6 +35,8 @@ mod reach;
 mod structure;
 #[cfg(test)]
 mod tests;
+#[cfg(test)]
+mod tests_aoo;
 #[cfg(test)]
 mod tests_range;
 
@@ -165,7 +168,7 @@ pub struct PatchMetrics {
 }
 
 /// EOO, AOO and their comparison with criterion B, for one basis (records or modelled range).
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct Figures {
     /// EOO, km2: the hull area, or AOO when the hull area is smaller; null when no hull exists.
     pub eoo_km2: Option<f64>,
@@ -198,7 +201,7 @@ pub struct Figures {
 }
 
 /// The AOO grid.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct AooGridReport {
     /// PROJ definition of the equal-area CRS.
     pub crs: String,
@@ -209,7 +212,7 @@ pub struct AooGridReport {
 }
 
 /// Metrics of the occupied modelled range.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct ModelledFigures {
     /// Occupied patches (class 1 holding records).
     pub occupied_patches: usize,
@@ -223,7 +226,7 @@ pub struct ModelledFigures {
 }
 
 /// Stepping-stone reach from the occupied patches.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct ReachReport {
     /// Largest jump, km.
     pub gap_km: f64,
@@ -242,7 +245,7 @@ pub struct ReachReport {
 }
 
 /// The `metrics` section of summary.json, and the output of `areal extent`.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct Metrics {
     /// Records the record figures are built from.
     pub records_used: usize,
@@ -261,7 +264,9 @@ pub struct Metrics {
     pub structure: Option<StructureReport>,
     /// Stepping-stone reach; null without a range or without `--gap-km`.
     pub reach: Option<ReachReport>,
-    /// General notes.
+    /// General notes (`general_notes` in JSON: the flattened record figures already have
+    /// a `notes` key, and a second one would be a duplicate key).
+    #[serde(rename = "general_notes")]
     pub notes: Vec<String>,
 }
 

@@ -5,7 +5,6 @@
 //! grid of a run is centred on the records used, and the modelled range is counted on the
 //! same grid, so the two AOOs compare.
 
-use super::aoo::{AooCounter, AooGrid};
 use super::figures::{figures, record_part, RecordPart};
 use super::hull_points::occupied_hull_points;
 use super::reach::{self, Corners};
@@ -69,6 +68,7 @@ pub fn range_metrics(
     records: &[MetricRecord],
     opts: &MetricsOptions,
 ) -> Result<(Metrics, Vec<PatchMetrics>)> {
+    let mut clock = crate::progress::StageClock::new();
     let RecordPart {
         mut metrics,
         grid: aoo_grid,
@@ -84,14 +84,17 @@ pub fn range_metrics(
 
     if n_occ > 0 {
         let cell_km = opts.aoo_cell_km;
-        let mut counter = modelled_aoo(model, &aoo_grid, &occupied)?;
         let hull_pts = occupied_hull_points(model, &occupied)?;
-        let mut fig = figures(
+        clock.lap("modelled hull points");
+        let aoo_fig = super::aoo_runs::count_runs(
+            model,
+            &aoo_grid,
+            &|id| occupied[id as usize - 1],
             &hull_pts,
-            &counter.figures(),
-            cell_km,
-            "occupied modelled range",
-        );
+        )?;
+        clock.lap("modelled AOO");
+        let mut fig = figures(&hull_pts, &aoo_fig, cell_km, "occupied modelled range");
+        clock.lap("modelled hull");
         let (occ_area, occ_cells) = (0..n).filter(|&i| occupied[i]).fold((0.0, 0u64), |a, i| {
             (a.0 + area_km2(i), a.1 + patches[i].cells)
         });
@@ -115,9 +118,12 @@ pub fn range_metrics(
     }
 
     let c = Corners::from_model(model)?;
+    clock.lap("boundary corners");
     let near = reach::nearest(&c, |_| true);
     let near_occ = reach::nearest(&c, |p| occupied[p]);
+    clock.lap("nearest patches");
     let jumps = opts.gap_km.map(|g| reach::reach(&c, |p| occupied[p], g));
+    clock.lap("reach");
     let cols: Vec<PatchMetrics> = (0..n)
         .map(|p| PatchMetrics {
             nearest_patch_km: near[p],
@@ -159,10 +165,4 @@ pub fn range_metrics(
         suitable: patch_structure(&areas(&|_| true), opts.min_patch_km2),
     });
     Ok((metrics, cols))
-}
-
-/// The AOO counter of the occupied patches' cells: the centre of every cell of an occupied
-/// patch, in the AOO grid.
-fn modelled_aoo(model: &RangeModel, aoo: &AooGrid, occupied: &[bool]) -> Result<AooCounter> {
-    super::aoo_runs::count_runs(model, aoo, &|id| occupied[id as usize - 1])
 }

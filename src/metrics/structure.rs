@@ -8,7 +8,7 @@
 use serde::Serialize;
 
 /// The structure of one group of patches.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct PatchStructure {
     /// Number of patches.
     pub patches: usize,
@@ -48,7 +48,7 @@ pub fn patch_structure(areas_km2: &[f64], min_patch_km2: Option<f64>) -> PatchSt
 }
 
 /// Patch structure of the modelled range.
-#[derive(Debug, Clone, Serialize, PartialEq)]
+#[derive(Debug, Clone, Serialize, PartialEq, schemars::JsonSchema)]
 pub struct StructureReport {
     /// Class-1 patches (suitable inside M).
     pub inside_accessible: PatchStructure,

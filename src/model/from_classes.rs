@@ -52,7 +52,7 @@ impl RangeModel {
         path: &Path,
         connectivity: Connectivity,
         records: &BTreeMap<usize, Vec<(usize, u64)>>,
-        mut access: Option<&mut AccessMask>,
+        access: Option<&mut AccessMask>,
     ) -> Result<RangeModel> {
         let raster = SuitabilityRaster::open(path)?;
         let grid = raster.grid().clone();

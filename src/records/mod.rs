@@ -22,6 +22,7 @@
 mod delimited;
 mod layer;
 mod reproject;
+pub(crate) use reproject::user_srs;
 #[cfg(test)]
 mod tests;
 #[cfg(test)]

@@ -19,8 +19,8 @@ pub const CAUTIONS: [&str; 4] = [
     "A threat assessment is for the responsible authority and its reviewers; this tool only computes the figures.",
 ];
 
-/// `summary.json`.
-#[derive(Debug, Clone, Serialize)]
+/// `summary.json`: the report of one `areal range` run (docs/summary.schema.json).
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct Summary {
     /// Version of areal that wrote it.
     pub areal_version: String,
@@ -58,7 +58,7 @@ pub struct Summary {
 }
 
 /// One row of `sensitivity`: what the omission rule gives with E = `omission_percent`.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, schemars::JsonSchema)]
 pub struct SensitivityRow {
     /// E, percent.
     pub omission_percent: f64,
@@ -73,7 +73,7 @@ pub struct SensitivityRow {
 }
 
 /// Inputs and grid.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct InputsReport {
     /// Suitability raster path.
     pub suitability: String,
@@ -100,7 +100,7 @@ pub struct InputsReport {
 }
 
 /// The threshold section.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct ThresholdReport {
     /// T (cells with suitability >= T are suitable).
     pub value: f64,
@@ -121,7 +121,7 @@ pub struct ThresholdReport {
 }
 
 /// The records section.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct RecordsReport {
     /// Records read from the file (after skipped rows).
     pub total: usize,
@@ -138,7 +138,7 @@ pub struct RecordsReport {
 }
 
 /// A record that was excluded.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct ExcludedRecord {
     /// "line 14" or "feature 3".
     pub origin: String,
@@ -149,7 +149,7 @@ pub struct ExcludedRecord {
 }
 
 /// The accessible-area section.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct AccessReport {
     /// How M was made.
     pub description: String,
@@ -167,7 +167,7 @@ pub struct AccessReport {
 }
 
 /// Areas, km2.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct AreaReport {
     /// All suitable cells (classes 1 + 2).
     pub suitable: f64,
@@ -184,7 +184,7 @@ pub struct AreaReport {
 }
 
 /// Cell counts.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct CellReport {
     /// Class 0.
     pub unsuitable: u64,
@@ -197,7 +197,7 @@ pub struct CellReport {
 }
 
 /// Patch counts.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct PatchReport {
     /// Class-1 patches.
     pub inside_accessible: usize,
@@ -238,7 +238,9 @@ pub struct PatchRow {
     pub nearest_patch_km: Option<f64>,
     /// Edge-to-edge geodesic distance to the nearest other occupied patch, km.
     pub nearest_occupied_km: Option<f64>,
-    /// Reached from the occupied patches by jumps of at most `--gap-km` (empty without it).
+    /// Reached from the occupied patches by jumps of at most `--gap-km` (empty without it);
+    /// `TRUE`/`FALSE` in the CSV, the Boolean literals R, pandas and GDAL read as Booleans.
+    #[serde(serialize_with = "csv_bool")]
     pub reachable: Option<bool>,
     /// Fewest jumps that reach it (0 for occupied patches; empty when unreached).
     pub reach_jumps: Option<u32>,
@@ -296,6 +298,24 @@ impl RecordStatus {
     pub fn excluded(self) -> bool {
         matches!(self, RecordStatus::OutsideRaster | RecordStatus::OnNodata)
     }
+}
+
+/// A Boolean CSV cell: `TRUE`, `FALSE`, or empty when unknown (R's `read.csv`, pandas and
+/// GDAL's CSV driver with type detection all read these as Booleans; `true`/`false` would be
+/// text to R).
+fn csv_bool<S: serde::Serializer>(v: &Option<bool>, s: S) -> std::result::Result<S::Ok, S::Error> {
+    match v {
+        Some(true) => s.serialize_str("TRUE"),
+        Some(false) => s.serialize_str("FALSE"),
+        None => s.serialize_none(),
+    }
+}
+
+/// The JSON Schema (draft 2020-12) of `summary.json`, generated from [`Summary`]; the
+/// committed copy is docs/summary.schema.json (`areal schema` prints it).
+pub fn summary_schema() -> String {
+    let schema = schemars::schema_for!(Summary);
+    serde_json::to_string_pretty(&schema).expect("the schema serialises") + "\n"
 }
 
 /// Write rows as CSV with a header.

@@ -337,7 +337,17 @@ fn read_patches(path: &Path) -> Result<Vec<PatchInfo>> {
             Ok(PatchInfo {
                 class: field(path, r, class, i)?.unwrap_or(0),
                 area_km2: field(path, r, area, i)?.unwrap_or(f64::NAN),
-                reachable: field(path, r, reachable, i)?,
+                reachable: match r.get(reachable).unwrap_or("") {
+                    "" => None,
+                    "TRUE" | "true" => Some(true),
+                    "FALSE" | "false" => Some(false),
+                    v => {
+                        return Err(bad(
+                            path,
+                            format!("line {}: reachable is \"{v}\", not TRUE or FALSE; give the file areal wrote", i + 2),
+                        ))
+                    }
+                },
                 reach_jumps: field(path, r, jumps, i)?,
             })
         })

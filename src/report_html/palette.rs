@@ -31,6 +31,11 @@ pub const GRATICULE: Rgb = [0x77, 0x77, 0x77];
 /// The name of the palette, for the report and the docs.
 pub const SOURCE: &str = "Okabe and Ito (2008) Color Universal Design, with pale grey from Paul Tol's Colour Schemes (SRON/EPS/TN/09-002)";
 
+/// `c` with an opaque alpha.
+pub const fn opaque(c: Rgb) -> [u8; 4] {
+    [c[0], c[1], c[2], 255]
+}
+
 /// The colour of a class code (0, 1, 2; anything else is nodata).
 pub fn class_colour(class: u8) -> Rgb {
     match class {

@@ -88,6 +88,39 @@ pub fn stderr(o: &Output) -> String {
     String::from_utf8_lossy(&o.stderr).into_owned()
 }
 
+/// Parse a JSON file. Every `summary.json` read this way from outside the repository (the
+/// runs the tests write into temporary folders) is first validated against the committed
+/// schema, docs/summary.schema.json (with the jsonschema crate), so every summary the test
+/// suite writes and reads is checked.
 pub fn json(path: &Path) -> serde_json::Value {
-    serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap()
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+    // Summaries the tests write (in temporary folders), not committed reference files.
+    let committed = path.starts_with(env!("CARGO_MANIFEST_DIR"));
+    if path.file_name().is_some_and(|n| n == "summary.json") && !committed {
+        let errors = schema_errors(&v);
+        assert!(
+            errors.is_empty(),
+            "{} does not validate against docs/summary.schema.json: {errors:?}",
+            path.display()
+        );
+    }
+    v
+}
+
+/// The committed schema of summary.json.
+pub fn summary_schema() -> serde_json::Value {
+    let p = Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/summary.schema.json");
+    serde_json::from_str(&std::fs::read_to_string(p).unwrap()).unwrap()
+}
+
+/// Validation errors of `summary` against docs/summary.schema.json (empty when valid).
+pub fn schema_errors(summary: &serde_json::Value) -> Vec<String> {
+    static VALIDATOR: std::sync::OnceLock<jsonschema::Validator> = std::sync::OnceLock::new();
+    let v = VALIDATOR.get_or_init(|| {
+        jsonschema::validator_for(&summary_schema()).expect("docs/summary.schema.json is a schema")
+    });
+    v.iter_errors(summary)
+        .map(|e| format!("{} at {}", e, e.instance_path))
+        .collect()
 }

@@ -1,0 +1,3 @@
+library(testthat)
+library(areal)
+test_check("areal")

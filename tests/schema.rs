@@ -1,0 +1,129 @@
+//! summary.json against its published JSON Schema (docs/summary.schema.json, generated from
+//! the Rust types with schemars and validated with the jsonschema crate, JSON Schema draft
+//! 2020-12), and the CLI's generated extras: completions, man page, examples in --help.
+
+mod common;
+use common::*;
+
+fn demo_summary(dir: &std::path::Path) -> serde_json::Value {
+    let out = dir.join("out");
+    let o = run(&[
+        "range",
+        "--suitability",
+        demo("suitability.tif").to_str().unwrap(),
+        "--records",
+        demo("records.csv").to_str().unwrap(),
+        "--omission",
+        "5",
+        "--accessible",
+        demo("accessible.geojson").to_str().unwrap(),
+        "--gap-km",
+        "20",
+        "--min-patch-km2",
+        "10",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "demo failed: {}", stderr(&o));
+    // json() validates summary.json against the committed schema.
+    json(&out.join("summary.json"))
+}
+
+#[test]
+fn committed_schema_is_the_generated_one() {
+    let o = run(&["schema"]);
+    assert!(o.status.success());
+    let committed = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/summary.schema.json"),
+    )
+    .unwrap();
+    assert!(
+        String::from_utf8(o.stdout).unwrap() == committed,
+        "docs/summary.schema.json is stale: run `cargo run --release -- schema > docs/summary.schema.json`"
+    );
+    assert_eq!(committed, areal::summary_schema());
+}
+
+#[test]
+fn demo_summary_is_valid_and_typed() {
+    let t = tempfile::tempdir().unwrap();
+    let s = demo_summary(t.path());
+    // The GDAL type name, not a Rust debug string (GDALGetDataTypeName of GDT_Float32).
+    assert_eq!(s["inputs"]["data_type"], "Float32");
+    assert!(s["metrics"]["reach"]["reachable_patches"].is_u64());
+}
+
+#[test]
+fn summaries_with_a_wrong_type_fail_validation() {
+    let t = tempfile::tempdir().unwrap();
+    let good = demo_summary(t.path());
+    assert!(schema_errors(&good).is_empty());
+    let mutations: [(&str, serde_json::Value); 5] = [
+        (
+            "/inputs/data_type",
+            serde_json::json!({"name": "Float32", "bits": 32}),
+        ),
+        ("/cells/nodata", serde_json::json!("12")),
+        ("/area_km2/suitable", serde_json::json!(null)),
+        ("/threshold/binary_input", serde_json::json!("false")),
+        ("/metrics/reach/reachable_patches", serde_json::json!(-1)),
+    ];
+    for (ptr, bad) in mutations {
+        let mut s = good.clone();
+        *s.pointer_mut(ptr).unwrap_or_else(|| panic!("{ptr} exists")) = bad;
+        let errors = schema_errors(&s);
+        assert!(!errors.is_empty(), "{ptr} with a wrong type validated");
+        // The error is located at the key or at an enclosing optional section (`metrics`
+        // is `anyOf` [object, null]).
+        assert!(
+            errors.iter().any(|e| {
+                let at = e.rsplit(" at ").next().unwrap();
+                !at.is_empty() && ptr.starts_with(at)
+            }),
+            "{ptr}: errors do not point to it: {errors:?}"
+        );
+    }
+    let mut s = good.clone();
+    s["threshold"].as_object_mut().unwrap().remove("value");
+    assert!(!schema_errors(&s).is_empty(), "a missing key validated");
+}
+
+#[test]
+fn completions_and_man_page_come_from_the_options() {
+    let bash = run(&["completions", "bash"]);
+    assert!(bash.status.success());
+    let b = String::from_utf8(bash.stdout).unwrap();
+    assert!(b.contains("complete -F") && b.contains("--suitability") && b.contains("--gap-km"));
+    let zsh = String::from_utf8(run(&["completions", "zsh"]).stdout).unwrap();
+    assert!(zsh.starts_with("#compdef areal"));
+    let man = run(&["man"]);
+    assert!(man.status.success());
+    let m = String::from_utf8(man.stdout).unwrap();
+    assert!(
+        m.starts_with(".ie") || m.contains(".TH areal"),
+        "{}",
+        &m[..200.min(m.len())]
+    );
+    for opt in [
+        "suitability",
+        "omission",
+        "aoo\\-cell\\-km",
+        "areal\\-extent",
+    ] {
+        assert!(m.contains(opt), "man page lacks {opt}");
+    }
+    let bad = run(&["completions", "tcsh"]);
+    assert_eq!(bad.status.code(), Some(2));
+}
+
+#[test]
+fn help_shows_worked_examples() {
+    for args in [&["--help"][..], &["range", "--help"], &["extent", "--help"]] {
+        let o = run(args);
+        let h = String::from_utf8(o.stdout).unwrap();
+        assert!(h.contains("Examples:"), "{args:?}");
+        assert!(h.contains("areal "), "{args:?}");
+    }
+    let h = String::from_utf8(run(&["range", "--help"]).stdout).unwrap();
+    assert!(h.contains("--omission 5") && h.contains("--buffer-km 150"));
+}

@@ -2,7 +2,12 @@
 """Benchmark runner: the GDAL decode floor, areal, and the numpy/scipy/rasterio peer on
 the same inputs, each under /usr/bin/time -v, side by side in one run.
 
-  bench/run.py [--sizes S,M,L] [--modes polygon,buffer] [--out docs/bench-results.md]
+  bench/run.py [--sizes S,M,L] [--modes polygon,buffer,vectors,vectors-metrics] [--out docs/bench-results.md]
+
+Modes: `polygon` and `buffer` time the pass (`--no-metrics`) with a polygon or a record-buffer
+M, beside the peer. `vectors` times the pass and the vector step (`--vectors --no-metrics`,
+polygon M, every vector file written); `vectors-metrics` times `areal range --vectors` as
+users run it (metrics on). Both areal only (the peer writes no vectors).
 
 Inputs come from ../shared/tools/make-landscape.py (seed 42; L with 10,000 points) into
 bench-data/ and are reused when present. The peer runs under an address-space limit
@@ -80,14 +85,19 @@ def main():
             sys.exit("decode floor failed: " + tail)
         rows.append((size, "-", "GDAL decode floor (2 threads)", floor_s, floor_mb, 1.0, None, None))
         for mode in a.modes.split(","):
-            marg = ["--accessible", m] if mode == "polygon" else ["--buffer-km", a.buffer_km]
+            marg = ["--buffer-km", a.buffer_km] if mode == "buffer" else ["--accessible", m]
+            extra = {"vectors": ["--vectors", "--no-metrics"], "vectors-metrics": ["--vectors"]}.get(mode, ["--no-metrics"])
             out = os.path.join(DATA, f"out-{size}-{mode}")
             ok, s, mb, stdout, tail = timed([AREAL, "range", "--suitability", tif, "--records", occ,
-                                            "--omission", "5", *marg, "--no-metrics", "--out", out, "--overwrite", "--json"])
+                                            "--omission", "5", *marg, *extra, "--out", out, "--overwrite", "--json"])
             if not ok:
                 sys.exit(f"areal failed on {size} {mode}: {tail}")
             summary = json.loads(stdout)
             peer = None
+            if mode.startswith("vectors"):
+                label = "areal range --vectors" + (" (metrics on)" if mode == "vectors-metrics" else " --no-metrics")
+                rows.append((size, mode, label, s, mb, s / floor_s, None, None))
+                continue
             if not a.no_peer:
                 pout = os.path.join(DATA, f"peer-{size}-{mode}")
                 pm = ["--accessible", m] if mode == "polygon" else ["--buffer-km", a.buffer_km]

@@ -13,6 +13,7 @@
 // The stages with an API of their own.
 pub mod access;
 pub mod area;
+pub mod change;
 pub mod metrics;
 pub mod patches;
 pub mod records;

@@ -41,6 +41,12 @@ pub const OUTPUT_NAMES: &[&str] = &[
     "accessible.geojson",
     "records.geojson",
     "range-equal-area.gpkg",
+    // `areal change` (crate::change).
+    "change.tif",
+    "change.tif.aux.xml",
+    "change.csv",
+    "agreement.tif",
+    "agreement.tif.aux.xml",
 ];
 
 /// A temporary output folder that becomes `dest` on [`OutputDir::commit`].
@@ -124,10 +130,20 @@ impl OutputDir {
                         "exists and is not empty; pass --overwrite to replace it, or choose another --out".into(),
                     ));
                 }
-                let foreign: Vec<&String> = entries
-                    .iter()
-                    .filter(|n| !OUTPUT_NAMES.contains(&n.as_str()) && !n.starts_with('.'))
-                    .collect();
+                // A subfolder counts as ours when it holds only our file names (the
+                // per-future folders of `areal change`).
+                let ours = |n: &str| {
+                    OUTPUT_NAMES.contains(&n)
+                        || n.starts_with('.')
+                        || fs::read_dir(dest.join(n)).is_ok_and(|rd| {
+                            rd.filter_map(|e| e.ok()).all(|e| {
+                                e.file_type().is_ok_and(|t| t.is_file())
+                                    && OUTPUT_NAMES
+                                        .contains(&e.file_name().to_string_lossy().as_ref())
+                            })
+                        })
+                };
+                let foreign: Vec<&String> = entries.iter().filter(|n| !ours(n)).collect();
                 if !foreign.is_empty() {
                     return Err(out_err(format!(
                         "holds files areal did not write ({}); --overwrite replaces only areal output folders",

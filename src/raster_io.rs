@@ -601,7 +601,32 @@ pub struct ClassWriter {
 
 impl ClassWriter {
     /// Create the GeoTIFF (tiled 256 x 256, DEFLATE, BIGTIFF if needed) on `grid`.
+    /// With internal overviews folded from the rows by the range classes' rule
+    /// (`class_overviews`).
     pub fn create(path: &Path, grid: &GridSpec) -> Result<Self> {
+        let mut w = Self::create_styled(path, grid, "range class", &crate::styles::CLASS_STYLES)?;
+        // The overview structure now (resampling NONE: GDAL computes nothing); the rows
+        // are folded into it as they are written.
+        let factors = crate::class_overviews::levels(grid.width, grid.height);
+        if !factors.is_empty() {
+            let f: Vec<i32> = factors.iter().map(|&f| f as i32).collect();
+            w.ds.build_overviews("NONE", &f, &[])
+                .map_err(output_error(path, "creating the overviews".into()))?;
+        }
+        w.overviews =
+            crate::class_overviews::OverviewFolder::new(grid.width, grid.height, &factors);
+        Ok(w)
+    }
+
+    /// Create a uint8 GeoTIFF like [`ClassWriter::create`] with its own band description
+    /// and classes (colours; category names by value, so values must run 0, 1, ...); nodata
+    /// 255, transparent.
+    pub(crate) fn create_styled(
+        path: &Path,
+        grid: &GridSpec,
+        description: &str,
+        classes: &[crate::styles::ClassStyle],
+    ) -> Result<Self> {
         let err = |op: &str| output_error(path, op.to_string());
         let opts = RasterCreationOptions::from_iter([
             "TILED=YES",
@@ -625,10 +650,10 @@ impl ClassWriter {
             let mut band = ds.rasterband(1).map_err(err("opening band 1"))?;
             band.set_no_data_value(Some(class::NODATA as f64))
                 .map_err(err("setting nodata"))?;
-            band.set_description("range class")
+            band.set_description(description)
                 .map_err(err("setting the band description"))?;
             let mut ct = ColorTable::new(PaletteInterpretation::Rgba);
-            for c in crate::styles::CLASS_STYLES {
+            for c in classes {
                 let [r, g, b, a] = c.rgba.map(i16::from);
                 ct.set_color_entry(c.value as u16, &ColorEntry::rgba(r, g, b, a));
             }
@@ -636,8 +661,11 @@ impl ClassWriter {
             ct.set_color_entry(class::NODATA as u16, &ColorEntry::rgba(0, 0, 0, 0));
             band.set_color_table(&ct);
             let mut names = gdal::cpl::CslStringList::new();
-            for n in class::NAMES {
-                names.add_string(n).map_err(err("setting category names"))?;
+            for (i, c) in classes.iter().enumerate() {
+                debug_assert_eq!(c.value as usize, i, "class values run 0, 1, ...");
+                names
+                    .add_string(c.name)
+                    .map_err(err("setting category names"))?;
             }
             // SAFETY: the band handle is live for this call; the list outlives it.
             let rv = unsafe {
@@ -650,23 +678,12 @@ impl ClassWriter {
                 });
             }
         }
-        // The overview structure now (resampling NONE: GDAL computes nothing); the rows
-        // are folded into it as they are written (class_overviews).
-        let factors = crate::class_overviews::levels(grid.width, grid.height);
-        if !factors.is_empty() {
-            let f: Vec<i32> = factors.iter().map(|&f| f as i32).collect();
-            ds.build_overviews("NONE", &f, &[])
-                .map_err(err("creating the overviews"))?;
-        }
         Ok(ClassWriter {
             path: path.to_path_buf(),
             ds,
             width: grid.width,
-            overviews: crate::class_overviews::OverviewFolder::new(
-                grid.width,
-                grid.height,
-                &factors,
-            ),
+            // No overviews folded unless asked ([`ClassWriter::create`]).
+            overviews: crate::class_overviews::OverviewFolder::new(grid.width, grid.height, &[]),
             next_row: 0,
             ready: Vec::new(),
         })
@@ -710,6 +727,24 @@ impl ClassWriter {
                 format!("writing rows {y0}..{}", y0 + n),
             ))?;
         Ok(buf.into_shape_and_vec().1)
+    }
+
+    /// Build nearest-neighbour overviews (factors 2, 4, ... down to about 256 cells), then
+    /// flush and close.
+    pub fn close_with_overviews(mut self) -> Result<()> {
+        let (w, h) = self.ds.raster_size();
+        let mut levels = Vec::new();
+        let mut f = 2;
+        while w.max(h) / f >= 256 {
+            levels.push(f as i32);
+            f *= 2;
+        }
+        if !levels.is_empty() {
+            self.ds
+                .build_overviews("NEAREST", &levels, &[])
+                .map_err(output_error(&self.path, "building overviews".into()))?;
+        }
+        self.close()
     }
 
     /// The dataset being written (for `styles::describe_classes`).

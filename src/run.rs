@@ -194,8 +194,9 @@ pub fn run_range(
     crate::styles::describe_classes(writer.dataset(), &dir.file("classes.tif"), &result.summary)?;
     writer.close()?;
     clock.lap("pass");
+    let mut to_range = Vec::new();
     if opts.metrics.enabled {
-        crate::metrics::add_range_metrics(&mut result, &model, &opts.metrics)?;
+        to_range = crate::metrics::add_range_metrics(&mut result, &model, &opts.metrics)?;
         clock.lap("metrics");
     }
     write_csv(&dir.file("patches.csv"), &result.patches)?;
@@ -206,8 +207,14 @@ pub fn run_range(
         crate::report_html::write_run_report(&dir, &result, &model, nodata)?;
     }
     if let Some(v) = &opts.vectors {
+        let rows = crate::vectors::RunRows {
+            patches: &result.patches,
+            nearest_range_km: &to_range,
+            records: &result.records,
+            summary: &result.summary,
+        };
         let run_dir = dir.file("");
-        crate::vectors::write_vectors(&run_dir, &run_dir, &opts.access, None, v)?;
+        crate::vectors::write_vectors(&model, &rows, &run_dir, v)?;
         crate::styles::write_layer_styles(&run_dir)?;
     }
     drop(model); // removes its spill file before the folder is committed

@@ -11,7 +11,6 @@ use common::*;
 use vectors_common::*;
 
 use gdal::vector::LayerAccess;
-use std::path::Path;
 
 #[test]
 fn layers_fields_counts_validity_and_areas_on_a_lonlat_grid() {
@@ -38,16 +37,58 @@ fn layers_fields_counts_validity_and_areas_on_a_lonlat_grid() {
     assert_eq!(by("unreachable").features.len(), n2);
     assert_eq!(by("accessible").features.len(), 1);
     assert_eq!(by("records").features.len(), rrows.len());
+    // Every patches.csv column reaches both patch layers; the two centroid columns under
+    // names distinct in 10 characters (ESRI Shapefile field-name limit, dBase III).
     for h in &ph {
-        assert!(by("patches").fields.contains(h), "patches lacks {h}");
+        let f = match h.as_str() {
+            "centroid_lon" => "cen_lon",
+            "centroid_lat" => "cen_lat",
+            other => other,
+        };
         assert!(
-            by("unreachable").fields.contains(h),
-            "unreachable lacks {h}"
+            by("patches").fields.iter().any(|x| x == f),
+            "patches lacks {f}"
+        );
+        assert!(
+            by("unreachable").fields.iter().any(|x| x == f),
+            "unreachable lacks {f}"
         );
     }
-    assert!(by("unreachable")
-        .fields
-        .contains(&"distance_km".to_string()));
+    for l in ["patches", "unreachable"] {
+        assert!(by(l).fields.contains(&"nearest_range_km".to_string()));
+        assert!(!by(l).fields.iter().any(|x| x == "distance_km"));
+    }
+    for l in &layers {
+        let mut short: Vec<String> = l
+            .fields
+            .iter()
+            .map(|n| n.chars().take(10).collect())
+            .collect();
+        short.sort();
+        let n = short.len();
+        short.dedup();
+        assert_eq!(short.len(), n, "layer {}: {:?}", l.name, l.fields);
+    }
+    // Boolean fields are OGR booleans (OFSTBoolean) in the GeoPackage.
+    {
+        let ds = gdal::Dataset::open(out.join("range.gpkg")).unwrap();
+        for (layer, field) in [
+            ("patches", "reachable"),
+            ("records", "dropped_by_threshold"),
+        ] {
+            let l = ds.layer_by_name(layer).unwrap();
+            let i = l.defn().field_index(field).unwrap();
+            let sub = unsafe {
+                let fd = gdal_sys::OGR_FD_GetFieldDefn(l.defn().c_defn(), i as i32);
+                gdal_sys::OGR_Fld_GetSubType(fd)
+            };
+            assert_eq!(
+                sub,
+                gdal_sys::OGRFieldSubType::OFSTBoolean,
+                "{layer}.{field}"
+            );
+        }
+    }
     for h in &rh {
         assert!(by("records").fields.contains(h), "records lacks {h}");
     }
@@ -61,21 +102,27 @@ fn layers_fields_counts_validity_and_areas_on_a_lonlat_grid() {
         }
     }
 
-    // Geodesic area of every patch polygon = its area_km2 (GeographicLib, parallels densified
-    // to 0.002 degree: the chord-vs-parallel error is below 1e-7 here, see area_km2_geodesic).
+    // Geodesic area of every patch polygon as written (GeographicLib PolygonArea, every edge
+    // a geodesic, nothing densified) = its area_km2 within 1e-6: the vertices added along
+    // the parallels make it so.
     let ia = col(&ph, "area_km2");
     for (f, row) in by("patches").features.iter().zip(&prows) {
         assert_eq!(f.attrs["patch_id"], row[col(&ph, "patch_id")]);
         let want: f64 = row[ia].parse().unwrap();
-        let got = area_km2_geodesic(&f.polygons);
+        let got = area_km2_geodesic_as_written(&f.polygons);
         assert!(rel(got, want) < 1e-6, "patch {}: {got} vs {want}", row[0]);
     }
     let inside = summary["area_km2"]["inside_accessible"].as_f64().unwrap();
     let range = &by("range").features[0];
-    assert!(rel(area_km2_geodesic(&range.polygons), inside) < 1e-6);
+    assert!(rel(area_km2_geodesic_as_written(&range.polygons), inside) < 1e-6);
     assert!(rel(range.attrs["area_km2"].parse().unwrap(), inside) < 1e-12);
     let m = summary["area_km2"]["accessible"].as_f64().unwrap();
-    assert!(rel(area_km2_geodesic(&by("accessible").features[0].polygons), m) < 1e-6);
+    assert!(
+        rel(
+            area_km2_geodesic_as_written(&by("accessible").features[0].polygons),
+            m
+        ) < 1e-6
+    );
 
     // records: dropped_by_threshold is exactly the below-threshold status.
     let st = col(&rh, "status");
@@ -85,45 +132,26 @@ fn layers_fields_counts_validity_and_areas_on_a_lonlat_grid() {
     }
     assert!(rrows.iter().any(|r| r[st] == "below_threshold"));
 
-    // Pixel edges by default: every vertex is a cell corner of the 0.25 degree grid.
+    // Pixel edges by default: every vertex is a cell corner of the 0.25 degree grid, or a
+    // vertex added along a parallel (on a row edge, between two vertices of that parallel).
     for f in &by("patches").features {
         for ring in f.polygons.iter().flatten() {
-            for &(x, y) in ring {
-                assert!(((x - 10.0) * 4.0 - ((x - 10.0) * 4.0).round()).abs() < 1e-9);
+            let n = ring.len() - 1;
+            for (k, &(x, y)) in ring[..n].iter().enumerate() {
                 assert!(((50.0 - y) * 4.0 - ((50.0 - y) * 4.0).round()).abs() < 1e-9);
+                if ((x - 10.0) * 4.0 - ((x - 10.0) * 4.0).round()).abs() > 1e-9 {
+                    let (a, b) = (ring[(k + n - 1) % n], ring[k + 1]);
+                    assert!(
+                        a.1 == y && b.1 == y && (a.0 - x) * (b.0 - x) < 0.0,
+                        "{x} {y}"
+                    );
+                }
             }
         }
     }
 
-    // Unreachable distances: the nearest class-1 cell centre, by brute force over all class-1
-    // cells with GeographicLib (the module uses boundary cells and an R-tree).
-    let (w, _h, classes) = read_u8(&out.join("classes.tif"));
-    let centre = |i: usize| {
-        (
-            10.0 + 0.25 * ((i % w) as f64 + 0.5),
-            50.0 - 0.25 * ((i / w) as f64 + 0.5),
-        )
-    };
-    let ones: Vec<(f64, f64)> = (0..classes.len())
-        .filter(|&i| classes[i] == 1)
-        .map(centre)
-        .collect();
-    let labels = label_cells(&classes, w);
-    for f in &by("unreachable").features {
-        let id: u32 = f.attrs["patch_id"].parse().unwrap();
-        let mut best = f64::INFINITY;
-        for i in (0..classes.len()).filter(|&i| labels[i] == id) {
-            for &q in &ones {
-                best = best.min(geodesic_m(centre(i), q));
-            }
-        }
-        let got: f64 = f.attrs["distance_km"].parse().unwrap();
-        assert!(
-            (got - best / 1000.0).abs() < 1e-9,
-            "patch {id}: {got} vs {}",
-            best / 1000.0
-        );
-    }
+    // nearest_range_km comes from the run's metrics (edge to edge, the definition of
+    // nearest_patch_km restricted to class-1 patches); here it is only carried over.
 }
 
 #[test]
@@ -145,6 +173,11 @@ fn geojson_is_rfc7946_lonlat_ccw_and_rounded() {
         }
         assert_decimals_at_most(&text, areal::vectors::GEOJSON_DECIMALS, name);
     }
+    // Boolean fields are JSON booleans (RFC 8259 true/false), not 0/1.
+    let v = json(&out.join("records.geojson"));
+    for f in v["features"].as_array().unwrap() {
+        assert!(f["properties"]["dropped_by_threshold"].is_boolean(), "{f}");
+    }
     let v = json(&out.join("patches.geojson"));
     let feats = v["features"].as_array().unwrap();
     assert_eq!(feats.len(), prows.len());
@@ -152,7 +185,7 @@ fn geojson_is_rfc7946_lonlat_ccw_and_rounded() {
     for (f, row) in feats.iter().zip(&prows) {
         assert_eq!(f["properties"]["patch_id"].to_string(), row[0]);
         let want: f64 = row[ia].parse().unwrap();
-        let got = area_km2_geodesic(&polygons_of_geojson(&f["geometry"]));
+        let got = area_km2_geodesic_as_written(&polygons_of_geojson(&f["geometry"]));
         // 9 decimals move a 0.25 degree cell's edge by < 5e-10 degree: < 1e-8 relative.
         assert!(rel(got, want) < 1e-6, "patch {}: {got} vs {want}", row[0]);
     }
@@ -352,7 +385,7 @@ fn global_patch_across_the_antimeridian() {
             }
             let want: f64 = row[ia].parse().unwrap();
             assert!(
-                rel(area_km2_geodesic(&polys), want) < 1e-6,
+                rel(area_km2_geodesic_as_written(&polys), want) < 1e-6,
                 "west {west}, patch {}",
                 row[0]
             );
@@ -375,38 +408,6 @@ fn global_patch_across_the_antimeridian() {
             assert!(f.valid);
         }
     }
-}
-
-#[test]
-fn too_large_grids_are_refused_before_writing() {
-    let t = tempfile::tempdir().unwrap();
-    let plain = t.path().join("plain");
-    let o = areal()
-        .args(regional_args(t.path(), &plain, &[]))
-        .output()
-        .unwrap();
-    assert!(o.status.success(), "{}", stderr(&o));
-    let opts = areal::vectors::VectorOptions {
-        max_cells: 100,
-        ..Default::default()
-    };
-    let access = areal::access::AccessSpec {
-        polygon: Some(t.path().join("m.geojson")),
-        ..Default::default()
-    };
-    let vout = t.path().join("v");
-    let e = areal::vectors::run_polygons(
-        &plain.join("classes.tif"),
-        &access,
-        None,
-        &opts,
-        &vout,
-        false,
-    )
-    .unwrap_err()
-    .to_string();
-    assert!(e.contains("1920 cells") && e.contains("100"), "{e}");
-    assert!(!vout.exists() && !Path::new(&vout).exists());
 }
 
 #[test]
@@ -484,4 +485,70 @@ fn projected_grid_lonlat_outputs_keep_the_true_areas() {
         .unwrap();
     // EPSG:3035 is equal-area: the planar area of the native polygons is the true area.
     assert!(rel(planar_km2(&range.polygons), inside) < 1e-12);
+}
+
+#[test]
+fn a_spilled_model_gives_the_same_vector_files() {
+    // AREAL_MODEL_BUDGET_MB=0 sends every run of the range model to its spill file; the
+    // vectors read the runs back from there and must write the same files byte for byte.
+    let t = tempfile::tempdir().unwrap();
+    let mem = regional_run(&t.path().join("mem"), &["--vectors"]);
+    let dir = t.path().join("spill");
+    std::fs::create_dir_all(&dir).unwrap();
+    let out = dir.join("out");
+    let o = areal()
+        .args(regional_args(&dir, &out, &["--vectors"]))
+        .env("AREAL_MODEL_BUDGET_MB", "0")
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    for n in ["range", "patches", "unreachable", "accessible", "records"] {
+        assert!(
+            std::fs::read(mem.join(format!("{n}.geojson"))).unwrap()
+                == std::fs::read(out.join(format!("{n}.geojson"))).unwrap(),
+            "{n}.geojson differs"
+        );
+    }
+    let (a, b) = (
+        read_gpkg(&mem.join("range.gpkg")),
+        read_gpkg(&out.join("range.gpkg")),
+    );
+    for (la, lb) in a.iter().zip(&b) {
+        for (fa, fb) in la.features.iter().zip(&lb.features) {
+            assert_eq!(fa.polygons, fb.polygons, "layer {}", la.name);
+        }
+    }
+}
+
+#[test]
+fn polygons_refuses_a_patch_table_of_another_run() {
+    let t = tempfile::tempdir().unwrap();
+    let plain = t.path().join("plain");
+    let o = areal()
+        .args(regional_args(t.path(), &plain, &[]))
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    // Drop the last patch row: the table no longer describes the raster's patches.
+    let p = plain.join("patches.csv");
+    let text = std::fs::read_to_string(&p).unwrap();
+    let lines: Vec<&str> = text.lines().collect();
+    std::fs::write(&p, lines[..lines.len() - 1].join("\n") + "\n").unwrap();
+    let vout = t.path().join("vec");
+    let o = run(&[
+        "polygons",
+        "--classes",
+        plain.join("classes.tif").to_str().unwrap(),
+        "--accessible",
+        t.path().join("m.geojson").to_str().unwrap(),
+        "--out",
+        vout.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(3), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("patches.csv") && stderr(&o).contains("rows for"),
+        "{}",
+        stderr(&o)
+    );
+    assert!(!vout.exists());
 }

@@ -31,6 +31,9 @@ pub(crate) enum Command {
     Extent(ExtentArgs),
     /// Write report.html and map.png again from an earlier `areal range` run's folder.
     Report(ReportArgs),
+    /// Range change from the present to future rasters (same threshold): stable, lost and
+    /// gained cells, within or beyond a dispersal distance.
+    Change(super::change::ChangeArgs),
     /// Print the JSON Schema of summary.json (the copy in docs/summary.schema.json).
     Schema,
     /// Print a shell completion script (e.g. `areal completions bash > /etc/bash_completion.d/areal`).

@@ -12,6 +12,7 @@
 //! printed once each as `areal: GDAL warning: ...` (unless `--quiet`).
 
 mod args;
+mod change;
 mod extras;
 pub(crate) mod progress;
 
@@ -68,6 +69,7 @@ pub(crate) fn main() -> ExitCode {
     }
     let quiet = match &cli.command {
         Command::Range(a) => a.quiet,
+        Command::Change(a) => a.quiet,
         _ => false,
     };
     let result = run(cli);
@@ -128,6 +130,7 @@ fn run(cli: Cli) -> areal::Result<()> {
             };
             Ok(())
         }
+        Command::Change(a) => change::run(a),
         Command::Polygons(a) => {
             let r = areal::vectors::run_polygons(
                 &a.classes,

@@ -189,6 +189,63 @@ impl KdTree {
     }
 }
 
+impl KdTree {
+    /// Visit every point not rejected by `skip` that lies within the cone of half-angle
+    /// `theta` (radians) around direction `u` (a unit vector) from apex `c`; whole nodes whose
+    /// box lies outside the cone are skipped (the box is taken as the ball round its centre).
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn search_cone(
+        &self,
+        xyz: &[[f64; 3]],
+        label: &[u32],
+        c: &[f64; 3],
+        u: &[f64; 3],
+        theta: f64,
+        skip: impl Fn(u32) -> bool,
+        mut visit: impl FnMut(usize),
+        stack: &mut Vec<(u32, f64)>,
+    ) {
+        if self.nodes.is_empty() {
+            return;
+        }
+        let angle_to = |x: &[f64; 3]| -> (f64, f64) {
+            let v = [x[0] - c[0], x[1] - c[1], x[2] - c[2]];
+            let len = (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt();
+            let cos = (u[0] * v[0] + u[1] * v[1] + u[2] * v[2]) / len;
+            (cos.clamp(-1.0, 1.0).acos(), len)
+        };
+        stack.clear();
+        stack.push((0, 0.0));
+        while let Some((n, _)) = stack.pop() {
+            let node = &self.nodes[n as usize];
+            if node.label != MIXED && skip(node.label) {
+                continue;
+            }
+            let mid = [
+                0.5 * (node.lo[0] + node.hi[0]),
+                0.5 * (node.lo[1] + node.hi[1]),
+                0.5 * (node.lo[2] + node.hi[2]),
+            ];
+            let r = 0.5 * d2(&node.lo, &node.hi).sqrt();
+            let (a, len) = angle_to(&mid);
+            if len > r && a - (r / len).min(1.0).asin() > theta {
+                continue;
+            }
+            if node.kids[0] == 0 {
+                for &i in &self.items[node.start as usize..node.end as usize] {
+                    let i = i as usize;
+                    if !skip(label[i]) && angle_to(&xyz[i]).0 <= theta {
+                        visit(i);
+                    }
+                }
+            } else {
+                stack.push((node.kids[0], 0.0));
+                stack.push((node.kids[1], 0.0));
+            }
+        }
+    }
+}
+
 /// Squared distance between two points.
 pub(crate) fn dist2(a: &[f64; 3], b: &[f64; 3]) -> f64 {
     d2(a, b)

@@ -20,7 +20,7 @@
 //! Records below the threshold are left out unless `keep_dropped`; excluded records (outside
 //! the raster, on nodata) are always left out.
 
-mod aoo;
+pub(crate) mod aoo;
 mod aoo_bitmap;
 mod aoo_runs;
 pub mod criterion_b;
@@ -45,6 +45,7 @@ pub use criterion_b::CriterionB;
 pub use eoo::{geodesic_polygon_area_km2, hull_area, HullArea, EOO_METHOD};
 pub use extent::{extent, ExtentReport};
 pub use figures::records_metrics;
+pub(crate) use range::nearest_range_km;
 pub use range::{add_range_metrics, range_metrics};
 pub use structure::{patch_structure, PatchStructure, StructureReport};
 
@@ -161,6 +162,10 @@ pub struct PatchMetrics {
     pub nearest_patch_km: Option<f64>,
     /// Edge-to-edge geodesic distance to the nearest other occupied patch, km.
     pub nearest_occupied_km: Option<f64>,
+    /// Edge-to-edge geodesic distance to the nearest other class-1 patch (the range inside M),
+    /// km; the vector layers' `nearest_range_km` (not a patches.csv column).
+    #[serde(skip)]
+    pub nearest_range_km: Option<f64>,
     /// Reached from the occupied patches by jumps of at most `--gap-km` (empty without it).
     pub reachable: Option<bool>,
     /// Fewest jumps that reach it (0 for occupied patches; empty when unreached or without `--gap-km`).

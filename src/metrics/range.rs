@@ -17,12 +17,14 @@ use crate::RangeResult;
 use std::path::Path;
 
 /// Compute the metrics of `result` from its `model` and store them in
-/// `result.summary.metrics` and in the metric columns of `result.patches`.
+/// `result.summary.metrics` and in the metric columns of `result.patches`. Returns each
+/// patch's distance to the nearest other class-1 patch (km, in id order), for the vector
+/// layers; empty when the metrics are left out.
 pub fn add_range_metrics(
     result: &mut RangeResult,
     model: &RangeModel,
     opts: &MetricsOptions,
-) -> Result<()> {
+) -> Result<Vec<Option<f64>>> {
     let records: Vec<MetricRecord> = result
         .records
         .iter()
@@ -47,18 +49,20 @@ pub fn add_range_metrics(
              --keep-dropped keeps the last): the metrics section is left out"
                 .into(),
         );
-        return Ok(());
+        return Ok(Vec::new());
     }
     let records_path = std::path::PathBuf::from(&result.summary.inputs.records);
     let (metrics, cols) = range_metrics(model, &records_path, &records, opts)?;
+    let mut to_range = Vec::with_capacity(cols.len());
     for (row, c) in result.patches.iter_mut().zip(cols) {
         row.nearest_patch_km = c.nearest_patch_km;
         row.nearest_occupied_km = c.nearest_occupied_km;
         row.reachable = c.reachable;
         row.reach_jumps = c.reach_jumps;
+        to_range.push(c.nearest_range_km);
     }
     result.summary.metrics = Some(metrics);
-    Ok(())
+    Ok(to_range)
 }
 
 /// All metrics of a range. Returns the metrics and one [`PatchMetrics`] per patch, in id order.
@@ -121,6 +125,7 @@ pub fn range_metrics(
     clock.lap("boundary corners");
     let near = reach::nearest(&c, |_| true);
     let near_occ = reach::nearest(&c, |p| occupied[p]);
+    let near_range = reach::nearest(&c, |p| patches[p].class == class::INSIDE);
     clock.lap("nearest patches");
     let jumps = opts.gap_km.map(|g| reach::reach(&c, |p| occupied[p], g));
     clock.lap("reach");
@@ -128,6 +133,7 @@ pub fn range_metrics(
         .map(|p| PatchMetrics {
             nearest_patch_km: near[p],
             nearest_occupied_km: near_occ[p],
+            nearest_range_km: near_range[p],
             reachable: jumps.as_ref().map(|j| j[p].is_some()),
             reach_jumps: jumps.as_ref().and_then(|j| j[p]),
         })
@@ -165,4 +171,11 @@ pub fn range_metrics(
         suitable: patch_structure(&areas(&|_| true), opts.min_patch_km2),
     });
     Ok((metrics, cols))
+}
+
+/// Each patch's distance (km) to the nearest other class-1 patch, edge to edge, in id order.
+pub(crate) fn nearest_range_km(model: &RangeModel) -> Result<Vec<Option<f64>>> {
+    let c = Corners::from_model(model)?;
+    let patches = model.patches();
+    Ok(reach::nearest(&c, |p| patches[p].class == class::INSIDE))
 }

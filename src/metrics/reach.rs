@@ -271,26 +271,68 @@ pub(crate) fn nearest(c: &Corners, target: impl Fn(usize) -> bool) -> Vec<Option
         let (Some(first), true) = (pair[p], best[p] > 0.0) else {
             return;
         };
-        tree.search_box(
-            &c.xyz,
-            &c.label,
-            lo,
-            hi,
-            search_bound(best[p]),
-            |l| l as usize == p,
-            |j, _| {
-                for &i in items {
-                    let i = i as usize;
-                    if (i, j) != first && dist2(&c.xyz[i], &c.xyz[j]) <= search_bound(best[p]) {
-                        if let Some(s) = c.dist_below(i, j, best[p]) {
-                            best[p] = best[p].min(s);
-                        }
+        let check = |j: usize, best: &mut f64| {
+            for &i in items {
+                let i = i as usize;
+                if (i, j) != first && dist2(&c.xyz[i], &c.xyz[j]) <= search_bound(*best) {
+                    if let Some(s) = c.dist_below(i, j, *best) {
+                        *best = best.min(s);
                     }
                 }
-                search_bound(best[p])
-            },
-            &mut stack,
-        );
+            }
+        };
+        // Only targets within the rolling-ball angle of `best` of some query corner can be
+        // nearer (see `may_be_below`): with the ball touching at the group's first corner,
+        // they lie in a cone round its normal, widened by the group's own spread.
+        let rho = m_min();
+        let i0 = items[0] as usize;
+        let u = crate::access::buffer::unit(c.pts[i0].0, c.pts[i0].1);
+        let apex = [
+            c.xyz[i0][0] - rho * u[0],
+            c.xyz[i0][1] - rho * u[1],
+            c.xyz[i0][2] - rho * u[2],
+        ];
+        let spread = items
+            .iter()
+            .map(|&i| {
+                let x = &c.xyz[i as usize];
+                let v = [x[0] - apex[0], x[1] - apex[1], x[2] - apex[2]];
+                let len = (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt();
+                ((u[0] * v[0] + u[1] * v[1] + u[2] * v[2]) / len)
+                    .clamp(-1.0, 1.0)
+                    .acos()
+            })
+            .fold(0.0, f64::max);
+        let theta = (best[p] + 1e-6) / (rho * (1.0 - 1e-9)) + spread + 1e-9;
+        let mut b = best[p];
+        if theta >= 0.5 * std::f64::consts::PI {
+            // A wide cone prunes little: search by chord instead.
+            tree.search_box(
+                &c.xyz,
+                &c.label,
+                lo,
+                hi,
+                search_bound(b),
+                |l| l as usize == p,
+                |j, _| {
+                    check(j, &mut b);
+                    search_bound(b)
+                },
+                &mut stack,
+            );
+        } else {
+            tree.search_cone(
+                &c.xyz,
+                &c.label,
+                &apex,
+                &u,
+                theta,
+                |l| l as usize == p,
+                |j| check(j, &mut b),
+                &mut stack,
+            );
+        }
+        best[p] = b;
     });
     (0..n).map(|p| pair[p].map(|_| best[p] / 1000.0)).collect()
 }

@@ -167,6 +167,10 @@ fn edge_to_edge_distances_between_patches() {
     assert_eq!(cols[0].nearest_occupied_km, None);
     assert!(close(cols[2].nearest_occupied_km, gap_km(2, 9))); // C-A
     assert!(close(cols[3].nearest_occupied_km, gap_km(2, 13))); // D-A
+                                                                // To the nearest other class-1 patch (A, B, E are class 1): C-B, D-B, E-B.
+    assert!(close(cols[2].nearest_range_km, gap_km(6, 5)));
+    assert!(close(cols[3].nearest_range_km, gap_km(6, 9)));
+    assert!(close(cols[4].nearest_range_km, gap_km(6, 21)));
     assert!(cols.iter().all(|c| c.reachable.is_none()));
 }
 

@@ -180,7 +180,7 @@ pub(crate) fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
 }
 
 /// A patch's table row: its pixel-space statistics in WGS84 lon/lat.
-fn patch_row(to: &LonLat, grid: &GridSpec, p: &Patch) -> Result<PatchRow> {
+pub(crate) fn patch_row(to: &LonLat, grid: &GridSpec, p: &Patch) -> Result<PatchRow> {
     let gt = grid.geo_transform;
     let px = |col: f64, row: f64| (gt[0] + col * gt[1], gt[3] + row * gt[5]);
     let (cx, cy) = px(p.centroid_col, p.centroid_row);

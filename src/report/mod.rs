@@ -4,6 +4,7 @@
 //! Every area is in km2 on the ellipsoid (see `area_method`); every count says what it counts.
 
 mod build;
+pub(crate) use build::patch_row;
 
 pub(crate) use build::{build_result, BuildInput};
 

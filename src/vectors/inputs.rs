@@ -1,14 +1,15 @@
-//! Reading a run's outputs for the vector step: `classes.tif` (whole, 1 byte a cell),
-//! `patches.csv`, `records.csv` (optional) and `summary.json`, all from one folder.
-//!
-//! CSV columns are carried over as they are: a column whose every non-empty value is an
-//! integer becomes an integer field, one whose values are all numbers a real field, anything
-//! else text; empty cells are nulls. So every column of the tables reaches the vector layers,
-//! whatever columns a run writes.
+//! What `areal polygons` reads from an earlier run's folder: the range model rebuilt from
+//! `classes.tif`, `patches.csv`, `records.csv` (optional) and `summary.json`; and the table
+//! types every layer is written from.
 
+use super::layers::RunTables;
+use super::tables::{read_table, PATCH_FIELDS, RECORD_FIELDS};
+use crate::access::{AccessMask, AccessSpec};
+use crate::model::RangeModel;
 use crate::patches::Connectivity;
-use crate::raster_io::{class, SuitabilityRaster, STRIP_ROWS};
-use crate::{Error, GridSpec, Result};
+use crate::raster_io::SuitabilityRaster;
+use crate::{Error, Result};
+use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 /// The type of a table column.
@@ -40,65 +41,6 @@ pub(crate) struct Table {
 }
 
 impl Table {
-    /// Read a CSV file with a header, typing each column from its values.
-    pub(crate) fn read_csv(path: &Path) -> Result<Table> {
-        let bad = |e: csv::Error| Error::Records {
-            path: path.to_path_buf(),
-            reason: format!("cannot read this areal table: {e}"),
-        };
-        let mut r = csv::Reader::from_path(path).map_err(bad)?;
-        let names: Vec<String> = r.headers().map_err(bad)?.iter().map(String::from).collect();
-        let mut raw: Vec<Vec<String>> = Vec::new();
-        for rec in r.records() {
-            let rec = rec.map_err(bad)?;
-            raw.push(rec.iter().map(String::from).collect());
-        }
-        let kinds: Vec<Kind> = (0..names.len())
-            .map(|c| {
-                let vals = || {
-                    raw.iter()
-                        .map(|row| row[c].as_str())
-                        .filter(|v| !v.is_empty())
-                };
-                if vals().count() == 0 {
-                    Kind::Text
-                } else if vals().all(|v| v.parse::<i64>().is_ok()) {
-                    Kind::Int
-                } else if vals().all(|v| v.parse::<f64>().is_ok()) {
-                    Kind::Real
-                } else {
-                    Kind::Text
-                }
-            })
-            .collect();
-        let rows = raw
-            .into_iter()
-            .map(|row| {
-                row.into_iter()
-                    .zip(&kinds)
-                    .map(|(v, k)| match (v.is_empty(), k) {
-                        (true, _) => Value::Null,
-                        (_, Kind::Int) => Value::Int(v.parse().unwrap()),
-                        (_, Kind::Real) => Value::Real(v.parse().unwrap()),
-                        _ => Value::Text(v),
-                    })
-                    .collect()
-            })
-            .collect();
-        Ok(Table { names, kinds, rows })
-    }
-
-    /// Index of a column, or an error naming the file.
-    pub(crate) fn col(&self, name: &str, path: &Path) -> Result<usize> {
-        self.names
-            .iter()
-            .position(|n| n == name)
-            .ok_or_else(|| Error::Records {
-                path: path.to_path_buf(),
-                reason: format!("has no column {name}; give the table areal wrote for this run"),
-            })
-    }
-
     /// A numeric cell as f64 (None when null or text).
     pub(crate) fn num(&self, row: usize, col: usize) -> Option<f64> {
         match &self.rows[row][col] {
@@ -129,55 +71,33 @@ pub(crate) struct SummaryFacts {
     pub access_description: String,
 }
 
-/// A run's outputs, read for the vector step.
-pub(crate) struct RunInputs {
-    pub classes_path: PathBuf,
-    pub grid: GridSpec,
-    pub classes: Vec<u8>,
-    pub patches: Table,
-    pub patches_path: PathBuf,
-    pub records: Option<Table>,
-    pub records_path: PathBuf,
-    pub summary: SummaryFacts,
-}
-
-/// Read `classes.tif` and the tables beside it. Refuses grids above `max_cells`.
-pub(crate) fn read_run(classes_path: &Path, max_cells: u64) -> Result<RunInputs> {
-    let dir = classes_path.parent().unwrap_or(Path::new("."));
-    let raster = SuitabilityRaster::open(classes_path)?;
-    let grid = raster.grid().clone();
-    if grid.n_cells() > max_cells {
-        return Err(Error::UnsupportedRaster {
-            path: classes_path.to_path_buf(),
-            reason: format!(
-                "has {} cells, more than the {max_cells} the vector step handles (it holds the grid \
-                 in memory, about 5 bytes a cell); polygonize a coarser or cropped run, or leave out --vectors",
-                grid.n_cells()
-            ),
-        });
-    }
-    let mut classes = Vec::with_capacity(grid.width * grid.height);
-    let mut buf = Vec::new();
-    for y0 in (0..grid.height).step_by(STRIP_ROWS) {
-        let rows = STRIP_ROWS.min(grid.height - y0);
-        raster.read_rows(y0, rows, &mut buf)?;
-        for &v in &buf {
-            let k = if raster.is_data(v) {
-                v
+impl SummaryFacts {
+    /// The facts of a summary in memory.
+    pub(crate) fn of(s: &crate::report::Summary) -> SummaryFacts {
+        SummaryFacts {
+            connectivity: Some(if s.patches.connectivity == 4 {
+                Connectivity::Four
             } else {
-                class::NODATA as f64
-            };
-            if ![0.0, 1.0, 2.0, 255.0].contains(&k) {
-                return Err(Error::UnsupportedRaster {
-                    path: classes_path.to_path_buf(),
-                    reason: format!(
-                        "holds the value {k}, not a class code (0, 1, 2, 255); give the classes.tif areal wrote"
-                    ),
-                });
-            }
-            classes.push(k as u8);
+                Connectivity::Eight
+            }),
+            inside_km2: s.area_km2.inside_accessible,
+            accessible_km2: s.area_km2.accessible,
+            whole_raster: s.accessible.whole_raster,
+            access_description: s.accessible.description.clone(),
         }
     }
+}
+
+/// An earlier run's folder, read for `areal polygons`: the range model rebuilt from
+/// `classes.tif` through the pass's labeller (with the run's connectivity, and M rebuilt from
+/// `access` and the run's records, checked against the classes by the model), and the tables
+/// beside it.
+pub(crate) fn read_run(
+    classes_path: &Path,
+    access: &AccessSpec,
+    connectivity: Option<Connectivity>,
+) -> Result<(RangeModel, RunTables)> {
+    let dir = classes_path.parent().unwrap_or(Path::new("."));
     let need = |name: &str| -> Result<PathBuf> {
         let p = dir.join(name);
         if p.exists() {
@@ -195,24 +115,112 @@ pub(crate) fn read_run(classes_path: &Path, max_cells: u64) -> Result<RunInputs>
     };
     let patches_path = need("patches.csv")?;
     let summary_path = need("summary.json")?;
-    let patches = Table::read_csv(&patches_path)?;
+    let facts = read_summary(&summary_path)?;
+    let conn = super::connectivity_of(facts.connectivity, connectivity, &summary_path)?;
+    let patches = read_table(&patches_path, &PATCH_FIELDS)?;
     let records_path = dir.join("records.csv");
     let records = if records_path.exists() {
-        Some(Table::read_csv(&records_path)?)
+        Some(read_table(&records_path, &RECORD_FIELDS)?)
     } else {
         None
     };
-    let summary = read_summary(&summary_path)?;
-    Ok(RunInputs {
-        classes_path: classes_path.to_path_buf(),
-        grid,
-        classes,
-        patches,
-        patches_path,
-        records,
-        records_path,
-        summary,
-    })
+    let grid = SuitabilityRaster::open(classes_path)?.grid().clone();
+
+    // M as used: rebuilt row by row as the run built it, from the run's records.
+    let no_m_options = access == &AccessSpec::default();
+    if no_m_options && !facts.whole_raster {
+        return Err(Error::InvalidOption {
+            option: "--accessible",
+            reason: format!(
+                "the run's M was \"{}\"; give the same --accessible / --buffer-km / --hull-buffer-km to rebuild it",
+                facts.access_description
+            ),
+        });
+    }
+    let lonlat: Vec<(f64, f64)> = match &records {
+        Some(r) => {
+            let at = |n: &str| RECORD_FIELDS.iter().position(|f| f.1 == n).expect("field");
+            let (lon, lat) = (at("lon"), at("lat"));
+            (0..r.rows.len())
+                .map(|i| {
+                    (
+                        r.num(i, lon).unwrap_or(f64::NAN),
+                        r.num(i, lat).unwrap_or(f64::NAN),
+                    )
+                })
+                .collect()
+        }
+        None => Vec::new(),
+    };
+    let mut mask = AccessMask::build(&grid, access, &lonlat)?;
+    if mask.description() != facts.access_description {
+        return Err(Error::InvalidOption {
+            option: "--accessible",
+            reason: format!(
+                "these M options give \"{}\", but the run's M was \"{}\"; give the run's own M options",
+                mask.description(),
+                facts.access_description
+            ),
+        });
+    }
+    let model =
+        RangeModel::from_class_raster(classes_path, conn, &BTreeMap::new(), Some(&mut mask))?;
+    // patches.csv must describe these patches (the same run's table).
+    let found = model.patches();
+    let mismatch = |what: String| {
+        Error::Records {
+        path: patches_path.clone(),
+        reason: format!(
+            "does not match {}: {what}; give the patches.csv, summary.json and classes.tif of one run",
+            classes_path.display()
+        ),
+    }
+    };
+    if patches.rows.len() != found.len() {
+        return Err(mismatch(format!(
+            "{} rows for {} patches",
+            patches.rows.len(),
+            found.len()
+        )));
+    }
+    for (i, p) in found.iter().enumerate() {
+        let (id, k, n) = (patches.num(i, 0), patches.num(i, 1), patches.num(i, 2));
+        if id != Some(p.id as f64) || k != Some(p.class as f64) || n != Some(p.cells as f64) {
+            return Err(mismatch(format!(
+                "line {} is patch {id:?} (class {k:?}, {n:?} cells), the raster's patch {} has class {} and {} cells",
+                i + 2,
+                p.id,
+                p.class,
+                p.cells
+            )));
+        }
+    }
+    // The distance to the nearest class-1 patch is not a patches.csv column: a run with
+    // metrics (nearest_patch_km filled) gets it from the metrics' one distance, as
+    // `areal range --vectors` does.
+    let mut patches = patches;
+    let col = PATCH_FIELDS
+        .iter()
+        .position(|f| f.0 == "nearest_range_km")
+        .expect("a patch field");
+    let near = PATCH_FIELDS
+        .iter()
+        .position(|f| f.0 == "nearest_patch_km")
+        .expect("a patch field");
+    if (0..patches.rows.len()).any(|i| patches.num(i, near).is_some()) {
+        let to_range = crate::metrics::nearest_range_km(&model)?;
+        for (row, d) in patches.rows.iter_mut().zip(to_range) {
+            row[col] = d.map_or(Value::Null, Value::Real);
+        }
+    }
+    Ok((
+        model,
+        RunTables {
+            patches,
+            records,
+            facts,
+        },
+    ))
 }
 
 fn read_summary(path: &Path) -> Result<SummaryFacts> {

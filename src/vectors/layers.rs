@@ -1,110 +1,110 @@
-//! Assembling the five layers from a run's outputs and writing every file.
+//! Assembling the five layers from the traced range and writing every file.
 //!
-//! Order: label the classes (the ids of patches.csv, checked cell count by cell count), measure
-//! the unreachable distances, polygonize, rebuild M row by row (checked against the classes),
-//! then write `range.gpkg` (raster CRS), the GeoJSON files (lon/lat) and, when asked, the
-//! equal-area GeoPackage.
+//! Order: trace the patches and M from the runs ([`super::source::trace`]), then write
+//! `range.gpkg` (raster CRS), the GeoJSON files (lon/lat) and, when asked, the equal-area
+//! GeoPackage. The geometries of one CRS are made, written and dropped before the next.
 
 use super::crs::{choose, Target};
-use super::distance::unreachable_distances_km;
-use super::inputs::{Kind, RunInputs, Table, Value};
+use super::geojson::write_geojson;
+use super::inputs::{Kind, SummaryFacts, Table, Value};
 use super::lonlat::{densify, grid_srs, wgs84, ToLonLat};
-use super::polygonize::{polygonize_labels, polygons_of};
-use super::write::{write_geojson, write_gpkg, Geom, LayerData};
+use super::parallels::lonlat_polygon;
+use super::polygonize::polygons_of;
+use super::source::{trace, RunSource};
+use super::trace::PixelPolygon;
+use super::write::{write_gpkg, Geom, LayerData};
 use super::{VectorOptions, VectorReport};
-use crate::access::{AccessMask, AccessSpec};
-use crate::patches::{label_grid, Connectivity};
 use crate::raster_io::class;
-use crate::{Error, Result};
+use crate::{Error, GridSpec, Result};
 use gdal::spatial_ref::CoordTransform;
 use gdal::vector::ToGdal;
 use geo::orient::{Direction, Orient};
-use geo_types::{MultiPolygon, Polygon};
+use geo_types::{Coord, LineString, MultiPolygon, Polygon};
 use std::path::Path;
 
 /// Metres in one degree of latitude at most (at the poles, WGS84): a tolerance of t m is
 /// t / this in degrees, which never moves a point by more than t m on a lon/lat grid.
 const MAX_M_PER_DEG_LAT: f64 = 111_694.0;
 
-fn mismatch(run: &RunInputs, what: String) -> Error {
-    Error::UnsupportedRaster {
-        path: run.classes_path.clone(),
-        reason: format!(
-            "does not match {}: {what}; give the classes.tif, patches.csv and summary.json of one run (and its --connectivity)",
-            run.patches_path.display()
-        ),
-    }
+/// The tables of a run, in the layers' schema (see `tables.rs`).
+pub(crate) struct RunTables {
+    pub patches: Table,
+    pub records: Option<Table>,
+    pub facts: SummaryFacts,
 }
 
 pub(crate) fn build_and_write(
-    run: RunInputs,
-    conn: Connectivity,
-    access: &AccessSpec,
+    src: &dyn RunSource,
+    tables: &RunTables,
     opts: &VectorOptions,
     out_dir: &Path,
+    ctx: &Path,
 ) -> Result<VectorReport> {
-    let grid = run.grid.clone();
-    let ctx = run.classes_path.clone();
-    let wrap = grid.wraps_antimeridian();
-    let (mut labels, patches) = label_grid(&run.classes, grid.width, conn, wrap);
-
-    // The label ids must be the patch ids of patches.csv.
-    let t = &run.patches;
-    let (c_id, c_class, c_cells) = (
-        t.col("patch_id", &run.patches_path)?,
-        t.col("class", &run.patches_path)?,
-        t.col("cells", &run.patches_path)?,
-    );
+    let grid = src.grid().clone();
+    let patches = src.patches();
+    let t = &tables.patches;
     if t.rows.len() != patches.len() {
-        return Err(mismatch(
-            &run,
-            format!(
-                "{} patches in the table, {} in the raster",
+        return Err(Error::Processing {
+            what: "vector layers".into(),
+            reason: format!(
+                "{} patch rows for {} patches; give the patches.csv of the same run",
                 t.rows.len(),
                 patches.len()
             ),
-        ));
+        });
     }
-    for (i, p) in patches.iter().enumerate() {
-        let (id, k, n) = (t.num(i, c_id), t.num(i, c_class), t.num(i, c_cells));
-        if id != Some(p.id as f64) || k != Some(p.class as f64) || n != Some(p.cells as f64) {
-            return Err(mismatch(
-                &run,
-                format!(
-                    "row {} of the table is patch {id:?} (class {k:?}, {n:?} cells), the raster's patch {} has class {} and {} cells",
-                    i + 1, p.id, p.class, p.cells
-                ),
-            ));
-        }
-    }
-
+    let mut clock = crate::progress::StageClock::new();
+    let traced = trace(src)?;
+    clock.lap("vectors: trace");
     let to_ll = ToLonLat::new(&grid)?;
-    let distances =
-        unreachable_distances_km(&run.classes, &labels, &grid, wrap, patches.len(), &to_ll);
-    let mut shapes = polygonize_labels(&mut labels, &grid, conn, patches.len(), &ctx)?;
-    drop(labels);
-    if let Some(tol_m) = opts.simplify_m {
-        let tol = if grid.geographic {
-            tol_m / MAX_M_PER_DEG_LAT
-        } else {
-            tol_m / grid_srs(&grid)?.linear_units()
-        };
-        for s in shapes.iter_mut() {
-            let g = s.to_gdal().map_err(Error::gdal(&ctx, "simplifying"))?;
-            let simple = g
-                .simplify_preserve_topology(tol)
-                .map_err(Error::gdal(&ctx, "simplifying"))?;
-            *s = polygons_of(&simple, &ctx)?;
-        }
-    }
+    let tol = match opts.simplify_m {
+        None => None,
+        Some(m) if grid.geographic => Some(m / MAX_M_PER_DEG_LAT),
+        Some(m) => Some(m / grid_srs(&grid)?.linear_units()),
+    };
+    let native_of = |ps: &[PixelPolygon]| native(ps, &grid, tol, ctx);
+    let shapes: Vec<MultiPolygon<f64>> = traced
+        .patches
+        .iter()
+        .map(|p| native_of(p))
+        .collect::<Result<_>>()?;
+    let accessible = native_of(&traced.accessible)?;
+    let m_cells = traced.m_cells as i64;
+    drop(traced);
 
-    // M as used: the data cells whose centre is in M.
-    let records_lonlat = match &run.records {
+    let class1: Vec<usize> = (0..patches.len())
+        .filter(|&i| patches[i].class == class::INSIDE)
+        .collect();
+    let class2: Vec<usize> = (0..patches.len())
+        .filter(|&i| patches[i].class == class::OUTSIDE)
+        .collect();
+    let f = &tables.facts;
+    let range_table = Table {
+        names: vec!["area_km2".into(), "cells".into(), "patches".into()],
+        kinds: vec![Kind::Real, Kind::Int, Kind::Int],
+        rows: vec![vec![
+            Value::Real(f.inside_km2),
+            Value::Int(class1.iter().map(|&i| patches[i].cells as i64).sum()),
+            Value::Int(class1.len() as i64),
+        ]],
+    };
+    let unreach_table = Table {
+        names: t.names.clone(),
+        kinds: t.kinds.clone(),
+        rows: class2.iter().map(|&i| t.rows[i].clone()).collect(),
+    };
+    let access_table = Table {
+        names: vec!["area_km2".into(), "cells".into(), "description".into()],
+        kinds: vec![Kind::Real, Kind::Int, Kind::Text],
+        rows: vec![vec![
+            Value::Real(f.accessible_km2),
+            Value::Int(m_cells),
+            Value::Text(f.access_description.clone()),
+        ]],
+    };
+    let record_lonlat: Vec<(f64, f64)> = match &tables.records {
         Some(r) => {
-            let (lon, lat) = (
-                r.col("lon", &run.records_path)?,
-                r.col("lat", &run.records_path)?,
-            );
+            let (lon, lat) = (col(r, "lon")?, col(r, "lat")?);
             (0..r.rows.len())
                 .map(|i| {
                     (
@@ -116,106 +116,6 @@ pub(crate) fn build_and_write(
         }
         None => Vec::new(),
     };
-    let no_m_options = access == &AccessSpec::default();
-    if no_m_options && !run.summary.whole_raster {
-        return Err(Error::InvalidOption {
-            option: "--accessible",
-            reason: format!(
-                "the run's M was \"{}\"; give the same --accessible / --buffer-km / --hull-buffer-km to rebuild it",
-                run.summary.access_description
-            ),
-        });
-    }
-    let mut mask = AccessMask::build(&grid, access, &records_lonlat)?;
-    if mask.description() != run.summary.access_description {
-        return Err(Error::InvalidOption {
-            option: "--accessible",
-            reason: format!(
-                "these M options give \"{}\", but the run's M was \"{}\"; give the run's own M options",
-                mask.description(),
-                run.summary.access_description
-            ),
-        });
-    }
-    let mut m_cells = vec![0u32; run.classes.len()];
-    let mut row = vec![false; grid.width];
-    for r in 0..grid.height {
-        mask.fill_row(r, &mut row)?;
-        for (c, &in_m) in row.iter().enumerate() {
-            let i = r * grid.width + c;
-            let k = run.classes[i];
-            if (k == class::INSIDE && !in_m) || (k == class::OUTSIDE && in_m) {
-                return Err(Error::InvalidOption {
-                    option: "--accessible",
-                    reason: format!(
-                        "the rebuilt M disagrees with {} at row {r}, column {c} (class {k}); give the run's own M options and inputs",
-                        ctx.display()
-                    ),
-                });
-            }
-            m_cells[i] = u32::from(in_m && k != class::NODATA);
-        }
-    }
-    let n_m = m_cells.iter().filter(|&&v| v == 1).count();
-    let accessible = polygonize_labels(&mut m_cells, &grid, Connectivity::Four, 1, &ctx)?
-        .pop()
-        .expect("one id");
-    drop(m_cells);
-
-    // Tables.
-    let class1: Vec<usize> = (0..patches.len())
-        .filter(|&i| patches[i].class == class::INSIDE)
-        .collect();
-    let class2: Vec<usize> = (0..patches.len())
-        .filter(|&i| patches[i].class == class::OUTSIDE)
-        .collect();
-    let range_table = Table {
-        names: vec!["area_km2".into(), "cells".into(), "patches".into()],
-        kinds: vec![Kind::Real, Kind::Int, Kind::Int],
-        rows: vec![vec![
-            Value::Real(run.summary.inside_km2),
-            Value::Int(class1.iter().map(|&i| patches[i].cells as i64).sum()),
-            Value::Int(class1.len() as i64),
-        ]],
-    };
-    let mut unreach_table = Table {
-        names: t.names.clone(),
-        kinds: t.kinds.clone(),
-        rows: class2.iter().map(|&i| t.rows[i].clone()).collect(),
-    };
-    unreach_table.push_column(
-        "distance_km",
-        Kind::Real,
-        class2
-            .iter()
-            .map(|&i| distances[i].map_or(Value::Null, Value::Real))
-            .collect(),
-    );
-    let access_table = Table {
-        names: vec!["area_km2".into(), "cells".into(), "description".into()],
-        kinds: vec![Kind::Real, Kind::Int, Kind::Text],
-        rows: vec![vec![
-            Value::Real(run.summary.accessible_km2),
-            Value::Int(n_m as i64),
-            Value::Text(run.summary.access_description.clone()),
-        ]],
-    };
-    let (records_table, record_lonlat) = match &run.records {
-        Some(r) => {
-            let mut r = r.clone();
-            let st = r.col("status", &run.records_path)?;
-            let dropped = (0..r.rows.len())
-                .map(|i| Value::Bool(r.rows[i][st] == Value::Text("below_threshold".into())))
-                .collect();
-            r.push_column("dropped_by_threshold", Kind::Bool, dropped);
-            (Some(r), records_lonlat)
-        }
-        None => (None, Vec::new()),
-    };
-
-    // Geometries per CRS: native, lon/lat (centre 0), equal-area.
-    let native = Shapes::native(&shapes, &class1, &accessible, &record_lonlat, &grid)?;
-    let mut written = Vec::new();
     let layers_of = |s: &Shapes| {
         s.layers(
             &range_table,
@@ -223,31 +123,39 @@ pub(crate) fn build_and_write(
             &unreach_table,
             &class2,
             &access_table,
-            records_table.as_ref(),
+            tables.records.as_ref(),
         )
     };
-    write_gpkg(
-        &out_dir.join("range.gpkg"),
-        &grid_srs(&grid)?,
-        &layers_of(&native),
-    )?;
-    written.push("range.gpkg".to_string());
 
-    let ll = Shapes::lonlat(
-        &shapes,
-        &class1,
-        &accessible,
-        &record_lonlat,
-        &to_ll,
-        0.0,
-        &ctx,
-    )?;
-    let w84 = wgs84()?;
-    for l in layers_of(&ll) {
-        let name = format!("{}.geojson", l.name);
-        write_geojson(&out_dir.join(&name), &w84, &l)?;
-        written.push(name);
+    let mut written = Vec::new();
+    {
+        let native = Shapes::native(&shapes, &class1, &accessible, &record_lonlat, &grid)?;
+        write_gpkg(
+            &out_dir.join("range.gpkg"),
+            &grid_srs(&grid)?,
+            &layers_of(&native),
+        )?;
+        written.push("range.gpkg".to_string());
     }
+    clock.lap("vectors: range.gpkg");
+    let w84 = wgs84()?;
+    {
+        let ll = Shapes::lonlat(
+            &shapes,
+            &class1,
+            &accessible,
+            &record_lonlat,
+            &to_ll,
+            0.0,
+            ctx,
+        )?;
+        for l in layers_of(&ll) {
+            let name = format!("{}.geojson", l.name);
+            write_geojson(&out_dir.join(&name), &l)?;
+            written.push(name);
+        }
+    }
+    clock.lap("vectors: GeoJSON");
     let mut equal_area_crs = None;
     if let Some(spec) = &opts.equal_area {
         let Target {
@@ -262,7 +170,7 @@ pub(crate) fn build_and_write(
             &record_lonlat,
             &to_ll,
             centre_lon,
-            &ctx,
+            ctx,
         )?;
         let ct = CoordTransform::new(&w84, &srs).map_err(|e| Error::Crs {
             what: "--vector-crs".into(),
@@ -273,24 +181,79 @@ pub(crate) fn build_and_write(
         } else {
             f64::INFINITY
         };
-        let ea = ll.transformed(&ct, seg, &ctx)?;
+        let ea = ll.transformed(&ct, seg, ctx)?;
         write_gpkg(
             &out_dir.join("range-equal-area.gpkg"),
             &srs,
             &layers_of(&ea),
         )?;
         written.push("range-equal-area.gpkg".to_string());
+        clock.lap("vectors: range-equal-area.gpkg");
         equal_area_crs = Some(label);
     }
     Ok(VectorReport {
         files: written,
         patches: patches.len(),
         unreachable: class2.len(),
-        records: records_table.map_or(0, |r| r.rows.len()),
+        records: tables.records.as_ref().map_or(0, |r| r.rows.len()),
         equal_area_crs,
     })
 }
 
+fn col(t: &Table, name: &str) -> Result<usize> {
+    t.names
+        .iter()
+        .position(|n| n == name)
+        .ok_or_else(|| Error::Processing {
+            what: "vector layers".into(),
+            reason: format!("the records table has no field {name}"),
+        })
+}
+
+/// Pixel polygons in the grid's CRS: on lon/lat grids with vertices along the parallels
+/// (`parallels.rs`), elsewhere at the cell corners; simplified by `tol` (CRS units) when given.
+fn native(
+    ps: &[PixelPolygon],
+    grid: &GridSpec,
+    tol: Option<f64>,
+    ctx: &Path,
+) -> Result<MultiPolygon<f64>> {
+    let gt = grid.geo_transform;
+    let corners = |ring: &[(u32, u32)]| {
+        LineString(
+            ring.iter()
+                .map(|&(c, r)| Coord {
+                    x: gt[0] + c as f64 * gt[1],
+                    y: gt[3] + r as f64 * gt[5],
+                })
+                .collect(),
+        )
+    };
+    if grid.geographic && tol.is_none() {
+        return Ok(MultiPolygon(
+            ps.iter().map(|p| lonlat_polygon(p, grid).0).collect(),
+        ));
+    }
+    let mp = MultiPolygon(
+        ps.iter()
+            .map(|p| {
+                Polygon::new(
+                    corners(&p.exterior),
+                    p.holes.iter().map(|h| corners(h)).collect(),
+                )
+            })
+            .collect(),
+    );
+    let Some(tol) = tol else { return Ok(mp) };
+    if mp.0.is_empty() {
+        return Ok(mp);
+    }
+    let g = mp.to_gdal().map_err(Error::gdal(ctx, "simplifying"))?;
+    let simple = g
+        .simplify_preserve_topology(tol)
+        .map_err(Error::gdal(ctx, "simplifying"))?;
+    polygons_of(&simple, ctx)
+}
 /// The geometries of every layer in one CRS.
 struct Shapes {
     patches: Vec<MultiPolygon<f64>>,

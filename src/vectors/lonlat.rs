@@ -77,18 +77,6 @@ impl ToLonLat {
         })
     }
 
-    /// One native point to lon/lat (not wrapped); None when it has none.
-    pub(crate) fn point(&self, x: f64, y: f64) -> Option<(f64, f64)> {
-        match &self.ct {
-            None => Some((x, y)),
-            Some(ct) => {
-                let (mut xs, mut ys) = ([x], [y]);
-                ct.transform_coords(&mut xs, &mut ys, &mut []).ok()?;
-                Some((xs[0], ys[0])).filter(|p| p.0.is_finite() && p.1.is_finite())
-            }
-        }
-    }
-
     /// `mp` (native) as lon/lat within [centre - 180, centre + 180]; `what` names the feature.
     pub(crate) fn polygons(
         &self,

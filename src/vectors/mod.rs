@@ -1,48 +1,57 @@
 //! GIS-ready vector outputs of a run: `range.gpkg` and RFC 7946 GeoJSON files.
 //!
-//! Inputs: a folder holding a run's `classes.tif`, `patches.csv`, `summary.json` and (if
-//! present) `records.csv`, plus the M options of the run (to rebuild M exactly as the classes
-//! used it). Layers (GeoPackage layer = GeoJSON file name):
+//! Input: the range as rows of runs with their patch ids, and M as runs (`source.rs`), with the
+//! run's patch and record tables. Layers (GeoPackage layer = GeoJSON file name):
 //! - `range`: the class-1 cells (suitable inside M) as one multipolygon, with `area_km2`
 //!   (= summary `area_km2.inside_accessible`), `cells` and `patches`;
-//! - `patches`: one multipolygon per class-1 and class-2 patch with every column of
-//!   patches.csv (same `patch_id`);
-//! - `unreachable`: the class-2 patches with `distance_km` to the nearest class-1 cell
-//!   ([`distance`] gives the definition);
+//! - `patches`: one multipolygon per class-1 and class-2 patch with the patch table's fields
+//!   (same `patch_id`; field names in `tables.rs`);
+//! - `unreachable`: the class-2 patches, same fields (`nearest_range_km`: edge to edge to the
+//!   nearest class-1 patch);
 //! - `accessible`: M as used: the data cells whose centre is in M, with `area_km2` (= summary
 //!   `area_km2.accessible`), `cells` and M's description;
-//! - `records`: points with every column of records.csv and `dropped_by_threshold`.
+//! - `records`: points with the record table's fields and `dropped_by_threshold`.
 //!
-//! CRS: `range.gpkg` is in the raster's CRS with pixel-edge boundaries (vertices exactly on
-//! cell corners); the GeoJSON files are WGS84 lon/lat, cut at the antimeridian, exterior rings
-//! counter-clockwise, [`GEOJSON_DECIMALS`] decimals; `range-equal-area.gpkg` (optional) is
-//! in an equal-area CRS ([`VectorCrs`]).
+//! Polygons are traced from the runs (`trace.rs`): pixel-edge boundaries, vertices on cell
+//! corners. On lon/lat grids vertices are added along parallels so that geodesic areas match
+//! the cell areas (`parallels.rs`). CRS: `range.gpkg` is in the raster's CRS; the GeoJSON files
+//! are WGS84 lon/lat, cut at the antimeridian, exterior rings counter-clockwise,
+//! [`GEOJSON_DECIMALS`] decimals; `range-equal-area.gpkg` (optional) is in an equal-area CRS
+//! ([`VectorCrs`]).
 //!
-//! Memory: the class grid (1 byte a cell) and one label grid (4 bytes a cell) are held whole;
-//! grids above [`VectorOptions::max_cells`] are refused before anything is read. See
-//! docs/vectors.md.
+//! Memory: the edges of the patches still open while tracing, then the polygons (8 bytes a
+//! vertex, and the geometries of one output CRS at a time); nothing grows with the cells.
+//! See docs/vectors.md.
 
 mod crs;
-mod distance;
+#[cfg(test)]
+mod gdal_ref;
+mod geojson;
 mod inputs;
 mod layers;
 mod lonlat;
+mod parallels;
+#[cfg(test)]
+mod parallels_tests;
 mod polygonize;
+mod source;
+mod tables;
 #[cfg(test)]
 mod tests;
+mod trace;
+#[cfg(test)]
+mod trace_tests;
 mod write;
 
 pub use crs::VectorCrs;
 pub use write::GEOJSON_DECIMALS;
 
 use crate::access::AccessSpec;
+use crate::model::RangeModel;
 use crate::patches::Connectivity;
+use crate::report::{PatchRow, RecordRow, Summary};
 use crate::{Error, Result};
 use std::path::{Path, PathBuf};
-
-/// Largest grid (cells) the vector step accepts by default: 100 million cells, about 0.5 GB
-/// for the class and label grids, and up to about 2 GB while labelling one huge patch.
-pub const DEFAULT_MAX_CELLS: u64 = 100_000_000;
 
 /// The file names the vector step writes.
 pub const VECTOR_NAMES: [&str; 7] = [
@@ -56,24 +65,12 @@ pub const VECTOR_NAMES: [&str; 7] = [
 ];
 
 /// Options of the vector step (`--vectors`, `--vector-crs`, `--simplify-m`).
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Default)]
 pub struct VectorOptions {
     /// Also write `range-equal-area.gpkg` in this CRS.
     pub equal_area: Option<VectorCrs>,
     /// Simplify boundaries with this tolerance in metres (topology-preserving); off when None.
     pub simplify_m: Option<f64>,
-    /// Refuse grids with more cells than this.
-    pub max_cells: u64,
-}
-
-impl Default for VectorOptions {
-    fn default() -> Self {
-        VectorOptions {
-            equal_area: None,
-            simplify_m: None,
-            max_cells: DEFAULT_MAX_CELLS,
-        }
-    }
 }
 
 /// What the vector step wrote.
@@ -91,17 +88,37 @@ pub struct VectorReport {
     pub equal_area_crs: Option<String>,
 }
 
-/// Write the vector outputs of the run in `run_dir` into `out_dir`.
-///
-/// `access` must be the M options of that run (checked against summary.json and the classes);
-/// `connectivity` overrides summary.json's when given (it must agree with the patches).
+/// The tables of a run in memory, as `areal range` made them.
+#[derive(Debug, Clone, Copy)]
+pub struct RunRows<'a> {
+    /// patches.csv rows, in id order.
+    pub patches: &'a [PatchRow],
+    /// Per patch (index id - 1): the edge-to-edge distance to the nearest class-1 patch, km,
+    /// from the metrics; empty when they were not computed.
+    pub nearest_range_km: &'a [Option<f64>],
+    /// records.csv rows.
+    pub records: &'a [RecordRow],
+    /// The summary.
+    pub summary: &'a Summary,
+}
+
+/// Write the vector outputs of a run into `out_dir`, from its model and tables in memory.
 pub fn write_vectors(
-    run_dir: &Path,
+    model: &RangeModel,
+    rows: &RunRows<'_>,
     out_dir: &Path,
-    access: &AccessSpec,
-    connectivity: Option<Connectivity>,
     opts: &VectorOptions,
 ) -> Result<VectorReport> {
+    check_options(opts)?;
+    let tables = layers::RunTables {
+        patches: tables::patch_table(rows.patches, rows.nearest_range_km),
+        records: Some(tables::record_table(rows.records)),
+        facts: inputs::SummaryFacts::of(rows.summary),
+    };
+    layers::build_and_write(model, &tables, opts, out_dir, out_dir)
+}
+
+fn check_options(opts: &VectorOptions) -> Result<()> {
     if let Some(t) = opts.simplify_m {
         if !(t.is_finite() && t > 0.0) {
             return Err(Error::InvalidOption {
@@ -110,38 +127,34 @@ pub fn write_vectors(
             });
         }
     }
-    let classes = run_dir.join("classes.tif");
-    if !classes.exists() {
-        return Err(Error::MissingInput {
-            path: classes,
-            what: "classes.tif of an areal run",
-        });
+    Ok(())
+}
+
+/// The connectivity of a run: summary.json's, or `given` (which must agree with it).
+pub(crate) fn connectivity_of(
+    summary: Option<Connectivity>,
+    given: Option<Connectivity>,
+    summary_path: &Path,
+) -> Result<Connectivity> {
+    match (summary, given) {
+        (Some(a), Some(b)) if a != b => Err(Error::InvalidOption {
+            option: "--connectivity",
+            reason: format!(
+                "the run was labelled with {}-neighbour patches ({}); leave --connectivity out or give {}",
+                n_of(a),
+                summary_path.display(),
+                n_of(a)
+            ),
+        }),
+        (Some(a), _) | (None, Some(a)) => Ok(a),
+        (None, None) => Err(Error::InvalidOption {
+            option: "--connectivity",
+            reason: format!(
+                "{} does not say how patches were connected; give --connectivity 8 or 4 as in the run",
+                summary_path.display()
+            ),
+        }),
     }
-    let run = inputs::read_run(&classes, opts.max_cells)?;
-    let conn = match (run.summary.connectivity, connectivity) {
-        (Some(a), Some(b)) if a != b => {
-            return Err(Error::InvalidOption {
-                option: "--connectivity",
-                reason: format!(
-                    "the run was labelled with {}-neighbour patches ({}); leave --connectivity out or give {}",
-                    n_of(a),
-                    run_dir.join("summary.json").display(),
-                    n_of(a)
-                ),
-            })
-        }
-        (Some(a), _) | (None, Some(a)) => a,
-        (None, None) => {
-            return Err(Error::InvalidOption {
-                option: "--connectivity",
-                reason: format!(
-                    "{} does not say how patches were connected; give --connectivity 8 or 4 as in the run",
-                    run_dir.join("summary.json").display()
-                ),
-            })
-        }
-    };
-    layers::build_and_write(run, conn, access, opts, out_dir)
 }
 
 fn n_of(c: Connectivity) -> u8 {
@@ -181,7 +194,16 @@ pub fn run_polygons(
     let dir = crate::output::OutputDir::prepare(out, overwrite, &inputs)?;
     let tmp = dir.file("x");
     let tmp = tmp.parent().expect("the temporary folder has a parent");
-    let report = write_vectors(&run_dir, tmp, access, connectivity, opts)?;
+    check_options(opts)?;
+    let classes = run_dir.join("classes.tif");
+    if !classes.exists() {
+        return Err(Error::MissingInput {
+            path: classes,
+            what: "classes.tif of an areal run",
+        });
+    }
+    let (model, tables) = inputs::read_run(&classes, access, connectivity)?;
+    let report = layers::build_and_write(&model, &tables, opts, tmp, &classes)?;
     dir.commit()?;
     Ok(report)
 }

@@ -1,11 +1,10 @@
 //! Unit tests of the vector step's parts. Sources are named beside each check.
 
 use super::crs::{choose, VectorCrs};
-use super::distance::unreachable_distances_km;
-use super::inputs::{Kind, Table, Value};
-use super::lonlat::{split_at, unwrap_ring, ToLonLat};
-use super::polygonize::{is_valid_quiet, polygonize_labels};
-use crate::patches::{label_grid, Connectivity};
+use super::inputs::{Kind, Value};
+use super::lonlat::{split_at, unwrap_ring};
+use super::polygonize::is_valid_quiet;
+use super::tables::{read_table, PATCH_FIELDS};
 use crate::GridSpec;
 use gdal::vector::ToGdal;
 use geo::Area;
@@ -16,53 +15,6 @@ fn wgs84_grid(width: usize, height: usize, west: f64, north: f64, cell: f64) -> 
     let mut g = GridSpec::lonlat(width, height, west, north, cell);
     g.crs_wkt = super::lonlat::wgs84().unwrap().to_wkt().unwrap();
     g
-}
-
-#[test]
-fn polygonize_gives_valid_pixel_edge_polygons_with_holes_and_corner_touches() {
-    // 1 1 1 0 0
-    // 1 0 1 0 0
-    // 1 1 1 0 0
-    // 0 0 0 1 0     (3,3) touches (2,2) at a corner: one 8-connected patch.
-    // 0 0 0 0 1
-    #[rustfmt::skip]
-    let g = [1u8,1,1,0,0, 1,0,1,0,0, 1,1,1,0,0, 0,0,0,1,0, 0,0,0,0,1];
-    let grid = wgs84_grid(5, 5, 10.0, 50.0, 1.0);
-    let (mut labels, patches) = label_grid(&g, 5, Connectivity::Eight, false);
-    assert_eq!(patches.len(), 1);
-    let shapes =
-        polygonize_labels(&mut labels, &grid, Connectivity::Eight, 1, Path::new("t")).unwrap();
-    let mp = &shapes[0];
-    // Constructed by hand [DER]: a ring of 8 cells with a 1-cell hole, plus two single cells
-    // meeting it at corners, so planar area in square degrees = 10 cells, one hole.
-    assert!((mp.unsigned_area() - 10.0).abs() < 1e-12, "{mp:?}");
-    assert_eq!(mp.0.iter().map(|p| p.interiors().len()).sum::<usize>(), 1);
-    assert!(
-        is_valid_quiet(&mp.to_gdal().unwrap()),
-        "GEOS validity through GDAL"
-    );
-    assert!(
-        mp.0.len() >= 2,
-        "corner touches make separate parts: {mp:?}"
-    );
-    for p in &mp.0 {
-        for c in p
-            .exterior()
-            .0
-            .iter()
-            .chain(p.interiors().iter().flat_map(|h| h.0.iter()))
-        {
-            assert_eq!(c.x, c.x.round(), "vertex off the cell corners");
-            assert_eq!(c.y, c.y.round(), "vertex off the cell corners");
-        }
-    }
-    // With 4-connectivity the same cells are three patches.
-    let (mut labels, patches) = label_grid(&g, 5, Connectivity::Four, false);
-    assert_eq!(patches.len(), 3);
-    let shapes =
-        polygonize_labels(&mut labels, &grid, Connectivity::Four, 3, Path::new("t")).unwrap();
-    let areas: Vec<f64> = shapes.iter().map(|m| m.unsigned_area()).collect();
-    assert_eq!(areas, [8.0, 1.0, 1.0]);
 }
 
 #[test]
@@ -119,69 +71,29 @@ fn a_ring_around_a_pole_is_detected() {
 }
 
 #[test]
-fn unreachable_distance_matches_published_geodesics() {
-    // Row 0 centred on the equator: class 1 at column 0, a class-2 patch at columns 5-6.
-    // CHECKS.md section 3 [DER]: along the equator s = a * dlon = 111 319.490 793 m a degree.
-    let grid = wgs84_grid(8, 1, 0.0, 0.5, 1.0);
-    let classes = [1u8, 0, 0, 0, 0, 2, 2, 0];
-    let (labels, patches) = label_grid(&classes, 8, Connectivity::Eight, false);
-    let ll = ToLonLat::new(&grid).unwrap();
-    let d = unreachable_distances_km(&classes, &labels, &grid, false, patches.len(), &ll);
-    assert_eq!(d[0], None, "class-1 patch has no distance");
-    assert!(
-        (d[1].unwrap() - 6_378_137.0 * 5f64.to_radians() / 1000.0).abs() < 1e-9,
-        "{d:?}"
-    );
-
-    // CHECKS.md section 3 [REF]: (60, 0) -> (60, 1) is 55 799.470 393 m; touching cells are one
-    // centre spacing apart.
-    let grid = wgs84_grid(3, 1, -0.5, 60.5, 1.0);
-    let classes = [1u8, 2, 0];
-    let (labels, patches) = label_grid(&classes, 3, Connectivity::Eight, false);
-    let d = unreachable_distances_km(&classes, &labels, &grid, false, patches.len(), &ll);
-    assert!((d[1].unwrap() - 55.799_470_393).abs() < 1e-9, "{d:?}");
-
-    // Across the antimeridian on a wrapping grid: columns 0 and 359 are 1 degree apart.
-    let grid = wgs84_grid(360, 1, -180.0, 0.5, 1.0);
-    let mut classes = vec![0u8; 360];
-    classes[0] = 1;
-    classes[357] = 2;
-    let (labels, patches) = label_grid(&classes, 360, Connectivity::Eight, true);
-    let ll = ToLonLat::new(&grid).unwrap();
-    let d = unreachable_distances_km(&classes, &labels, &grid, true, patches.len(), &ll);
-    assert!(
-        (d[1].unwrap() - 6_378_137.0 * 3f64.to_radians() / 1000.0).abs() < 1e-9,
-        "{d:?}"
-    );
-    // No class-1 cell: no distance.
-    let none = unreachable_distances_km(
-        &[2, 0, 2],
-        &[1, 0, 2],
-        &wgs84_grid(3, 1, 0.0, 0.5, 1.0),
-        false,
-        2,
-        &ll,
-    );
-    assert_eq!(none, [None, None]);
-}
-
-#[test]
-fn csv_columns_are_typed_from_their_values() {
+fn earlier_tables_are_read_into_the_layer_schema() {
     let t = tempfile::tempdir().unwrap();
-    let p = t.path().join("t.csv");
-    std::fs::write(&p, "a,b,c,d\n1,2.5,x,\n-3,4.0,y,\n").unwrap();
-    let tab = Table::read_csv(&p).unwrap();
-    assert_eq!(tab.kinds, [Kind::Int, Kind::Real, Kind::Text, Kind::Text]);
-    assert_eq!(
-        tab.rows[1],
-        [
-            Value::Int(-3),
-            Value::Real(4.0),
-            Value::Text("y".into()),
-            Value::Null
-        ]
+    let p = t.path().join("patches.csv");
+    // An older run's table: no nearest_range_km column; reachable as patches.csv writes it.
+    std::fs::write(
+        &p,
+        "patch_id,class,cells,area_km2,centroid_lon,centroid_lat,min_lon,min_lat,max_lon,max_lat,records,nearest_patch_km,nearest_occupied_km,reachable,reach_jumps\n\
+         1,1,3,2.5,10.5,45.5,10,45,11,46,2,,,TRUE,0\n",
+    )
+    .unwrap();
+    let tab = read_table(&p, &PATCH_FIELDS).unwrap();
+    let at = |n: &str| tab.names.iter().position(|x| x == n).unwrap();
+    assert_eq!(tab.rows[0][at("cen_lon")], Value::Real(10.5));
+    assert_eq!(tab.rows[0][at("nearest_range_km")], Value::Null);
+    assert_eq!(tab.rows[0][at("reachable")], Value::Bool(true));
+    assert_eq!(tab.kinds[at("reachable")], Kind::Bool);
+    assert_eq!(tab.rows[0][at("cells")], Value::Int(3));
+    std::fs::write(&p, "patch_id,cells\n1,many\n").unwrap();
+    let e = read_table(&p, &PATCH_FIELDS).unwrap_err().to_string();
+    assert!(
+        e.contains("patches.csv") && e.contains("line 2") && e.contains("cells"),
+        "{e}"
     );
-    assert!(tab.col("zz", &p).unwrap_err().to_string().contains("zz"));
 }
 
 #[test]

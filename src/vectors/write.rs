@@ -1,11 +1,9 @@
-//! Writing layers through GDAL: GeoPackage (several layers, one transaction) and RFC 7946
-//! GeoJSON (one file per layer).
+//! Writing layers through GDAL: GeoPackage (several layers, one transaction). GeoJSON files
+//! are written by `geojson.rs`.
 //!
 //! Each layer is a [`Table`] (its columns become fields, typed as the table says) and one
 //! optional geometry per row. Geometries are written as given: callers pass them in the
 //! layer's CRS, and, for GeoJSON, already in lon/lat, cut at the antimeridian and oriented.
-//! GeoJSON is written with GDAL's `RFC7946=YES` (WGS84 lon/lat, right-hand rule) and
-//! `COORDINATE_PRECISION` = [`GEOJSON_DECIMALS`].
 
 use super::inputs::{Kind, Table, Value};
 use crate::{Error, Result};
@@ -149,23 +147,5 @@ pub(crate) fn write_gpkg(path: &Path, srs: &SpatialRef, layers: &[LayerData<'_>]
         txn.commit().map_err(out_err(path, "GeoPackage"))?;
     }
     ds.close().map_err(out_err(path, "GeoPackage"))?;
-    Ok(())
-}
-
-/// Write one layer as an RFC 7946 GeoJSON file; geometries in WGS84 lon/lat.
-pub(crate) fn write_geojson(path: &Path, wgs84: &SpatialRef, layer: &LayerData<'_>) -> Result<()> {
-    if path.exists() {
-        return Err(Error::Output {
-            path: path.to_path_buf(),
-            reason: "exists already; the vector step writes only new files".into(),
-        });
-    }
-    let driver = DriverManager::get_driver_by_name("GeoJSON").map_err(out_err(path, "GeoJSON"))?;
-    let mut ds = driver
-        .create_vector_only(path)
-        .map_err(out_err(path, "GeoJSON"))?;
-    let precision = format!("COORDINATE_PRECISION={GEOJSON_DECIMALS}");
-    write_layer(&mut ds, wgs84, layer, &["RFC7946=YES", &precision], path)?;
-    ds.close().map_err(out_err(path, "GeoJSON"))?;
     Ok(())
 }

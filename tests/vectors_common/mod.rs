@@ -171,6 +171,25 @@ pub fn area_km2_geodesic(polys: &Polys) -> f64 {
         / 1e6
 }
 
+/// Geodesic area (km2, WGS84, GeographicLib PolygonArea) of lon/lat polygons as written:
+/// every edge a geodesic, nothing added.
+pub fn area_km2_geodesic_as_written(polys: &Polys) -> f64 {
+    let g = Geodesic::wgs84();
+    let ring_area = |r: &[(f64, f64)]| -> f64 {
+        let mut pa = PolygonArea::new(&g, Winding::CounterClockwise);
+        for &(lon, lat) in &r[..r.len() - 1] {
+            pa.add_point(lat, lon);
+        }
+        let (_, area, _) = pa.compute(true);
+        area.abs()
+    };
+    polys
+        .iter()
+        .map(|p| ring_area(&p[0]) - p[1..].iter().map(|h| ring_area(h)).sum::<f64>())
+        .sum::<f64>()
+        / 1e6
+}
+
 /// Geodesic distance in metres between (lon, lat) points (GeographicLib).
 pub fn geodesic_m(a: (f64, f64), b: (f64, f64)) -> f64 {
     Geodesic::wgs84().inverse(a.1, a.0, b.1, b.0)

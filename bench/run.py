@@ -29,6 +29,7 @@ GEN = os.path.join(ROOT, "..", "shared", "tools", "make-landscape.py")
 AREAL = os.path.join(ROOT, "target", "release", "areal")
 FLOOR = os.path.join(ROOT, "target", "release", "examples", "decode_floor")
 POINTS = {"tiny": None, "S": None, "M": None, "L": "10000"}
+tail_full = [""]  # stderr of the last timed() call
 
 
 def timed(cmd, limit_kb=None, env=None):
@@ -37,6 +38,7 @@ def timed(cmd, limit_kb=None, env=None):
     shell = pre + "exec /usr/bin/time -v " + " ".join(f"'{c}'" for c in cmd)
     p = subprocess.run(["bash", "-c", shell], capture_output=True, text=True, env=env)
     err = p.stderr
+    tail_full[0] = err
     m = re.search(r"Elapsed \(wall clock\) time \(h:mm:ss or m:ss\): (\S+)", err)
     parts = [float(x) for x in m.group(1).split(":")] if m else [float("nan")]
     wall = sum(v * 60 ** i for i, v in enumerate(reversed(parts)))
@@ -66,7 +68,12 @@ def main():
     ap.add_argument("--out", default=os.path.join(ROOT, "docs", "bench-results.md"))
     ap.add_argument("--peer-limit-gb", type=float, default=20.0)
     ap.add_argument("--no-peer", action="store_true")
+    ap.add_argument("--report-cost", action="store_true",
+                    help="only measure what report.html, map.png and the classes.tif overviews add to a run")
+    ap.add_argument("--repeat", type=int, default=3, help="runs of each kind with --report-cost (fastest kept)")
     a = ap.parse_args()
+    if a.report_cost:
+        return report_cost(a)
     rows = []
     env = dict(os.environ)
     env.setdefault("GDAL_CACHEMAX", "32")
@@ -108,6 +115,53 @@ def main():
                 label = "numpy/scipy/rasterio peer" + ("" if pok else f" (FAILED: {ptail.splitlines()[-1] if ptail else '?'})")
                 rows.append((size, mode, label, ps, pmb, ps / floor_s, None, None))
     write_table(a.out, rows)
+
+
+def report_cost(a):
+    """The report (report.html, map.png) and the classes.tif overviews as a share of the run.
+
+    Side by side on the polygon-M input, alternating, fastest of --repeat kept: areal as
+    shipped, areal --no-report, and areal --no-report with AREAL_CLASS_OVERVIEWS=0 (no
+    overviews): the run without both."""
+    lines = ["| size | areal s | --no-report s | --no-report, no overviews s | report s | overviews s | "
+             "(report + overviews) / run without them | CPU s: areal / without both | CPU ratio | "
+             "peak RSS MB: areal / without both |",
+             "|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|"]
+    env = dict(os.environ)
+    env.setdefault("GDAL_CACHEMAX", "32")
+    bare_env = dict(env, AREAL_CLASS_OVERVIEWS="0")
+    for size in a.sizes.split(","):
+        prefix = ensure_inputs(size)
+        tif, occ, m = prefix + ".tif", prefix + ".occ.csv", prefix + ".m.geojson"
+        base = [AREAL, "range", "--suitability", tif, "--records", occ, "--omission", "5",
+                "--accessible", m, "--no-metrics", "--overwrite", "--quiet"]
+        kinds = [("full", base, env), ("noreport", base + ["--no-report"], env),
+                 ("bare", base + ["--no-report"], bare_env)]
+        best = {k: float("inf") for k, _, _ in kinds}
+        cpu = {k: float("inf") for k, _, _ in kinds}
+        rss = {k: 0.0 for k, _, _ in kinds}
+        for _ in range(a.repeat):
+            for k, cmd, e in kinds:
+                ok, s, mb, _, tail = timed(cmd + ["--out", os.path.join(DATA, f"out-{size}-{k}")], env=e)
+                if not ok:
+                    sys.exit(f"areal failed on {size} ({k}): {tail}")
+                best[k], rss[k] = min(best[k], s), max(rss[k], mb)
+                # User + system CPU seconds: less sensitive than wall time to other load.
+                u = re.search(r"User time \(seconds\): ([\d.]+)", tail_full[0])
+                y = re.search(r"System time \(seconds\): ([\d.]+)", tail_full[0])
+                if u and y:
+                    cpu[k] = min(cpu[k], float(u.group(1)) + float(y.group(1)))
+        report_s = best["full"] - best["noreport"]
+        ovr_s = best["noreport"] - best["bare"]
+        lines.append(f"| {size} | {best['full']:.2f} | {best['noreport']:.2f} | {best['bare']:.2f} | {report_s:.2f} | "
+                     f"{ovr_s:.2f} | {(report_s + ovr_s) / best['bare']:.3f} | {cpu['full']:.1f} / {cpu['bare']:.1f} | "
+                     f"{cpu['full'] / cpu['bare'] - 1:.3f} | {rss['full']:.0f} / {rss['bare']:.0f} |")
+    text = "\n".join(lines) + "\n"
+    header = f"Report cost, run {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())} on {platform.node()} ({os.cpu_count()} cores).\n\n"
+    with open(a.out + ".tmp", "w") as f:
+        f.write(header + text)
+    os.replace(a.out + ".tmp", a.out)
+    print(header + text)
 
 
 def write_table(path, rows):

@@ -27,6 +27,8 @@ mkdir -p .rlib
 R CMD INSTALL --no-multiarch -l .rlib r >/dev/null
 R_LIBS=.rlib AREAL_BIN="$PWD/target/release/areal" \
   Rscript -e 'library(areal); testthat::test_dir("r/tests/testthat", stop_on_failure = TRUE)'
+# The report: map.png decoded by Pillow against classes.tif, report.html in headless Chromium.
+bash scripts/check-report.sh
 # Atomic outputs: SIGKILL part way through runs on a large generated raster.
 bash tests/kill_test.sh
 # Batches: SIGKILL and resume (10 rounds), a full disk, and a real Slurm job array with a

@@ -18,10 +18,12 @@ pub mod change;
 pub mod metrics;
 pub mod patches;
 pub mod records;
+pub mod report_html;
 pub mod styles;
 pub mod vectors;
 
 // Internals: the pass, the model's storage, I/O and the orchestration.
+mod class_overviews;
 mod crs;
 mod error;
 mod grid;
@@ -45,7 +47,7 @@ pub use raster_io::class;
 pub use report::summary_schema;
 pub use report::{
     AccessReport, AreaReport, CellReport, ExcludedRecord, InputsReport, PatchReport, PatchRow,
-    RecordRow, RecordStatus, RecordsReport, Summary, ThresholdReport, CAUTIONS,
+    RecordRow, RecordStatus, RecordsReport, SensitivityRow, Summary, ThresholdReport, CAUTIONS,
 };
 pub use run::{compute_range, run_range, RangeOptions, RangeResult};
 pub use threshold::{omission_threshold, Threshold, ThresholdSpec};

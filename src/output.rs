@@ -26,6 +26,8 @@ pub const OUTPUT_NAMES: &[&str] = &[
     "summary.json",
     // The run file (crate::batch::runfile).
     "areal-run.toml",
+    "report.html",
+    "map.png",
     // Style files (crate::styles::STYLE_NAMES).
     "classes.qml",
     "range.qml",

@@ -593,12 +593,29 @@ pub struct ClassWriter {
     path: PathBuf,
     ds: Dataset,
     width: usize,
+    /// Internal overviews, folded from the rows as they are written.
+    overviews: crate::class_overviews::OverviewFolder,
+    next_row: usize,
+    ready: Vec<crate::class_overviews::Ready>,
 }
 
 impl ClassWriter {
     /// Create the GeoTIFF (tiled 256 x 256, DEFLATE, BIGTIFF if needed) on `grid`.
+    /// With internal overviews folded from the rows by the range classes' rule
+    /// (`class_overviews`).
     pub fn create(path: &Path, grid: &GridSpec) -> Result<Self> {
-        Self::create_styled(path, grid, "range class", &crate::styles::CLASS_STYLES)
+        let mut w = Self::create_styled(path, grid, "range class", &crate::styles::CLASS_STYLES)?;
+        // The overview structure now (resampling NONE: GDAL computes nothing); the rows
+        // are folded into it as they are written.
+        let factors = crate::class_overviews::levels(grid.width, grid.height);
+        if !factors.is_empty() {
+            let f: Vec<i32> = factors.iter().map(|&f| f as i32).collect();
+            w.ds.build_overviews("NONE", &f, &[])
+                .map_err(output_error(path, "creating the overviews".into()))?;
+        }
+        w.overviews =
+            crate::class_overviews::OverviewFolder::new(grid.width, grid.height, &factors);
+        Ok(w)
     }
 
     /// Create a uint8 GeoTIFF like [`ClassWriter::create`] with its own band description
@@ -665,16 +682,44 @@ impl ClassWriter {
             path: path.to_path_buf(),
             ds,
             width: grid.width,
+            // No overviews folded unless asked ([`ClassWriter::create`]).
+            overviews: crate::class_overviews::OverviewFolder::new(grid.width, grid.height, &[]),
+            next_row: 0,
+            ready: Vec::new(),
         })
     }
 
     /// Write rows starting at `y0`; `rows` holds whole rows. Returns the buffer for reuse.
     pub fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         let n = rows.len() / self.width;
+        if y0 < self.next_row {
+            self.overviews.reset(); // a second classification replaces the rows
+            self.next_row = 0;
+        }
+        if y0 == self.next_row {
+            for (i, r) in rows.chunks_exact(self.width).enumerate() {
+                self.overviews.push_row(y0 + i, r, &mut self.ready);
+            }
+            self.next_row = y0 + n;
+        }
         let mut band = self
             .ds
             .rasterband(1)
             .map_err(output_error(&self.path, "opening band 1".into()))?;
+        for (level, oy0, data) in self.ready.drain(..) {
+            let ow = self.overviews.level_width(level);
+            let on = data.len() / ow;
+            let mut ov = band.overview(level).map_err(output_error(
+                &self.path,
+                format!("opening overview {level}"),
+            ))?;
+            let mut obuf = gdal::raster::Buffer::new((ow, on), data);
+            ov.write((0, oy0 as isize), (ow, on), &mut obuf)
+                .map_err(output_error(
+                    &self.path,
+                    format!("writing overview {level} rows {oy0}..{}", oy0 + on),
+                ))?;
+        }
         let mut buf = gdal::raster::Buffer::new((self.width, n), rows);
         band.write((0, y0 as isize), (self.width, n), &mut buf)
             .map_err(output_error(
@@ -714,7 +759,7 @@ impl ClassWriter {
         &self.ds
     }
 
-    /// Flush and close.
+    /// Flush and close (the overviews were written with the rows).
     pub fn close(self) -> Result<()> {
         let path = self.path.clone();
         self.ds

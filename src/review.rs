@@ -88,6 +88,9 @@ mod tests {
             accessible: AccessReport {
                 description: "polygon m.gpkg".into(),
                 whole_raster: false,
+                polygon: Some("m.gpkg".into()),
+                buffer_km: None,
+                hull_buffer_km: None,
             },
             area_km2: AreaReport {
                 suitable: 1.0,
@@ -112,6 +115,8 @@ mod tests {
             area_method: String::new(),
             warnings: vec![],
             metrics: None,
+            sensitivity: Vec::new(),
+            command_line: Vec::new(),
             cautions: vec![],
         }
     }

@@ -40,6 +40,8 @@ pub struct RangeOptions {
     /// The range model's memory budget and spill folder ([`run_range`] spills into the run's
     /// temporary folder).
     pub model: ModelOptions,
+    /// Write report.html and map.png ([`run_range`]).
+    pub report: bool,
 }
 
 /// The result of a range computation.
@@ -178,7 +180,15 @@ pub fn run_range(
     if opts_here.model.spill_dir.is_none() {
         opts_here.model.spill_dir = Some(dir.file(""));
     }
-    let (mut result, model) = compute_range(suitability, records, &opts_here, &mut writer)?;
+    // The map needs nodata, which the model does not hold: keep its runs as the rows pass.
+    let (mut result, model, nodata) = if opts.report {
+        let mut tee = crate::report_html::runs::NodataTee::new(&mut writer, grid.width);
+        let (r, m) = compute_range(suitability, records, &opts_here, &mut tee)?;
+        (r, m, Some(tee.runs))
+    } else {
+        let (r, m) = compute_range(suitability, records, &opts_here, &mut writer)?;
+        (r, m, None)
+    };
     crate::styles::describe_classes(writer.dataset(), &dir.file("classes.tif"), &result.summary)?;
     writer.close()?;
     clock.lap("pass");
@@ -191,6 +201,9 @@ pub fn run_range(
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&result.summary).expect("summary serialises");
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
+    if let Some(nodata) = &nodata {
+        crate::report_html::write_run_report(&dir, &result, &model, nodata)?;
+    }
     if let Some(v) = &opts.vectors {
         let rows = crate::vectors::RunRows {
             patches: &result.patches,

@@ -7,6 +7,7 @@
 //! single-symbol / categorized vector renderers (QGIS 3 project file format).
 
 use crate::raster_io::class;
+use crate::report_html::palette;
 use crate::{Error, Result, Summary};
 use gdal::Metadata;
 use std::ffi::CString;
@@ -24,23 +25,24 @@ pub struct ClassStyle {
     pub rgba: [u8; 4],
 }
 
-/// Our palette: pale sand below the threshold, deep teal for the accessible range, warm
-/// amber for suitable land beyond M. Nodata (255) is transparent.
+/// The class colours of `report_html::palette` (Okabe and Ito 2008; pale grey from Paul Tol):
+/// pale grey below the threshold, bluish green for the accessible range, orange for suitable
+/// land beyond M. Nodata (255) is transparent.
 pub const CLASS_STYLES: [ClassStyle; 3] = [
     ClassStyle {
         value: class::UNSUITABLE,
         name: class::NAMES[0],
-        rgba: [236, 229, 206, 255],
+        rgba: palette::opaque(palette::UNSUITABLE),
     },
     ClassStyle {
         value: class::INSIDE,
         name: class::NAMES[1],
-        rgba: [0, 109, 119, 255],
+        rgba: palette::opaque(palette::INSIDE),
     },
     ClassStyle {
         value: class::OUTSIDE,
         name: class::NAMES[2],
-        rgba: [230, 145, 56, 255],
+        rgba: palette::opaque(palette::OUTSIDE),
     },
 ];
 
@@ -359,7 +361,7 @@ mod tests {
     fn class_style_lists_exactly_the_three_classes() {
         let q = class_qml();
         assert_eq!(q.matches("<paletteEntry").count(), 3);
-        assert!(q.contains("value=\"1\" color=\"#006d77\""));
+        assert!(q.contains("value=\"1\" color=\"#009e73\""));
         assert!(q.contains("label=\"suitable, beyond M\""));
     }
 

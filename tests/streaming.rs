@@ -126,6 +126,7 @@ fn streaming_model(
         progress: Default::default(),
         vectors: None,
         metrics: Default::default(),
+        report: false,
         model: areal::ModelOptions {
             budget_bytes: budget.unwrap_or(64 << 20),
             spill_dir: None,
@@ -426,6 +427,7 @@ fn buffer_m_applied_in_the_workers_matches_geographiclib_per_cell() {
         progress: Default::default(),
         vectors: None,
         metrics: Default::default(),
+        report: false,
         model: Default::default(),
     };
     let mut sink = MemorySink::new(w);

@@ -104,7 +104,7 @@ fn qgis_styles_sit_beside_the_outputs() {
     let (out, _) = demo_run(t.path(), true);
     let q = std::fs::read_to_string(out.join("classes.qml")).unwrap();
     assert_eq!(q.matches("<paletteEntry ").count(), 3);
-    for (v, colour) in [(0, "#ece5ce"), (1, "#006d77"), (2, "#e69138")] {
+    for (v, colour) in [(0, "#dddddd"), (1, "#009e73"), (2, "#e69f00")] {
         assert!(
             q.contains(&format!("value=\"{v}\" color=\"{colour}\"")),
             "{v}"
@@ -115,7 +115,7 @@ fn qgis_styles_sit_beside_the_outputs() {
     let band = ds.rasterband(1).unwrap();
     let ct = band.color_table().unwrap();
     let c1 = ct.entry_as_rgb(1).unwrap();
-    assert_eq!((c1.r, c1.g, c1.b), (0, 109, 119));
+    assert_eq!((c1.r, c1.g, c1.b), (0, 158, 115));
     for layer in ["range", "patches", "unreachable", "accessible", "records"] {
         let s = std::fs::read_to_string(out.join(format!("{layer}.qml"))).unwrap();
         assert!(s.contains("<renderer-v2 "), "{layer}");

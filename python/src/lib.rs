@@ -120,6 +120,8 @@ fn run_range(
         vectors,
         metrics,
         model: Default::default(),
+        // report.html and map.png, as every areal range writes them; no command line to record.
+        report: true,
     };
     let result = py
         .detach(|| areal::run_range(&suitability, &records, &opts, &out, overwrite))

@@ -108,7 +108,7 @@ areal_read_run <- function(out) {
 .areal_class_table <- data.frame(
   value = 0:2,
   class = c("below threshold", "suitable, accessible (in M)", "suitable, beyond M"),
-  col = c("#ECE5CE", "#006D77", "#E69138"),
+  col = c("#DDDDDD", "#009E73", "#E69F00"),
   stringsAsFactors = FALSE
 )
 

@@ -13,7 +13,7 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 /// Every option of a range run, by its manifest / run-file name.
-pub const OPTION_KEYS: [&str; 19] = [
+pub const OPTION_KEYS: [&str; 20] = [
     "omission",
     "threshold",
     "accessible",
@@ -33,6 +33,7 @@ pub const OPTION_KEYS: [&str; 19] = [
     "gap_km",
     "keep_dropped",
     "no_metrics",
+    "no_report",
 ];
 
 /// Option values by name; a missing or empty value means the option is not given.
@@ -188,6 +189,7 @@ pub fn to_range_options(
         progress,
         vectors,
         metrics,
+        report: !r.flag("no_report")?,
         model: Default::default(),
     })
 }
@@ -206,7 +208,7 @@ pub fn from_range_options(opts: &RangeOptions) -> Settings {
         ThresholdSpec::Fixed(v) => (None, Some(v)),
     };
     let v = opts.vectors.as_ref();
-    let pairs: [(&str, String); 19] = [
+    let pairs: [(&str, String); 20] = [
         ("omission", num(omission)),
         ("threshold", num(threshold)),
         ("accessible", path(&opts.access.polygon)),
@@ -240,6 +242,7 @@ pub fn from_range_options(opts: &RangeOptions) -> Settings {
         ("gap_km", num(opts.metrics.gap_km)),
         ("keep_dropped", opts.metrics.keep_dropped.to_string()),
         ("no_metrics", (!opts.metrics.enabled).to_string()),
+        ("no_report", (!opts.report).to_string()),
     ];
     pairs.into_iter().map(|(k, v)| (k.to_string(), v)).collect()
 }

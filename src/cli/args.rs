@@ -29,6 +29,8 @@ pub(crate) enum Command {
     /// range raster (classes.tif) for the modelled-range figures, patch distances and reach.
     #[command(after_help = crate::cli::extras::EXTENT_EXAMPLES)]
     Extent(ExtentArgs),
+    /// Write report.html and map.png again from an earlier `areal range` run's folder.
+    Report(ReportArgs),
     /// Range change from the present to future rasters (same threshold): stable, lost and
     /// gained cells, within or beyond a dispersal distance.
     Change(super::change::ChangeArgs),
@@ -51,6 +53,13 @@ pub(crate) enum Command {
     },
     /// Print the man page, roff (e.g. `areal man > areal.1; man ./areal.1`).
     Man,
+}
+
+#[derive(clap::Args, Debug)]
+pub(crate) struct ReportArgs {
+    /// The output folder of an earlier `areal range` run (--out).
+    #[arg(value_name = "DIR")]
+    pub dir: PathBuf,
 }
 
 /// Options of the range metrics, shared by `range` and `extent`.
@@ -203,6 +212,9 @@ pub(crate) struct RangeArgs {
     /// Skip the range metrics (EOO, AOO, patch distances, reach).
     #[arg(long)]
     pub no_metrics: bool,
+    /// Do not write report.html and map.png.
+    #[arg(long)]
+    pub no_report: bool,
 }
 
 /// Options of the vector outputs, shared by `range` and `polygons`.
@@ -326,6 +338,7 @@ impl RangeArgs {
             ("gap_km", num(self.metrics.gap_km)),
             ("keep_dropped", flag(self.metrics.keep_dropped)),
             ("no_metrics", flag(self.no_metrics)),
+            ("no_report", flag(self.no_report)),
         ];
         let settings = pairs
             .into_iter()

@@ -94,6 +94,8 @@ impl ChangeArgs {
                 vectors: None,
                 metrics: self.metrics.to_options(!self.no_metrics)?,
                 model: Default::default(),
+                // The report is drawn by `areal range`; change writes its own outputs.
+                report: false,
             },
             dispersal_km: self.dispersal_km,
         })

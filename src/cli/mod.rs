@@ -166,6 +166,14 @@ fn run(cli: Cli) -> areal::Result<u8> {
             let _ = out.write_all(text.as_bytes());
             Ok(0)
         }
+        Command::Report(a) => {
+            let written = areal::report_html::folder::run_report(&a.dir)?;
+            let mut out = std::io::stdout().lock();
+            for p in written {
+                let _ = writeln!(out, "areal report: wrote {}", p.display());
+            }
+            Ok(0)
+        }
         Command::Extent(a) => {
             let opts = a.metrics.to_options(true)?;
             let report = areal::metrics::extent(

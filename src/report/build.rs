@@ -132,6 +132,14 @@ pub(crate) fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
         accessible: AccessReport {
             description: b.access.description(),
             whole_raster: b.access.is_whole_raster(),
+            polygon: b.opts.access.polygon.as_ref().map(|p| {
+                std::fs::canonicalize(p)
+                    .unwrap_or_else(|_| p.clone())
+                    .display()
+                    .to_string()
+            }),
+            buffer_km: b.opts.access.buffer_km,
+            hull_buffer_km: b.opts.access.hull_buffer_km,
         },
         area_km2: AreaReport {
             suitable: (t.area_m2_inside + t.area_m2_outside) / 1e6,
@@ -160,6 +168,8 @@ pub(crate) fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
         warnings,
         cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
         metrics: None,
+        sensitivity: Vec::new(),
+        command_line: canonical_command(b.suitability, b.records_path, b.opts),
     };
     crate::review::review(&mut summary);
     Ok(RangeResult {
@@ -215,4 +225,32 @@ pub(crate) fn patch_row(to: &LonLat, grid: &GridSpec, p: &Patch) -> Result<Patch
         reachable: None,
         reach_jumps: None,
     })
+}
+
+/// The `areal range` command that reproduces the run, options in a fixed order with their
+/// values as the run file records them (defaults and `--out` left out), so that identical runs
+/// have identical summaries however they were started (a shell, a batch, `areal rerun`).
+fn canonical_command(suitability: &Path, records: &Path, opts: &RangeOptions) -> Vec<String> {
+    let mut cmd: Vec<String> = ["areal", "range", "--suitability"]
+        .into_iter()
+        .map(String::from)
+        .collect();
+    cmd.push(suitability.display().to_string());
+    cmd.push("--records".into());
+    cmd.push(records.display().to_string());
+    for (k, v) in crate::batch::settings::from_range_options(opts) {
+        let flag = format!("--{}", k.replace('_', "-"));
+        match v.as_str() {
+            "" | "false" => {}
+            "true" => cmd.push(flag),
+            _ if k == "aoo_cell_km" && v == "2" => {}
+            _ if k == "connectivity" && v == "8" => {}
+            _ if k == "records_crs" && v == "EPSG:4326" => {}
+            _ => {
+                cmd.push(flag);
+                cmd.push(v);
+            }
+        }
+    }
+    cmd
 }

@@ -9,7 +9,7 @@ pub(crate) use build::patch_row;
 pub(crate) use build::{build_result, BuildInput};
 
 use crate::{Error, Result};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use std::path::Path;
 
 /// The cautions printed with every result.
@@ -48,6 +48,30 @@ pub struct Summary {
     /// EOO, AOO, criterion B comparison, patch structure and reach (docs/eoo-aoo.md);
     /// null when the metrics were not computed.
     pub metrics: Option<crate::metrics::Metrics>,
+    /// Area against the tolerated omission E (0, 1, 2, 5, 10 % and the run's own E), from
+    /// the same pass; empty with a fixed threshold or a binary input. For reading only: E is
+    /// fixed before looking at the results.
+    #[serde(default)]
+    pub sensitivity: Vec<SensitivityRow>,
+    /// The `areal range` command that reproduces the run, one argument per item: options in a
+    /// fixed order, defaults and `--out` left out (shown in the report).
+    #[serde(default)]
+    pub command_line: Vec<String>,
+}
+
+/// One row of `sensitivity`: what the omission rule gives with E = `omission_percent`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, schemars::JsonSchema)]
+pub struct SensitivityRow {
+    /// E, percent.
+    pub omission_percent: f64,
+    /// T with that E.
+    pub threshold: f64,
+    /// k: lowest values dropped.
+    pub records_dropped: usize,
+    /// Suitable area (classes 1 + 2) at that T, km2.
+    pub area_km2_suitable: f64,
+    /// Suitable area inside M (class 1) at that T, km2.
+    pub area_km2_inside_accessible: f64,
 }
 
 /// Inputs and grid.
@@ -133,6 +157,15 @@ pub struct AccessReport {
     pub description: String,
     /// Whether M is the whole raster.
     pub whole_raster: bool,
+    /// The M polygon file (`--accessible`), as an absolute path when it could be resolved.
+    #[serde(default)]
+    pub polygon: Option<String>,
+    /// `--buffer-km`.
+    #[serde(default)]
+    pub buffer_km: Option<f64>,
+    /// `--hull-buffer-km`.
+    #[serde(default)]
+    pub hull_buffer_km: Option<f64>,
 }
 
 /// Areas, km2.

@@ -1,0 +1,224 @@
+#!/usr/bin/env python3
+"""Check report.html and map.png of `areal range` from outside areal.
+
+Cases: the demo; a global 0.5-degree grid that wraps the globe, with a range across the
+antimeridian; a 4000 x 2000 grid holding a single class-1 cell.
+
+- map.png is decoded by Pillow (which, unlike browsers, refuses a corrupt PNG) and must equal
+  the PNG inlined in report.html byte for byte.
+- classes.tif is read with rasterio: its colour table gives the class colours. The cells of
+  the map's window (report.html `data-window`) are decimated independently here with numpy,
+  a block showing its highest class (1 > 2 > 0 > nodata, the documented rule), and compared
+  with the map's pixels: every class present in the window must appear in its colour-table
+  colour, and at least 85% of the pixels (overlays cover the rest) must be exactly the
+  expected colour. The single class-1 cell must be visible, in its colour, on its pixel.
+- Headless Chromium (Debian's `chromium`, driven by Playwright) opens each report.html: no
+  page errors or console errors, every image decodes, the page has its charts, and a
+  full-page screenshot is taken (into --shots DIR; with --update-docs the demo's goes to
+  docs/report-demo.png).
+
+Usage: python tests/py/check_report.py [path/to/areal] [--shots DIR] [--update-docs]
+Prints 'N passed, M failed' and exits non-zero on any failure.
+"""
+
+import base64
+import io
+import os
+import re
+import shutil
+import subprocess
+import sys
+import tempfile
+
+import numpy as np
+import rasterio
+from PIL import Image
+from rasterio.transform import from_origin
+
+ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+args = [a for a in sys.argv[1:] if not a.startswith("--")]
+AREAL = args[0] if args else os.path.join(ROOT, "target", "release", "areal")
+SHOTS = sys.argv[sys.argv.index("--shots") + 1] if "--shots" in sys.argv else None
+UPDATE_DOCS = "--update-docs" in sys.argv
+
+passed, failed = 0, 0
+
+
+def check(ok, what):
+    global passed, failed
+    if ok:
+        passed += 1
+    else:
+        failed += 1
+        print("FAIL:", what)
+
+
+def run(cmd):
+    p = subprocess.run([AREAL] + cmd, capture_output=True, text=True)
+    if p.returncode != 0:
+        raise SystemExit(f"areal {' '.join(cmd)} failed: {p.stderr}")
+
+
+def write_tif(path, values, west, north, cell, nodata=None):
+    h, w = values.shape
+    with rasterio.open(path, "w", driver="GTiff", width=w, height=h, count=1, dtype="float32",
+                       crs="EPSG:4326", transform=from_origin(west, north, cell, cell),
+                       nodata=nodata, compress="deflate") as ds:
+        ds.write(values.astype("float32"), 1)
+
+
+def write_records(path, pts):
+    with open(path, "w") as f:
+        f.write("lon,lat\n")
+        for lon, lat in pts:
+            f.write(f"{lon},{lat}\n")
+
+
+def make_cases(tmp):
+    cases = {}
+    # 1. The demo.
+    out = os.path.join(tmp, "demo")
+    run(["range", "--suitability", os.path.join(ROOT, "demo-data/suitability.tif"),
+         "--records", os.path.join(ROOT, "demo-data/records.csv"), "--omission", "5",
+         "--accessible", os.path.join(ROOT, "demo-data/accessible.geojson"), "--gap-km", "20",
+         "--out", out, "--quiet"])
+    cases["demo"] = (out, None)
+    # 2. A global grid wrapping the globe: a suitable blob centred on 180 degrees, 10N,
+    #    an 'ocean' of nodata in the south, records in the blob, M a 900 km buffer.
+    w, h, cell = 720, 360, 0.5
+    lon = -180 + (np.arange(w) + 0.5) * cell
+    lat = 90 - (np.arange(h) + 0.5) * cell
+    dlon = (lon[None, :] - 180.0 + 180.0) % 360.0 - 180.0
+    d2 = dlon ** 2 + (lat[:, None] - 10.0) ** 2
+    vals = np.exp(-d2 / (2 * 8.0 ** 2)) + 0.05 * np.cos(lat[:, None] * 0.3) * np.sin(lon[None, :] * 0.2)
+    vals[lat < -50] = -9999
+    suit = os.path.join(tmp, "global.tif")
+    write_tif(suit, vals, -180.0, 90.0, cell, nodata=-9999)
+    recs = os.path.join(tmp, "global.csv")
+    rng = np.random.default_rng(7)
+    pts = [(((178 + rng.uniform(-6, 6)) + 180) % 360 - 180, 10 + rng.uniform(-5, 5)) for _ in range(25)]
+    write_records(recs, pts)
+    out = os.path.join(tmp, "global")
+    run(["range", "--suitability", suit, "--records", recs, "--omission", "5",
+         "--buffer-km", "900", "--out", out, "--quiet"])
+    cases["global across the antimeridian"] = (out, None)
+    # 3. One class-1 cell on a 4000 x 2000 grid (0.01 degree), records elsewhere below T.
+    w, h = 4000, 2000
+    vals = np.full((h, w), 0.2, dtype="float32")
+    vals[777, 1234] = 0.9
+    suit = os.path.join(tmp, "onecell.tif")
+    write_tif(suit, vals, 0.0, 20.0, 0.01)
+    recs = os.path.join(tmp, "onecell.csv")
+    write_records(recs, [(35.555, 3.333), (31.111, 1.777)])
+    out = os.path.join(tmp, "onecell")
+    run(["range", "--suitability", suit, "--records", recs, "--threshold", "0.5",
+         "--no-metrics", "--out", out, "--quiet"])
+    cases["one class-1 cell on 4000 x 2000"] = (out, (777, 1234))
+    return cases
+
+
+RANK = np.array([2, 4, 3] + [1] * 253, dtype=np.uint8)  # class 0, 1, 2, other (nodata)
+CLASS_OF_RANK = np.array([255, 255, 0, 2, 1], dtype=np.uint8)
+
+
+def decimate(classes, f):
+    """Highest class per f x f block: 1 > 2 > 0 > nodata."""
+    h, w = classes.shape
+    H, W = -(-h // f) * f, -(-w // f) * f
+    r = np.zeros((H, W), dtype=np.uint8)  # padding ranks 0: never wins
+    r[:h, :w] = RANK[classes]
+    return CLASS_OF_RANK[r.reshape(H // f, f, W // f, f).max(axis=(1, 3))]
+
+
+def check_map(name, out, one_cell):
+    html = open(os.path.join(out, "report.html"), encoding="utf-8").read()
+    png = open(os.path.join(out, "map.png"), "rb").read()
+    m = re.search(r'<img id="map" src="data:image/png;base64,([A-Za-z0-9+/=]+)"([^>]*)>', html)
+    check(m is not None, f"{name}: report.html inlines the map")
+    if not m:
+        return
+    inlined = base64.b64decode(m.group(1))
+    check(inlined == png, f"{name}: the inlined PNG is map.png")
+    img = Image.open(io.BytesIO(png))
+    img.load()  # raises on a corrupt PNG
+    a = np.asarray(img.convert("RGB"))
+    attrs = dict(re.findall(r'data-(\w+)="([^"]*)"', m.group(2)))
+    x0, y0, pw, ph = map(int, attrs["panel"].split(","))
+    s = int(attrs["scale"])
+    col0, row0, cols, rows, f = map(int, attrs["window"].split(","))
+    with rasterio.open(os.path.join(out, "classes.tif")) as ds:
+        cmap = ds.colormap(1)
+        classes = ds.read(1)
+    width = classes.shape[1]
+    win = classes[row0:row0 + rows][:, [(col0 + c) % width for c in range(cols)]]
+    expect = decimate(win, f)
+    check(expect.shape == (ph // s, pw // s), f"{name}: panel size {pw}x{ph}/{s} vs window {expect.shape}")
+    panel = a[y0:y0 + ph, x0:x0 + pw]
+    sampled = panel[s // 2::s, s // 2::s][: expect.shape[0], : expect.shape[1]]
+    colour = {k: tuple(cmap[k][:3]) for k in (0, 1, 2)}
+    colour[255] = (255, 255, 255)  # nodata: transparent in the table, white on the map
+    want = np.zeros(expect.shape + (3,), dtype=np.uint8)
+    for k, c in colour.items():
+        want[expect == k] = c
+    agree = np.all(sampled == want, axis=2)
+    share = agree.mean()
+    check(share >= 0.85, f"{name}: {share:.1%} of map pixels have the expected class colour")
+    flat = panel.reshape(-1, 3)
+    for k in np.unique(win):
+        k = int(k) if int(k) in colour else 255
+        c = np.array(colour[k], dtype=np.uint8)
+        n = int(np.all(flat == c, axis=1).sum())
+        check(n > 0, f"{name}: class {k} is in the frame but its colour {colour[k]} is not on the map")
+    if one_cell:
+        r, c = one_cell
+        py, px = (r - row0) // f, ((c - col0) % width) // f
+        got = tuple(int(v) for v in sampled[py, px])
+        check(got == colour[1], f"{name}: the one class-1 cell's pixel is {got}, not {colour[1]}")
+        check(int((expect == 1).sum()) == 1, f"{name}: exactly one class-1 pixel expected")
+    return html
+
+
+def check_in_chromium(pages):
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as p:
+        b = p.chromium.launch(executable_path=shutil.which("chromium") or "/usr/bin/chromium",
+                              args=["--no-sandbox", "--disable-gpu"])
+        for name, (out, _) in pages.items():
+            page = b.new_page(viewport={"width": 1000, "height": 1000})
+            errors = []
+            page.on("pageerror", lambda e: errors.append(str(e)))
+            page.on("console", lambda msg: msg.type == "error" and errors.append(msg.text))
+            page.on("request", lambda r: r.url.startswith("file:") or r.url.startswith("data:") or errors.append("fetch " + r.url))
+            page.goto("file://" + os.path.abspath(os.path.join(out, "report.html")), wait_until="load")
+            widths = page.evaluate("""() => Promise.all([...document.images].map(i =>
+                i.decode().then(() => i.naturalWidth, () => 0)))""")
+            svgs = page.evaluate("() => document.querySelectorAll('svg').length")
+            check(not errors, f"{name}: Chromium reported {errors}")
+            check(len(widths) >= 1 and all(w > 0 for w in widths), f"{name}: images decoded {widths}")
+            check(svgs >= 2, f"{name}: {svgs} inline SVG charts")
+            if SHOTS:
+                os.makedirs(SHOTS, exist_ok=True)
+                shot = os.path.join(SHOTS, re.sub(r"[^a-z0-9]+", "-", name.lower()) + ".png")
+                page.screenshot(path=shot, full_page=True)
+                Image.open(shot).load()
+                check(os.path.getsize(shot) > 10000, f"{name}: screenshot written")
+                if UPDATE_DOCS and name == "demo":
+                    shutil.copy(shot, os.path.join(ROOT, "docs", "report-demo.png"))
+            page.close()
+        b.close()
+
+
+def main():
+    with tempfile.TemporaryDirectory() as tmp:
+        cases = make_cases(tmp)
+        for name, (out, one) in cases.items():
+            check_map(name, out, one)
+        pages = {k: v for k, v in cases.items() if not k.startswith("one")}
+        check_in_chromium(pages)
+    print(f"{passed} passed, {failed} failed")
+    sys.exit(1 if failed else 0)
+
+
+if __name__ == "__main__":
+    main()

@@ -194,7 +194,12 @@ pub fn run_range(
     clock.lap("pass");
     let mut to_range = Vec::new();
     if opts.metrics.enabled {
-        to_range = crate::metrics::add_range_metrics(&mut result, &model, &opts.metrics)?;
+        to_range = crate::metrics::add_range_metrics(
+            &mut result,
+            &model,
+            &opts.metrics,
+            opts.vectors.is_some(),
+        )?;
         clock.lap("metrics");
     }
     write_csv(&dir.file("patches.csv"), &result.patches)?;

@@ -249,7 +249,7 @@ pub fn run_change(
     crate::styles::describe_classes(writer.dataset(), &classes_path, &result.summary)?;
     writer.close()?;
     if opts.range.metrics.enabled {
-        crate::metrics::add_range_metrics(&mut result, &model, &opts.range.metrics)?;
+        crate::metrics::add_range_metrics(&mut result, &model, &opts.range.metrics, false)?;
     }
     let t = result.summary.threshold.value;
 

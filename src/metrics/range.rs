@@ -24,6 +24,7 @@ pub fn add_range_metrics(
     result: &mut RangeResult,
     model: &RangeModel,
     opts: &MetricsOptions,
+    with_range_distance: bool,
 ) -> Result<Vec<Option<f64>>> {
     let records: Vec<MetricRecord> = result
         .records
@@ -52,7 +53,7 @@ pub fn add_range_metrics(
         return Ok(Vec::new());
     }
     let records_path = std::path::PathBuf::from(&result.summary.inputs.records);
-    let (metrics, cols) = range_metrics(model, &records_path, &records, opts)?;
+    let (metrics, cols) = metrics_of(model, &records_path, &records, opts, with_range_distance)?;
     let mut to_range = Vec::with_capacity(cols.len());
     for (row, c) in result.patches.iter_mut().zip(cols) {
         row.nearest_patch_km = c.nearest_patch_km;
@@ -65,12 +66,25 @@ pub fn add_range_metrics(
     Ok(to_range)
 }
 
-/// All metrics of a range. Returns the metrics and one [`PatchMetrics`] per patch, in id order.
+/// All metrics of a range. Returns the metrics and one [`PatchMetrics`] per patch, in id order
+/// (with `nearest_range_km` filled).
 pub fn range_metrics(
     model: &RangeModel,
     records_path: &Path,
     records: &[MetricRecord],
     opts: &MetricsOptions,
+) -> Result<(Metrics, Vec<PatchMetrics>)> {
+    metrics_of(model, records_path, records, opts, true)
+}
+
+/// [`range_metrics`], with the distance to the nearest class-1 patch only when asked (it is
+/// for the vector layers).
+fn metrics_of(
+    model: &RangeModel,
+    records_path: &Path,
+    records: &[MetricRecord],
+    opts: &MetricsOptions,
+    with_range_distance: bool,
 ) -> Result<(Metrics, Vec<PatchMetrics>)> {
     let mut clock = crate::progress::StageClock::new();
     let RecordPart {
@@ -127,7 +141,11 @@ pub fn range_metrics(
     clock.lap("nearest patch");
     let near_occ = reach::nearest(&c, |p| occupied[p]);
     clock.lap("nearest occupied patch");
-    let near_range = reach::nearest(&c, |p| patches[p].class == class::INSIDE);
+    let near_range = if with_range_distance {
+        reach::nearest(&c, |p| patches[p].class == class::INSIDE)
+    } else {
+        vec![None; n]
+    };
     clock.lap("nearest class-1 patch");
     clock.lap("nearest patches");
     let jumps = opts.gap_km.map(|g| reach::reach(&c, |p| occupied[p], g));

@@ -49,6 +49,9 @@ pub(crate) struct Corners {
     cache: std::cell::RefCell<std::collections::HashMap<[u64; 4], f64>>,
 }
 
+/// Geodesics kept for reuse (about 50 MB).
+const CACHE_ENTRIES: usize = 1 << 20;
+
 /// GeographicLib's `AngDiff` (geographiclib-rs `geomath::ang_diff`, which is not public):
 /// `y - x` reduced to [-180, 180] as an exact sum `d + t`.
 fn ang_diff(x: f64, y: f64) -> (f64, f64) {
@@ -205,7 +208,11 @@ impl Corners {
             return s;
         }
         let s: f64 = self.geod.inverse(a.0, a.1, b.0, b.1);
-        self.cache.borrow_mut().insert(key, s);
+        let mut cache = self.cache.borrow_mut();
+        if cache.len() >= CACHE_ENTRIES {
+            cache.clear(); // memory stays bounded; ties are met close together
+        }
+        cache.insert(key, s);
         s
     }
 

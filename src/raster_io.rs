@@ -420,6 +420,33 @@ impl StripReader {
     }
 }
 
+impl StripReader {
+    /// For each cell of the strip last read into `bufs` by [`StripReader::classify_rows`]
+    /// (with its `codes`): how many of the ascending thresholds `cands` its value reaches
+    /// (`v >= t`, the comparison the pass makes), or 255 for nodata.
+    pub(crate) fn bins(&self, bufs: &StripBuffers, codes: &[u8], cands: &[f64], out: &mut Vec<u8>) {
+        out.clear();
+        if self.as_f32 {
+            let t: Vec<f32> = cands.iter().map(|&c| f32_threshold(c)).collect();
+            out.extend(bufs.f32s.iter().zip(codes).map(|(&v, &k)| {
+                if k == class::NODATA {
+                    class::NODATA
+                } else {
+                    t.iter().map(|&c| (v >= c) as u8).sum()
+                }
+            }));
+        } else {
+            out.extend(bufs.f64s.iter().zip(codes).map(|(&v, &k)| {
+                if k == class::NODATA {
+                    class::NODATA
+                } else {
+                    cands.iter().map(|&c| (v >= c) as u8).sum()
+                }
+            }));
+        }
+    }
+}
+
 /// The smallest f32 `t32` with `v >= t32` exactly when `v as f64 >= t`, for every f32 `v`.
 fn f32_threshold(t: f64) -> f32 {
     if t.is_nan() {

@@ -13,7 +13,9 @@ use crate::patches::Connectivity;
 use crate::progress::ProgressHandle;
 use crate::raster_io::SuitabilityRaster;
 use crate::records::{read_records, RecordOptions};
-use crate::report::{build_result, write_csv, BuildInput, PatchRow, RecordRow, Summary};
+use crate::report::{
+    build_result, write_csv, BuildInput, PatchRow, RecordRow, SensitivityRow, Summary,
+};
 use crate::threshold::{omission_threshold, Threshold, ThresholdSpec};
 use crate::{Error, Result};
 use std::path::Path;
@@ -88,6 +90,27 @@ pub fn compute_range(
         placement.by_cell.values().copied().collect()
     };
     let mut threshold = omission_threshold(&threshold_values, opts.threshold)?;
+    // E sensitivity: the rule's T for E = 0, 1, 2, 5, 10 % and the run's own E; every
+    // candidate is known before the pass, which counts each cell once against all of them.
+    let sens_rules: Vec<(f64, Threshold)> = match opts.threshold {
+        ThresholdSpec::Omission(own) => {
+            let mut es = vec![0.0, 1.0, 2.0, 5.0, 10.0];
+            if !es.contains(&own) {
+                es.push(own);
+            }
+            es.sort_by(f64::total_cmp);
+            es.into_iter()
+                .map(|e| {
+                    omission_threshold(&threshold_values, ThresholdSpec::omission(e)?)
+                        .map(|t| (e, t))
+                })
+                .collect::<Result<_>>()?
+        }
+        ThresholdSpec::Fixed(_) => Vec::new(),
+    };
+    let mut cands: Vec<f64> = sens_rules.iter().map(|r| r.1.value).collect();
+    cands.sort_by(f64::total_cmp);
+    cands.dedup();
 
     let lonlat: Vec<(f64, f64)> = set.records.iter().map(|r| (r.lon, r.lat)).collect();
     let mut access = AccessMask::build(&grid, &opts.access, &lonlat)?;
@@ -107,6 +130,7 @@ pub fn compute_range(
                     placed: &mut placement.placed,
                     model: &opts.model,
                     progress: &opts.progress,
+                    sensitivity: &cands,
                 },
                 sink,
             )
@@ -138,7 +162,25 @@ pub fn compute_range(
         };
     }
     let model = out.model;
-    let result = build_result(BuildInput {
+    let sensitivity: Vec<SensitivityRow> = if binary {
+        Vec::new() // no threshold was applied
+    } else {
+        sens_rules
+            .iter()
+            .map(|(e, t)| {
+                let k = cands.partition_point(|&c| c < t.value);
+                let (all, inside) = out.sensitivity[k];
+                SensitivityRow {
+                    omission_percent: *e,
+                    threshold: t.value,
+                    records_dropped: t.records_dropped,
+                    area_km2_suitable: all / 1e6,
+                    area_km2_inside_accessible: inside / 1e6,
+                }
+            })
+            .collect()
+    };
+    let mut result = build_result(BuildInput {
         suitability,
         records_path,
         raster: &raster,
@@ -155,6 +197,7 @@ pub fn compute_range(
         on_nodata: placement.on_nodata,
         occupied_cells: placement.by_cell.len(),
     })?;
+    result.summary.sensitivity = sensitivity;
     Ok((result, model))
 }
 

@@ -23,6 +23,10 @@ pub(super) struct Consumer {
     rec_counts: Vec<(usize, u64)>,
     /// The workers applied M already (codes 0..=3, see `apply_m_in_worker`).
     prefilled: bool,
+    /// Sensitivity: area of the data cells reaching exactly b candidates, all and inside M.
+    bin_area: Vec<Neumaier>,
+    bin_area_m: Vec<Neumaier>,
+    candidates: usize,
 }
 
 impl Consumer {
@@ -38,6 +42,9 @@ impl Consumer {
             in_m: vec![false; grid.width],
             rec_counts: Vec::new(),
             prefilled,
+            bin_area: vec![Neumaier::default(); input.sensitivity.len() + 1],
+            bin_area_m: vec![Neumaier::default(); input.sensitivity.len() + 1],
+            candidates: input.sensitivity.len(),
         }
     }
 
@@ -48,6 +55,7 @@ impl Consumer {
         y0: usize,
         codes: Vec<u8>,
         binary: bool,
+        bins: &[u8],
         access: &mut AccessMask,
         areas: &mut CellAreas,
         rows_records: &BTreeMap<usize, Vec<(usize, usize)>>,
@@ -75,6 +83,9 @@ impl Consumer {
             }
             let row_areas = areas.row_allow_outside(row)?;
             self.measure(row, cls, &row_areas, whole, raster)?;
+            if self.candidates > 0 {
+                self.measure_bins(&bins[r * w..(r + 1) * w], &row_areas, whole);
+            }
             self.rec_counts.clear();
             if let Some(list) = rows_records.get(&row) {
                 for &(c, i) in list {
@@ -156,7 +167,55 @@ impl Consumer {
         Ok(())
     }
 
+    /// Add the row's data cells to the sensitivity sums by how many candidates they reach.
+    fn measure_bins(&mut self, bins: &[u8], row_areas: &RowAreas, whole: bool) {
+        let n = self.candidates + 1;
+        match row_areas {
+            RowAreas::Uniform(a) => {
+                let (mut all, mut inside) = (vec![0u64; n], vec![0u64; n]);
+                for (&b, &m) in bins.iter().zip(&self.in_m) {
+                    if b != class::NODATA {
+                        all[b as usize] += 1;
+                        inside[b as usize] += (whole || m) as u64;
+                    }
+                }
+                for b in 0..n {
+                    self.bin_area[b].add(all[b] as f64 * a);
+                    self.bin_area_m[b].add(inside[b] as f64 * a);
+                }
+            }
+            RowAreas::PerCell(v) => {
+                let (mut all, mut inside) = (vec![0f64; n], vec![0f64; n]);
+                for (c, (&b, &m)) in bins.iter().zip(&self.in_m).enumerate() {
+                    if b != class::NODATA {
+                        all[b as usize] += v[c];
+                        if whole || m {
+                            inside[b as usize] += v[c];
+                        }
+                    }
+                }
+                for b in 0..n {
+                    self.bin_area[b].add(all[b]);
+                    self.bin_area_m[b].add(inside[b]);
+                }
+            }
+        }
+    }
+
     pub(super) fn finish(self, grid: &GridSpec) -> Result<PassOutput> {
+        // A cell is suitable at candidate k (0-based) when it reaches more than k of them.
+        let sensitivity = (0..self.candidates)
+            .map(|k| {
+                let sum = |v: &[Neumaier]| {
+                    let mut s = Neumaier::default();
+                    for x in &v[k + 1..] {
+                        s.merge(x);
+                    }
+                    s.value()
+                };
+                (sum(&self.bin_area), sum(&self.bin_area_m))
+            })
+            .collect();
         let totals = Totals {
             cells_unsuitable: self.cells[0],
             cells_inside: self.cells[1],
@@ -170,6 +229,7 @@ impl Consumer {
         Ok(PassOutput {
             model: self.builder.finish(grid, self.connectivity, totals)?,
             all_binary: self.all_binary,
+            sensitivity,
         })
     }
 }

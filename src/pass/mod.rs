@@ -42,6 +42,8 @@ pub(crate) struct PassInput<'a> {
     pub(crate) placed: &'a mut [PlacedRecord],
     pub(crate) model: &'a ModelOptions,
     pub(crate) progress: &'a ProgressHandle,
+    /// Candidate thresholds for the E sensitivity, ascending (empty: none).
+    pub(crate) sensitivity: &'a [f64],
 }
 
 /// What the pass yields.
@@ -49,6 +51,8 @@ pub(crate) struct PassOutput {
     pub(crate) model: RangeModel,
     /// Every strip held only 0 and 1 (and nodata).
     pub(crate) all_binary: bool,
+    /// For each sensitivity candidate: (suitable area, suitable area inside M), m2.
+    pub(crate) sensitivity: Vec<(f64, f64)>,
 }
 
 /// Worker code for a cell below the threshold but inside M (only between worker and consumer).
@@ -60,6 +64,9 @@ struct StripClasses {
     index: usize,
     codes: Vec<u8>,
     binary: bool,
+    /// Per cell, how many sensitivity candidates its value reaches (255 nodata); empty when
+    /// there are none.
+    bins: Vec<u8>,
 }
 
 /// One streaming pass: classify, measure, label, write.
@@ -80,6 +87,7 @@ pub(crate) fn run_pass(
     let filler = input.access.row_filler();
     let prefilled = filler.is_some();
     let t = input.t;
+    let cands = input.sensitivity;
     let (tx, rx) = mpsc::sync_channel::<Result<StripClasses>>(2 * threads);
     std::thread::scope(|scope| {
         for _ in 0..threads {
@@ -113,6 +121,10 @@ pub(crate) fn run_pass(
                     let out = reader
                         .classify_rows(y0, rows, t, &mut bufs, &mut codes)
                         .map(|binary| {
+                            let mut bins = Vec::new();
+                            if !cands.is_empty() {
+                                reader.bins(&bufs, &codes, cands, &mut bins);
+                            }
                             if let Some(f) = filler.as_mut() {
                                 apply_m_in_worker(f, y0, w, &mut codes);
                             }
@@ -120,6 +132,7 @@ pub(crate) fn run_pass(
                                 index: i,
                                 codes,
                                 binary,
+                                bins,
                             }
                         });
                     let failed = out.is_err();
@@ -147,6 +160,7 @@ pub(crate) fn run_pass(
                     y0,
                     strip.codes,
                     strip.binary,
+                    &strip.bins,
                     input.access,
                     input.areas,
                     input.rows_records,

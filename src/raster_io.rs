@@ -729,37 +729,49 @@ impl ClassWriter {
             }
             self.next_row = y0 + n;
         }
+        // Write the strip's tiles, then the overview rows it completed, flushing after each:
+        // left to GDAL's block cache (shared with the decode workers' reads and with every run
+        // of a process, e.g. a batch), the order in which tiles reach the file, and so the
+        // file's bytes, would depend on when other threads fill the cache.
         let mut band = self
             .ds
             .rasterband(1)
             .map_err(output_error(&self.path, "opening band 1".into()))?;
-        for (level, oy0, data) in self.ready.drain(..) {
-            let ow = self.overviews.level_width(level);
-            let on = data.len() / ow;
-            let mut ov = band.overview(level).map_err(output_error(
-                &self.path,
-                format!("opening overview {level}"),
-            ))?;
-            let mut obuf = gdal::raster::Buffer::new((ow, on), data);
-            ov.write((0, oy0 as isize), (ow, on), &mut obuf)
-                .map_err(output_error(
-                    &self.path,
-                    format!("writing overview {level} rows {oy0}..{}", oy0 + on),
-                ))?;
-        }
         let mut buf = gdal::raster::Buffer::new((self.width, n), rows);
         band.write((0, y0 as isize), (self.width, n), &mut buf)
             .map_err(output_error(
                 &self.path,
                 format!("writing rows {y0}..{}", y0 + n),
             ))?;
-        // Write the strip's tiles now, in order: left to GDAL's block cache (shared by every
-        // run of a process, e.g. a batch), the order in which tiles reach the file, and so the
-        // file's bytes, would depend on what other threads put in the cache.
         self.ds.flush_cache().map_err(output_error(
             &self.path,
             format!("writing rows {y0}..{}", y0 + n),
         ))?;
+        let ready: Vec<_> = self.ready.drain(..).collect();
+        for (level, oy0, data) in ready {
+            let ow = self.overviews.level_width(level);
+            let on = data.len() / ow;
+            {
+                let band = self
+                    .ds
+                    .rasterband(1)
+                    .map_err(output_error(&self.path, "opening band 1".into()))?;
+                let mut ov = band.overview(level).map_err(output_error(
+                    &self.path,
+                    format!("opening overview {level}"),
+                ))?;
+                let mut obuf = gdal::raster::Buffer::new((ow, on), data);
+                ov.write((0, oy0 as isize), (ow, on), &mut obuf)
+                    .map_err(output_error(
+                        &self.path,
+                        format!("writing overview {level} rows {oy0}..{}", oy0 + on),
+                    ))?;
+            }
+            self.ds.flush_cache().map_err(output_error(
+                &self.path,
+                format!("writing overview {level} rows {oy0}..{}", oy0 + on),
+            ))?;
+        }
         Ok(buf.into_shape_and_vec().1)
     }
 

@@ -721,6 +721,7 @@ impl ClassWriter {
         let n = rows.len() / self.width;
         if y0 < self.next_row {
             self.overviews.reset(); // a second classification replaces the rows
+            self.ready.clear();
             self.next_row = 0;
         }
         if y0 == self.next_row {
@@ -729,10 +730,11 @@ impl ClassWriter {
             }
             self.next_row = y0 + n;
         }
-        // Write the strip's tiles, then the overview rows it completed, flushing after each:
-        // left to GDAL's block cache (shared with the decode workers' reads and with every run
-        // of a process, e.g. a batch), the order in which tiles reach the file, and so the
-        // file's bytes, would depend on when other threads fill the cache.
+        // Write the strip's tiles and flush: left to GDAL's block cache (shared with the decode
+        // workers' reads and with every run of a process, e.g. a batch), the order in which
+        // tiles reach the file, and so the file's bytes, would depend on when other threads
+        // fill the cache. The overview rows are kept (1/15 of a byte a cell) and written at
+        // the end, in order, when no other thread uses the cache.
         let mut band = self
             .ds
             .rasterband(1)
@@ -747,31 +749,6 @@ impl ClassWriter {
             &self.path,
             format!("writing rows {y0}..{}", y0 + n),
         ))?;
-        let ready: Vec<_> = self.ready.drain(..).collect();
-        for (level, oy0, data) in ready {
-            let ow = self.overviews.level_width(level);
-            let on = data.len() / ow;
-            {
-                let band = self
-                    .ds
-                    .rasterband(1)
-                    .map_err(output_error(&self.path, "opening band 1".into()))?;
-                let mut ov = band.overview(level).map_err(output_error(
-                    &self.path,
-                    format!("opening overview {level}"),
-                ))?;
-                let mut obuf = gdal::raster::Buffer::new((ow, on), data);
-                ov.write((0, oy0 as isize), (ow, on), &mut obuf)
-                    .map_err(output_error(
-                        &self.path,
-                        format!("writing overview {level} rows {oy0}..{}", oy0 + on),
-                    ))?;
-            }
-            self.ds.flush_cache().map_err(output_error(
-                &self.path,
-                format!("writing overview {level} rows {oy0}..{}", oy0 + on),
-            ))?;
-        }
         Ok(buf.into_shape_and_vec().1)
     }
 
@@ -799,8 +776,28 @@ impl ClassWriter {
     }
 
     /// Flush and close (the overviews were written with the rows).
-    pub fn close(self) -> Result<()> {
+    pub fn close(mut self) -> Result<()> {
         let path = self.path.clone();
+        for (level, oy0, data) in std::mem::take(&mut self.ready) {
+            let ow = self.overviews.level_width(level);
+            let on = data.len() / ow;
+            let band = self
+                .ds
+                .rasterband(1)
+                .map_err(output_error(&path, "opening band 1".into()))?;
+            let mut ov = band
+                .overview(level)
+                .map_err(output_error(&path, format!("opening overview {level}")))?;
+            let mut obuf = gdal::raster::Buffer::new((ow, on), data);
+            ov.write((0, oy0 as isize), (ow, on), &mut obuf)
+                .map_err(output_error(
+                    &path,
+                    format!("writing overview {level} rows {oy0}..{}", oy0 + on),
+                ))?;
+        }
+        self.ds
+            .flush_cache()
+            .map_err(output_error(&path, "writing the overviews".into()))?;
         self.ds
             .close()
             .map_err(output_error(&path, "closing the class raster".into()))?;

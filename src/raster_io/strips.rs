@@ -1,0 +1,279 @@
+//! Row strips read and thresholded in the decode workers, one GDAL handle per thread.
+
+use super::class;
+use super::open_readonly;
+use super::NonFiniteCount;
+use crate::{Error, Result};
+use gdal::{Dataset, GdalOpenFlags};
+use std::path::PathBuf;
+
+/// Enough to open a [`StripReader`] in another thread.
+#[derive(Debug, Clone)]
+pub struct ReaderSpec {
+    pub(super) path: PathBuf,
+    pub(super) width: usize,
+    pub(super) nodata: Option<f64>,
+    pub(super) as_f32: bool,
+    pub(super) non_finite: NonFiniteCount,
+}
+
+impl ReaderSpec {
+    /// Open the file again for this thread.
+    pub fn open(&self) -> Result<StripReader> {
+        let ds = open_readonly(
+            &self.path,
+            GdalOpenFlags::GDAL_OF_RASTER,
+            "suitability raster",
+        )?;
+        Ok(StripReader {
+            path: self.path.clone(),
+            ds,
+            width: self.width,
+            nodata: self.nodata,
+            as_f32: self.as_f32,
+            non_finite: self.non_finite.clone(),
+        })
+    }
+}
+
+/// Reads and thresholds row strips; one per thread.
+pub struct StripReader {
+    path: PathBuf,
+    ds: Dataset,
+    width: usize,
+    nodata: Option<f64>,
+    as_f32: bool,
+    non_finite: NonFiniteCount,
+}
+
+/// Buffers a [`StripReader`] reuses between strips.
+#[derive(Debug, Default)]
+pub struct StripBuffers {
+    f32s: Vec<f32>,
+    f64s: Vec<f64>,
+}
+
+impl StripReader {
+    /// Read rows `y0 .. y0 + rows` and code each cell into `codes` (resized): 0 below
+    /// `t`, 1 at or above `t`, 255 nodata. Returns whether every data cell was exactly 0
+    /// or 1.
+    pub fn classify_rows(
+        &self,
+        y0: usize,
+        rows: usize,
+        t: f64,
+        bufs: &mut StripBuffers,
+        codes: &mut Vec<u8>,
+    ) -> Result<bool> {
+        let n = self.width * rows;
+        let band = self
+            .ds
+            .rasterband(1)
+            .map_err(Error::gdal(&self.path, "reading band 1"))?;
+        let what = || format!("reading rows {y0}..{}", y0 + rows);
+        codes.resize(n, 0);
+        let mut non_finite = 0u64;
+        let binary = if self.as_f32 {
+            bufs.f32s.resize(n, 0.0);
+            band.read_into_slice::<f32>(
+                (0, y0 as isize),
+                (self.width, rows),
+                (self.width, rows),
+                &mut bufs.f32s,
+                None,
+            )
+            .map_err(Error::gdal(&self.path, what()))?;
+            code_cells_f32(&bufs.f32s, codes, t, self.nodata, &mut non_finite)
+        } else {
+            bufs.f64s.resize(n, 0.0);
+            band.read_into_slice::<f64>(
+                (0, y0 as isize),
+                (self.width, rows),
+                (self.width, rows),
+                &mut bufs.f64s,
+                None,
+            )
+            .map_err(Error::gdal(&self.path, what()))?;
+            code_cells_f64(&bufs.f64s, codes, t, self.nodata, &mut non_finite)
+        };
+        self.non_finite.add_strip(y0, rows, non_finite);
+        Ok(binary)
+    }
+}
+
+impl StripReader {
+    /// For each cell of the strip last read into `bufs` by [`StripReader::classify_rows`]
+    /// (with its `codes`): how many of the ascending thresholds `cands` its value reaches
+    /// (`v >= t`, the comparison the pass makes), or 255 for nodata.
+    pub(crate) fn bins(&self, bufs: &StripBuffers, codes: &[u8], cands: &[f64], out: &mut Vec<u8>) {
+        out.clear();
+        if self.as_f32 {
+            let t: Vec<f32> = cands.iter().map(|&c| f32_threshold(c)).collect();
+            out.extend(bufs.f32s.iter().zip(codes).map(|(&v, &k)| {
+                if k == class::NODATA {
+                    class::NODATA
+                } else {
+                    t.iter().map(|&c| (v >= c) as u8).sum()
+                }
+            }));
+        } else {
+            out.extend(bufs.f64s.iter().zip(codes).map(|(&v, &k)| {
+                if k == class::NODATA {
+                    class::NODATA
+                } else {
+                    cands.iter().map(|&c| (v >= c) as u8).sum()
+                }
+            }));
+        }
+    }
+}
+
+/// The smallest f32 `t32` with `v >= t32` exactly when `v as f64 >= t`, for every f32 `v`.
+fn f32_threshold(t: f64) -> f32 {
+    if t.is_nan() {
+        return f32::NAN;
+    }
+    let mut t32 = t as f32; // round to nearest
+    if (t32 as f64) < t {
+        t32 = t32.next_up();
+    }
+    t32
+}
+
+/// The two sample types the pass reads.
+trait Sample: Copy + PartialEq + PartialOrd {
+    const ZERO: Self;
+    const ONE: Self;
+    fn finite(self) -> bool;
+}
+
+impl Sample for f32 {
+    const ZERO: Self = 0.0;
+    const ONE: Self = 1.0;
+    fn finite(self) -> bool {
+        self.is_finite()
+    }
+}
+
+impl Sample for f64 {
+    const ZERO: Self = 0.0;
+    const ONE: Self = 1.0;
+    fn finite(self) -> bool {
+        self.is_finite()
+    }
+}
+
+/// Code cells against `t` in their own type (branch-free, so the loop vectorises): 255 for
+/// NaN, +-inf and `nd` (NaN: no nodata value), else `v >= t`. Returns whether all data
+/// cells are 0 or 1, and adds the NaN/inf cells to `non_finite`.
+fn code_cells<T: Sample>(
+    values: &[T],
+    codes: &mut [u8],
+    t: T,
+    nd: T,
+    non_finite: &mut u64,
+) -> bool {
+    let mut not_binary = 0u32;
+    let mut nf = 0u32;
+    for (&v, k) in values.iter().zip(codes.iter_mut()) {
+        let inf_or_nan = !v.finite();
+        nf += inf_or_nan as u32;
+        let missing = inf_or_nan | (v == nd);
+        not_binary |= (!missing & (v != T::ZERO) & (v != T::ONE)) as u32;
+        *k = if missing {
+            class::NODATA
+        } else {
+            (v >= t) as u8
+        };
+    }
+    *non_finite += nf as u64;
+    not_binary == 0
+}
+
+/// Code float32 cells; `t` is compared exactly as in float64 (see [`f32_threshold`]) and,
+/// as GDAL does for float32 bands, the nodata value is taken at float32 precision.
+fn code_cells_f32(
+    values: &[f32],
+    codes: &mut [u8],
+    t: f64,
+    nodata: Option<f64>,
+    non_finite: &mut u64,
+) -> bool {
+    let nd = nodata.map(|v| v as f32).unwrap_or(f32::NAN);
+    code_cells(values, codes, f32_threshold(t), nd, non_finite)
+}
+
+/// Code float64 cells.
+fn code_cells_f64(
+    values: &[f64],
+    codes: &mut [u8],
+    t: f64,
+    nodata: Option<f64>,
+    non_finite: &mut u64,
+) -> bool {
+    code_cells(values, codes, t, nodata.unwrap_or(f64::NAN), non_finite)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn f32_threshold_is_exact_for_every_neighbour() {
+        // For thresholds that are and are not f32 values, the f32 comparison must agree
+        // with the f64 one on the f32 values around T.
+        for t in [0.12f64, 0.12f32 as f64, 0.5, 1.0 / 3.0, -0.0, 1e-40, 3.4e38] {
+            let t32 = f32_threshold(t);
+            let mut v = (t as f32).next_down().next_down();
+            for _ in 0..5 {
+                assert_eq!(v >= t32, v as f64 >= t, "t = {t}, v = {v}");
+                v = v.next_up();
+            }
+        }
+    }
+
+    #[test]
+    fn cells_are_coded_with_nodata_nan_and_inf() {
+        // CHECKS.md section 5: cells [0.1165, 0.118, 0.12, 0.13] with T = 0.12 -> [0, 0, 1, 1].
+        let v = [
+            0.1165f32,
+            0.118,
+            0.12,
+            0.13,
+            -9999.0,
+            f32::NAN,
+            f32::INFINITY,
+            f32::NEG_INFINITY,
+        ];
+        let mut k = [9u8; 8];
+        let mut nf = 0;
+        let binary = code_cells_f32(&v, &mut k, 0.12f32 as f64, Some(-9999.0), &mut nf);
+        assert_eq!(k, [0, 0, 1, 1, 255, 255, 255, 255]);
+        assert!(!binary);
+        assert_eq!(nf, 3, "NaN, +inf and -inf");
+        let v64: Vec<f64> = v.iter().map(|&x| x as f64).collect();
+        let mut k64 = [9u8; 8];
+        let mut nf64 = 0;
+        code_cells_f64(&v64, &mut k64, 0.12f32 as f64, Some(-9999.0), &mut nf64);
+        assert_eq!(k64, k);
+        assert_eq!(nf64, 3);
+        let mut kb = [9u8; 4];
+        let kb_binary = code_cells_f32(
+            &[0.0, 1.0, -9999.0, 1.0],
+            &mut kb,
+            0.5,
+            Some(-9999.0),
+            &mut nf,
+        );
+        assert!(kb_binary);
+    }
+
+    #[test]
+    fn float32_nodata_is_compared_at_float32_precision() {
+        // A Float32 band with nodata "0.1": its cells hold 0.1f32 (0.100000001...), which
+        // GDAL treats as nodata (the nodata value is cast to the band type; from memory).
+        let mut k = [9u8; 2];
+        code_cells_f32(&[0.1, 0.9], &mut k, 0.5, Some(0.1), &mut 0);
+        assert_eq!(k, [255, 1]);
+    }
+}

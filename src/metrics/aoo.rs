@@ -109,16 +109,6 @@ impl AooGrid {
     }
 }
 
-/// Transform `xs`/`ys` in place; any failure is an error naming `what`.
-pub(crate) fn transform(
-    ct: &CoordTransform,
-    xs: &mut [f64],
-    ys: &mut [f64],
-    what: &str,
-) -> Result<()> {
-    crate::crs::transform_points(ct, xs, ys, what)
-}
-
 /// Occupied cells for the 16 grid origins.
 ///
 /// Every origin is a multiple of a quarter cell, so a point's cell under origin

@@ -90,7 +90,7 @@ pub(super) fn record_part(
     let grid = AooGrid::new(lon0, lat0, opts.aoo_cell_km)?;
     let ct = grid.transform_from(&aoo::wgs84()?)?;
     let (mut xs, mut ys): (Vec<f64>, Vec<f64>) = used.iter().copied().unzip();
-    aoo::transform(&ct, &mut xs, &mut ys, "records to the AOO grid CRS")?;
+    crate::crs::transform_points(&ct, &mut xs, &mut ys, "records to the AOO grid CRS")?;
     let mut counter = AooCounter::new(grid.cell_m);
     for (x, y) in xs.iter().zip(&ys) {
         counter.add(*x, *y);

@@ -27,7 +27,8 @@ pub(crate) struct KdTree {
     items: Vec<u32>,
 }
 
-fn d2(a: &[f64; 3], b: &[f64; 3]) -> f64 {
+/// Squared distance between two points.
+pub(crate) fn d2(a: &[f64; 3], b: &[f64; 3]) -> f64 {
     (a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2) + (a[2] - b[2]).powi(2)
 }
 
@@ -244,11 +245,6 @@ impl KdTree {
             }
         }
     }
-}
-
-/// Squared distance between two points.
-pub(crate) fn dist2(a: &[f64; 3], b: &[f64; 3]) -> f64 {
-    d2(a, b)
 }
 
 fn build(

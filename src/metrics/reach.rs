@@ -25,7 +25,7 @@
 //! Only the pairs in between are measured. Breadth-first order gives the fewest jumps; nodes
 //! holding only reached patches are skipped.
 
-use super::kdtree::{dist2, KdTree};
+use super::kdtree::{d2, KdTree};
 use crate::access::buffer::m_min;
 use crate::area::Ellipsoid;
 use geographiclib_rs::{Geodesic, InverseGeodesic};
@@ -254,7 +254,7 @@ pub(crate) fn nearest(c: &Corners, target: impl Fn(usize) -> bool) -> Vec<Option
             |l| l as usize == p,
             |j, _| {
                 for &i in items {
-                    let d = dist2(&c.xyz[i as usize], &c.xyz[j]);
+                    let d = d2(&c.xyz[i as usize], &c.xyz[j]);
                     if d < cbest[p] {
                         cbest[p] = d;
                         pair[p] = Some((i as usize, j));
@@ -281,7 +281,7 @@ pub(crate) fn nearest(c: &Corners, target: impl Fn(usize) -> bool) -> Vec<Option
         let check = |j: usize, best: &mut f64| {
             for &i in items {
                 let i = i as usize;
-                if (i, j) != first && dist2(&c.xyz[i], &c.xyz[j]) <= search_bound(*best) {
+                if (i, j) != first && d2(&c.xyz[i], &c.xyz[j]) <= search_bound(*best) {
                     if let Some(s) = c.dist_below(i, j, *best) {
                         *best = best.min(s);
                     }

@@ -17,7 +17,7 @@
 
 use super::polygonize::{is_valid_quiet, polygons_of};
 use crate::{Error, GridSpec, Result};
-use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
+use gdal::spatial_ref::CoordTransform;
 use gdal::vector::{Geometry, ToGdal};
 use geo::orient::{Direction, Orient};
 use geo::MapCoords;
@@ -32,28 +32,8 @@ pub(crate) struct ToLonLat {
     max_edge: f64,
 }
 
-/// A WGS84 SpatialRef with x = longitude.
-pub(crate) fn wgs84() -> Result<SpatialRef> {
-    let mut s = SpatialRef::from_epsg(4326).map_err(|e| Error::Crs {
-        what: "EPSG:4326".into(),
-        reason: e.to_string(),
-    })?;
-    s.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-    Ok(s)
-}
-
-/// The grid's CRS with x first.
-pub(crate) fn grid_srs(grid: &GridSpec) -> Result<SpatialRef> {
-    if grid.crs_wkt.trim().is_empty() {
-        return wgs84();
-    }
-    let mut s = SpatialRef::from_wkt(&grid.crs_wkt).map_err(|e| Error::Crs {
-        what: "raster CRS".into(),
-        reason: e.to_string(),
-    })?;
-    s.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-    Ok(s)
-}
+// WGS84 and the grid's CRS come from the one CRS module.
+pub(crate) use crate::crs::{grid_srs, wgs84};
 
 impl ToLonLat {
     /// For `grid`.

@@ -27,7 +27,6 @@ pub mod criterion_b;
 mod eoo;
 mod extent;
 mod figures;
-mod hull_points;
 mod kdtree;
 mod laea;
 mod range;

@@ -6,7 +6,6 @@
 //! same grid, so the two AOOs compare.
 
 use super::figures::{figures, record_part, RecordPart};
-use super::hull_points::occupied_hull_points;
 use super::reach::{self, Corners};
 use super::structure::{patch_structure, StructureReport};
 use super::*;
@@ -99,10 +98,13 @@ fn metrics_of(
         .collect();
     let n_occ = occupied.iter().filter(|&&o| o).count();
     let area_km2 = |i: usize| patches[i].area_m2 / 1e6;
+    // The boundary corners of every patch, once: the hull's points and the distances.
+    let c = Corners::from_model(model)?;
+    clock.lap("boundary corners");
 
     if n_occ > 0 {
         let cell_km = opts.aoo_cell_km;
-        let hull_pts = occupied_hull_points(model, &occupied)?;
+        let hull_pts = c.lonlat_of(|p| occupied[p]);
         clock.lap("modelled hull points");
         let aoo_fig = super::aoo_runs::count_runs(
             model,
@@ -135,8 +137,6 @@ fn metrics_of(
         );
     }
 
-    let c = Corners::from_model(model)?;
-    clock.lap("boundary corners");
     let near = reach::nearest(&c, |_| true);
     clock.lap("nearest patch");
     let near_occ = reach::nearest(&c, |p| occupied[p]);

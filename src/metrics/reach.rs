@@ -188,6 +188,16 @@ impl Corners {
         })
     }
 
+    /// (lon, lat) of the corners of the patches `keep` selects (by index): the points the
+    /// modelled EOO hull is built from, when `keep` selects the occupied patches.
+    pub(crate) fn lonlat_of(&self, keep: impl Fn(usize) -> bool) -> Vec<(f64, f64)> {
+        (0..self.n())
+            .filter(|&p| keep(p))
+            .flat_map(|p| self.pts[self.start[p]..self.start[p + 1]].iter())
+            .map(|&(lat, lon)| (lon, lat))
+            .collect()
+    }
+
     fn n(&self) -> usize {
         self.start.len() - 1
     }

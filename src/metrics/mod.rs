@@ -30,6 +30,7 @@ mod figures;
 mod kdtree;
 mod laea;
 mod range;
+mod geodesics;
 mod reach;
 mod structure;
 #[cfg(test)]

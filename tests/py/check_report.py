@@ -13,7 +13,9 @@ antimeridian; a 4000 x 2000 grid holding a single class-1 cell.
   colour, and at least 85% of the pixels (overlays cover the rest) must be exactly the
   expected colour. The single class-1 cell must be visible, in its colour, on its pixel.
 - Headless Chromium (Debian's `chromium`, driven by Playwright) opens each report.html: no
-  page errors or console errors, every image decodes, the page has its charts, and a
+  page errors or console errors, nothing fetched, every image decodes, the page has its
+  charts, the one embedded font face loads and the body, the command line and every chart
+  label use it, and a
   full-page screenshot is taken (into --shots DIR; with --update-docs the demo's goes to
   docs/report-demo.png).
 
@@ -194,6 +196,20 @@ def check_in_chromium(pages):
             widths = page.evaluate("""() => Promise.all([...document.images].map(i =>
                 i.decode().then(() => i.naturalWidth, () => 0)))""")
             svgs = page.evaluate("() => document.querySelectorAll('svg').length")
+            # The embedded font (CSS Font Loading API, W3C): loaded from the page itself, and
+            # the family every chart label and the body text compute to.
+            fonts = page.evaluate("""async () => { await document.fonts.ready;
+                const faces = [...document.fonts].map(f => [f.family, f.status]);
+                const fam = t => getComputedStyle(t).fontFamily;
+                return {faces, labels: [...document.querySelectorAll('svg text')].map(fam),
+                        body: fam(document.body), pre: [...document.querySelectorAll('pre')].map(fam)}; }""")
+            faces = fonts["faces"]
+            check(len(faces) == 1 and faces[0][1] == "loaded", f"{name}: embedded font faces {faces}")
+            family = faces[0][0].strip('"') if faces else None
+            check(fonts["labels"] and all(f.strip('"') == family for f in fonts["labels"]),
+                  f"{name}: chart labels in {set(fonts['labels'])}, not {family}")
+            check(fonts["body"].split(",")[0].strip('"') == family, f"{name}: body text in {fonts['body']}")
+            check(all(f.split(",")[0].strip('"') == family for f in fonts["pre"]), f"{name}: command line in {fonts['pre']}")
             check(not errors, f"{name}: Chromium reported {errors}")
             check(len(widths) >= 1 and all(w > 0 for w in widths), f"{name}: images decoded {widths}")
             check(svgs >= 2, f"{name}: {svgs} inline SVG charts")

@@ -106,10 +106,14 @@ pub fn page(data: &ReportData, map: &MapPng, image: &ClassImage, title: &str) ->
     let b64 = base64::engine::general_purpose::STANDARD.encode(&map.png);
     let w = image.window;
     h += "<h2>Map</h2>\n";
+    // Where the map's parts are, for checks from outside: the class panel, the window of the
+    // grid it shows, the scale bar (km, PNG pixels) and the graticule step (degrees).
+    let (bar_km, bar_px) = map.scale_bar.unwrap_or((f64::NAN, f64::NAN));
     h += &format!(
         "<img id=\"map\" src=\"data:image/png;base64,{b64}\" alt=\"map of the range classes, M and the records\" \
-         data-panel=\"{},{},{},{}\" data-scale=\"{}\" data-window=\"{},{},{},{},{}\">\n",
-        map.panel[0], map.panel[1], map.panel[2], map.panel[3], map.scale, w.col0, w.row0, w.cols, w.rows, w.factor
+         data-panel=\"{},{},{},{}\" data-scale=\"{}\" data-window=\"{},{},{},{},{}\" data-scalebar=\"{bar_km},{bar_px}\" data-graticule=\"{}\">\n",
+        map.panel[0], map.panel[1], map.panel[2], map.panel[3], map.scale, w.col0, w.row0, w.cols, w.rows, w.factor,
+        map.graticule_step.unwrap_or(f64::NAN)
     );
     h += &format!(
         "<p class=\"note\">Each map pixel shows blocks of {f} x {f} raster cells; a block shows the highest of: suitable inside M, suitable beyond M, below threshold, no data, so a patch of one cell stays visible. \

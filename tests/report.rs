@@ -335,8 +335,23 @@ fn classes_tif_has_internal_overviews_that_keep_a_one_cell_patch() {
     assert!(!out.join("classes.tif.ovr").exists());
 }
 
+/// Every file in `dir` with its bytes (empty when `dir` is missing).
+fn contents(dir: &Path) -> Vec<(PathBuf, Vec<u8>)> {
+    let mut v: Vec<(PathBuf, Vec<u8>)> = std::fs::read_dir(dir)
+        .into_iter()
+        .flatten()
+        .map(|d| d.unwrap().path())
+        .map(|p| (p.clone(), std::fs::read(&p).unwrap_or_default()))
+        .collect();
+    v.sort();
+    v
+}
+
 fn report_fails(dir: &Path, expect_in_message: &str) {
+    let (existed, before) = (dir.exists(), contents(dir));
     let o = run(&["report", dir.to_str().unwrap()]);
+    assert_eq!(dir.exists(), existed, "the folder was made or removed");
+    assert!(contents(dir) == before, "a file in the folder changed");
     let e = stderr(&o);
     assert_eq!(o.status.code(), Some(3), "{e}");
     assert!(e.starts_with("areal: error: "), "{e}");

@@ -23,7 +23,7 @@ LAEA Europe, EPSG:3035) with classes 1, 2, nodata and a one-cell patch in the fr
   page errors or console errors, nothing fetched, every image decodes, the page has its
   charts, the one embedded font face loads and the body, the command line and every chart
   label use it, and a
-  full-page screenshot is taken (into --shots DIR; with --update-docs the demo's goes to
+  full-page screenshot is taken (kept in --shots DIR; with --update-docs the demo's goes to
   docs/report-demo.png).
 
 Usage: python tests/py/check_report.py [path/to/areal] [--shots DIR] [--update-docs]
@@ -350,7 +350,7 @@ def check_report_again(name, out):
         check(open(os.path.join(out, f), "rb").read() == before, f"{name}: areal report DIR wrote another {f}")
 
 
-def check_in_chromium(pages):
+def check_in_chromium(pages, shots):
     from playwright.sync_api import sync_playwright
 
     with sync_playwright() as p:
@@ -383,14 +383,14 @@ def check_in_chromium(pages):
             check(not errors, f"{name}: Chromium reported {errors}")
             check(len(widths) >= 1 and all(w > 0 for w in widths), f"{name}: images decoded {widths}")
             check(svgs >= 2, f"{name}: {svgs} inline SVG charts")
-            if SHOTS:
-                os.makedirs(SHOTS, exist_ok=True)
-                shot = os.path.join(SHOTS, re.sub(r"[^a-z0-9]+", "-", name.lower()) + ".png")
-                page.screenshot(path=shot, full_page=True)
-                Image.open(shot).load()
-                check(os.path.getsize(shot) > 10000, f"{name}: screenshot written")
-                if UPDATE_DOCS and name == "demo":
-                    shutil.copy(shot, os.path.join(ROOT, "docs", "report-demo.png"))
+            # The full-page screenshot, always taken (kept with --shots DIR).
+            os.makedirs(shots, exist_ok=True)
+            shot = os.path.join(shots, re.sub(r"[^a-z0-9]+", "-", name.lower()) + ".png")
+            page.screenshot(path=shot, full_page=True)
+            Image.open(shot).load()
+            check(os.path.getsize(shot) > 10000, f"{name}: screenshot written")
+            if UPDATE_DOCS and name == "demo":
+                shutil.copy(shot, os.path.join(ROOT, "docs", "report-demo.png"))
             page.close()
         b.close()
 
@@ -402,7 +402,7 @@ def main():
             check_map(name, out, one)
             check_report_again(name, out)
         pages = {k: v for k, v in cases.items() if not k.startswith("one")}
-        check_in_chromium(pages)
+        check_in_chromium(pages, SHOTS or os.path.join(tmp, "shots"))
     print(f"{passed} passed, {failed} failed")
     sys.exit(1 if failed else 0)
 

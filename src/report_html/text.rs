@@ -1,10 +1,35 @@
-//! Text on the map, drawn with the font shipped in `assets/fonts` (DejaVu Sans; licence in
-//! `assets/fonts/LICENSE-DejaVu.txt`), never one from the system.
+//! The report's one font: DejaVu Sans, shipped in `assets/fonts` (unmodified; licence in
+//! `assets/fonts/LICENSE-DejaVu.txt`), never one from the system. The map's text is drawn
+//! with it here; the page embeds the same file once as a base64 `@font-face` ([`css_face`])
+//! under [`FAMILY`], which the page's CSS and the charts' SVG `<text>` name, and the charts
+//! are laid out with its metrics ([`register_for_charts`]).
 
 use ab_glyph::{point, Font, FontRef, PxScale, ScaleFont};
+use base64::Engine as _;
 use tiny_skia::Pixmap;
 
 static TTF: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
+
+/// The family name the page gives the embedded font (a CSS identifier, no quotes needed).
+pub const FAMILY: &str = "areal-dejavu-sans";
+
+/// The CSS `@font-face` rule embedding the font in the page (a `data:` URL, nothing fetched).
+pub fn css_face() -> String {
+    format!(
+        "@font-face{{font-family:{FAMILY};font-style:normal;font-weight:400;src:url(data:font/ttf;base64,{}) format(\"truetype\")}}",
+        base64::engine::general_purpose::STANDARD.encode(TTF)
+    )
+}
+
+/// Makes the font known to plotters under [`FAMILY`], so the charts measure their labels
+/// with it (idempotent).
+pub fn register_for_charts() {
+    static ONCE: std::sync::Once = std::sync::Once::new();
+    ONCE.call_once(|| {
+        plotters::style::register_font(FAMILY, plotters::style::FontStyle::Normal, TTF)
+            .unwrap_or_else(|_| panic!("the bundled DejaVu Sans parses"));
+    });
+}
 
 fn font() -> FontRef<'static> {
     FontRef::try_from_slice(TTF).expect("the bundled DejaVu Sans parses")

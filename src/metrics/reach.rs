@@ -304,6 +304,7 @@ impl Candidates {
 
     fn offer(&mut self, c: &Corners, i: usize, j: usize) {
         let (a, b) = (c.pts[i], c.pts[j]);
+        // |λ2 - λ1| reduced to [0°, 180°].
         let mut dl = (b.1 - a.1).abs();
         if dl > 180.0 {
             dl = (dl - 360.0 * (dl / 360.0).round()).abs();

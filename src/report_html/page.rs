@@ -87,19 +87,8 @@ pub fn page(data: &ReportData, map: &MapPng, image: &ClassImage, title: &str) ->
         .pointer("/threshold/value")
         .and_then(Value::as_f64)
         .unwrap_or(f64::NAN);
-    let mut h = String::new();
-    h += "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n";
-    h += "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n";
-    h += &format!("<title>{}</title>\n", escape(title));
-    h += "<style>\n";
-    h += &text::css_face();
-    h += &format!("\nbody{{font-family:{},sans-serif;", text::FAMILY);
-    h += "max-width:980px;margin:1em auto;padding:0 1em;color:#000;line-height:1.4}\n\
-          h1{font-size:1.5em}h2{font-size:1.2em;margin-top:1.6em;border-bottom:1px solid #ccc}\n\
-          img,svg{max-width:100%;height:auto}\n.caution{background:#fff6e0;border-left:4px solid #E69F00;padding:.4em .8em}\n\
-          table.figures{border-collapse:collapse;width:100%}table.figures td,table.figures th{border-bottom:1px solid #ddd;padding:.25em .5em;text-align:left;vertical-align:top}\n\
-          table.figures th{background:#f2f2f2}table.figures td:first-child{width:34%}\n.num{font-variant-numeric:tabular-nums}\npre{font-family:inherit;white-space:pre-wrap;background:#f6f6f6;padding:.5em}\n.note{color:#555;font-size:.92em}\n</style>\n";
-    h += "</head>\n<body>\n";
+    // The body first: the embedded font holds only the characters of its text.
+    let mut h = String::from("<body>\n");
     h += &format!("<h1>{}</h1>\n", escape(title));
     h += "<p class=\"caution\">Model-based estimates: every area below inherits the errors of the suitability model, the records, the threshold and the accessible area M. E is chosen before looking at the results. Any threat assessment belongs to the responsible authority and its reviewers.</p>\n";
     // Map.
@@ -196,12 +185,27 @@ pub fn page(data: &ReportData, map: &MapPng, image: &ClassImage, title: &str) ->
         );
     }
     h += &format!(
-        "<p class=\"note\">areal <span id=\"version\">{}</span>. Text in DejaVu Sans (Bitstream Vera licence; shipped with areal and embedded in this page). Colours: {}.</p>\n",
+        "<p class=\"note\">areal <span id=\"version\">{}</span>. Text in DejaVu Sans (Bitstream Vera licence; shipped with areal, its glyphs for this page's text embedded in it). Colours: {}.</p>\n",
         escape(&version),
         escape(palette::SOURCE)
     );
     h += "</body>\n</html>\n";
-    Ok(h)
+    // The title's <title> copy shows in the browser's own font; its <h1> copy is in `h`.
+    let face = text::css_face(&text::page_chars(&h))?;
+    let mut head = String::new();
+    head += "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n";
+    head += "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n";
+    head += &format!("<title>{}</title>\n", escape(title));
+    head += "<style>\n";
+    head += &face;
+    head += &format!("\nbody{{font-family:{},sans-serif;", text::FAMILY);
+    head += "max-width:980px;margin:1em auto;padding:0 1em;color:#000;line-height:1.4}\n\
+          h1{font-size:1.5em}h2{font-size:1.2em;margin-top:1.6em;border-bottom:1px solid #ccc}\n\
+          img,svg{max-width:100%;height:auto}\n.caution{background:#fff6e0;border-left:4px solid #E69F00;padding:.4em .8em}\n\
+          table.figures{border-collapse:collapse;width:100%}table.figures td,table.figures th{border-bottom:1px solid #ddd;padding:.25em .5em;text-align:left;vertical-align:top}\n\
+          table.figures th{background:#f2f2f2}table.figures td:first-child{width:34%}\n.num{font-variant-numeric:tabular-nums}\npre{font-family:inherit;white-space:pre-wrap;background:#f6f6f6;padding:.5em}\n.note{color:#555;font-size:.92em}\n</style>\n";
+    head += "</head>\n";
+    Ok(head + &h)
 }
 
 /// The figures table.

@@ -49,6 +49,7 @@ from rasterio.warp import transform
 ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 args = [a for a in sys.argv[1:] if not a.startswith("--")]
 AREAL = args[0] if args else os.path.join(ROOT, "target", "release", "areal")
+AREAL = os.path.abspath(AREAL) if os.sep in AREAL else AREAL  # the demo runs from ROOT
 SHOTS = sys.argv[sys.argv.index("--shots") + 1] if "--shots" in sys.argv else None
 UPDATE_DOCS = "--update-docs" in sys.argv
 
@@ -64,8 +65,8 @@ def check(ok, what):
         print("FAIL:", what)
 
 
-def run(cmd):
-    p = subprocess.run([AREAL] + cmd, capture_output=True, text=True)
+def run(cmd, cwd=None):
+    p = subprocess.run([AREAL] + cmd, capture_output=True, text=True, cwd=cwd)
     if p.returncode != 0:
         raise SystemExit(f"areal {' '.join(cmd)} failed: {p.stderr}")
 
@@ -87,12 +88,12 @@ def write_records(path, pts):
 
 def make_cases(tmp):
     cases = {}
-    # 1. The demo.
+    # 1. The demo, run from the repository's root as scripts/demo.sh runs it, so the page's
+    #    command line (and docs/report-demo.png) reads demo-data/... and no machine's folders.
     out = os.path.join(tmp, "demo")
-    run(["range", "--suitability", os.path.join(ROOT, "demo-data/suitability.tif"),
-         "--records", os.path.join(ROOT, "demo-data/records.csv"), "--omission", "5",
-         "--accessible", os.path.join(ROOT, "demo-data/accessible.geojson"), "--gap-km", "20",
-         "--out", out, "--quiet"])
+    run(["range", "--suitability", "demo-data/suitability.tif", "--records",
+         "demo-data/records.csv", "--omission", "5", "--accessible", "demo-data/accessible.geojson",
+         "--gap-km", "20", "--out", out, "--quiet"], cwd=ROOT)
     cases["demo"] = (out, None)
     # 2. A global grid wrapping the globe: a suitable blob centred on 180 degrees, 10N,
     #    an 'ocean' of nodata in the south, records in the blob, M a 900 km buffer.
@@ -380,6 +381,11 @@ def check_in_chromium(pages, shots):
                   f"{name}: chart labels in {set(fonts['labels'])}, not {family}")
             check(fonts["body"].split(",")[0].strip('"') == family, f"{name}: body text in {fonts['body']}")
             check(all(f.split(",")[0].strip('"') == family for f in fonts["pre"]), f"{name}: command line in {fonts['pre']}")
+            # The fonts Chromium drew each node's text with, ::marker pseudo-elements included
+            # (Chrome DevTools Protocol, CSS.getPlatformFontsForNode): the embedded face alone,
+            # so no character of the page fell back to a system font for want of a glyph.
+            drawn = drawn_fonts(page)
+            check(drawn and all(custom for _, custom in drawn), f"{name}: text drawn in {drawn}")
             check(not errors, f"{name}: Chromium reported {errors}")
             check(len(widths) >= 1 and all(w > 0 for w in widths), f"{name}: images decoded {widths}")
             check(svgs >= 2, f"{name}: {svgs} inline SVG charts")
@@ -393,6 +399,24 @@ def check_in_chromium(pages, shots):
                 shutil.copy(shot, os.path.join(ROOT, "docs", "report-demo.png"))
             page.close()
         b.close()
+
+
+def drawn_fonts(page):
+    """{(family, is the page's own face): glyphs drawn} over every node of the page."""
+    cdp = page.context.new_cdp_session(page)
+    cdp.send("DOM.enable")
+    cdp.send("CSS.enable")
+    stack, used = [cdp.send("DOM.getDocument", {"depth": -1})["root"]], {}
+    while stack:
+        node = stack.pop()
+        stack += node.get("children", []) + node.get("pseudoElements", [])
+        if node.get("nodeType") != 1:
+            continue
+        for f in cdp.send("CSS.getPlatformFontsForNode", {"nodeId": node["nodeId"]})["fonts"]:
+            key = (f["familyName"], f["isCustomFont"])
+            used[key] = used.get(key, 0) + f["glyphCount"]
+    cdp.detach()
+    return used
 
 
 def main():

@@ -182,9 +182,15 @@ mod tests {
             let exact: f64 = g.inverse(a.0, a.1, b.0, b.1);
             let (xa, xb) = (ecef(a.0, a.1), ecef(b.0, b.1));
             let lb = ball_bound(a, b, &xa, &xb);
-            assert!(lb <= exact, "{a:?} {b:?}: bound {lb} above geodesic {exact}");
+            assert!(
+                lb <= exact,
+                "{a:?} {b:?}: bound {lb} above geodesic {exact}"
+            );
             if exact < 1.0e7 && exact > 1.0 {
-                assert!(lb > exact * 0.998, "{a:?} {b:?}: bound {lb}, geodesic {exact}");
+                assert!(
+                    lb > exact * 0.998,
+                    "{a:?} {b:?}: bound {lb}, geodesic {exact}"
+                );
             }
             // The chord, up to the rounding margin `search_bound` allows.
             let chord = d2(&xa, &xb).sqrt();

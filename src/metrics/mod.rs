@@ -27,10 +27,10 @@ pub mod criterion_b;
 mod eoo;
 mod extent;
 mod figures;
+mod geodesics;
 mod kdtree;
 mod laea;
 mod range;
-mod geodesics;
 mod reach;
 mod structure;
 #[cfg(test)]

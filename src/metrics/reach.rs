@@ -415,3 +415,36 @@ pub(crate) fn reach(c: &Corners, start: impl Fn(usize) -> bool, gap_km: f64) -> 
     }
     jumps
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // Which pairs the candidate list keeps (no outside source: the rule itself, by hand).
+    #[test]
+    fn candidates_keep_the_pairs_nearest_in_longitude_per_pair_of_latitudes() {
+        // Query corner 0 at (10, 0); targets on latitude 40 at lon 5, -3 and 3 + 1e-12, and
+        // one on latitude 41 at lon 30.
+        let pts = vec![
+            (10.0, 0.0),
+            (40.0, 5.0),
+            (40.0, -3.0),
+            (40.0, 3.0 + 1e-12),
+            (41.0, 30.0),
+        ];
+        let c = Corners {
+            xyz: pts.iter().map(|&(la, lo)| ecef(la, lo)).collect(),
+            pts,
+            label: vec![0, 1, 1, 1, 1],
+            start: vec![0, 1, 5],
+        };
+        let mut kept = Candidates::default();
+        for j in 1..5 {
+            kept.offer(&c, 0, j);
+        }
+        let mut got: Vec<(u32, u32)> = kept.kept().collect();
+        got.sort();
+        // Latitude 40: lon -3 and 3 + 1e-12 tie within SAME_LON_DIFF, lon 5 is dropped.
+        assert_eq!(got, [(0, 2), (0, 3), (0, 4)]);
+    }
+}

@@ -71,7 +71,15 @@ fn nearest_equals_brute_force_near_and_far() {
         let n = model.patches().len();
         assert!(n > 5, "seed {seed}: {n} patches");
         let occupied = |p: usize| model.patches()[p].records > 0;
-        assert_eq!(nearest(&c, |_| true), brute_force(&c, n, |_| true), "seed {seed}");
-        assert_eq!(nearest(&c, occupied), brute_force(&c, n, occupied), "seed {seed}");
+        assert_eq!(
+            nearest(&c, |_| true),
+            brute_force(&c, n, |_| true),
+            "seed {seed}"
+        );
+        assert_eq!(
+            nearest(&c, occupied),
+            brute_force(&c, n, occupied),
+            "seed {seed}"
+        );
     }
 }

@@ -81,6 +81,16 @@ pub(crate) fn geographic_base(srs: &SpatialRef, what: &str) -> Result<SpatialRef
     Ok(traditional(base))
 }
 
+/// A parameter of a projected CRS's projection as GDAL stores it (e.g. "central_meridian"), or
+/// `None` when the CRS has no such parameter.
+pub(crate) fn proj_parm(srs: &SpatialRef, name: &str) -> Option<f64> {
+    let c = std::ffi::CString::new(name).ok()?;
+    let mut err = 0;
+    // SAFETY: live handle, local out-pointer.
+    let v = unsafe { gdal_sys::OSRGetProjParm(srs.to_c_hsrs(), c.as_ptr(), f64::NAN, &mut err) };
+    (err == 0 && v.is_finite()).then_some(v)
+}
+
 /// A transform between two spatial references, named `what` in errors.
 pub(crate) fn transform(src: &SpatialRef, dst: &SpatialRef, what: &str) -> Result<CoordTransform> {
     CoordTransform::new(src, dst).map_err(crs_err(what))

@@ -1,5 +1,6 @@
-//! The one place that builds GDAL spatial references: WGS84, the grid's CRS, the axis order,
-//! and the transform from grid pixels to WGS84 lon/lat.
+//! The one place that builds GDAL spatial references and transforms: WGS84, the grid's CRS, a
+//! CRS the user types, a projected CRS's geographic base, the axis order, and the transform from
+//! grid coordinates to WGS84 lon/lat.
 //!
 //! Every `SpatialRef` here has the traditional GIS axis order (x = longitude or easting), so
 //! no caller has to think about EPSG:4326's official latitude-first order.
@@ -19,6 +20,26 @@ fn crs_err(what: &str) -> impl Fn(gdal::errors::GdalError) -> Error + '_ {
 pub(crate) fn traditional(mut srs: SpatialRef) -> SpatialRef {
     srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
     srs
+}
+
+/// A CRS as the user typed it (EPSG code, WKT, PROJ string, ...), x first. `what` names where
+/// the text came from (an option such as "--records-crs", or a file), for errors.
+pub(crate) fn from_definition(text: &str, what: &str) -> Result<SpatialRef> {
+    let def = text.trim();
+    if def.is_empty() {
+        return Err(Error::Crs {
+            what: what.into(),
+            reason: "empty CRS; give one such as EPSG:4326".into(),
+        });
+    }
+    let srs = SpatialRef::from_definition(def).map_err(|e| Error::Crs {
+        what: what.into(),
+        reason: format!(
+            "'{def}' is not a CRS GDAL/PROJ understands ({e}); give one such as EPSG:4326, \
+             a WKT string or a PROJ string"
+        ),
+    })?;
+    Ok(traditional(srs))
 }
 
 /// WGS84 lon/lat (EPSG:4326), x = longitude.
@@ -42,9 +63,32 @@ pub(crate) fn grid_srs(grid: &GridSpec) -> Result<SpatialRef> {
         }
         return wgs84();
     }
-    Ok(traditional(
-        SpatialRef::from_wkt(&grid.crs_wkt).map_err(crs_err("raster CRS"))?,
-    ))
+    Ok(traditional(SpatialRef::from_wkt(&grid.crs_wkt).map_err(
+        |e| Error::Crs {
+            what: "raster CRS".into(),
+            reason: format!("GDAL cannot read the CRS WKT: {e}"),
+        },
+    )?))
+}
+
+/// The geographic CRS a projected `srs` is based on (its datum, lon/lat), x = longitude.
+/// `what` names `srs` in errors.
+pub(crate) fn geographic_base(srs: &SpatialRef, what: &str) -> Result<SpatialRef> {
+    let base = srs.geog_cs().map_err(|e| Error::Crs {
+        what: what.into(),
+        reason: format!("the projected CRS has no geographic base CRS: {e}"),
+    })?;
+    Ok(traditional(base))
+}
+
+/// A parameter of a projected CRS's projection as GDAL stores it (e.g. "central_meridian"), or
+/// `None` when the CRS has no such parameter.
+pub(crate) fn proj_parm(srs: &SpatialRef, name: &str) -> Option<f64> {
+    let c = std::ffi::CString::new(name).ok()?;
+    let mut err = 0;
+    // SAFETY: live handle, local out-pointer.
+    let v = unsafe { gdal_sys::OSRGetProjParm(srs.to_c_hsrs(), c.as_ptr(), f64::NAN, &mut err) };
+    (err == 0 && v.is_finite()).then_some(v)
 }
 
 /// A transform between two spatial references, named `what` in errors.

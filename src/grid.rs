@@ -74,7 +74,7 @@ impl GridSpec {
                 ),
             });
         }
-        let srs = crate::records::user_srs(crs, "crs")?;
+        let srs = crate::crs::from_definition(crs, "crs")?;
         let crs_wkt = srs.to_wkt().map_err(|e| crate::Error::Crs {
             what: "crs".into(),
             reason: format!("cannot export '{crs}' as WKT ({e})"),

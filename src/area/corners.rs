@@ -8,10 +8,10 @@
 //! projection's domain), makes the cell's area NaN; [`super::CellAreas::row`] turns that into an
 //! error.
 
-use super::crs::crs_err;
 use super::ellipsoid::Ellipsoid;
+use crate::crs::transform;
 use crate::{GridSpec, Result};
-use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
+use gdal::spatial_ref::{CoordTransform, SpatialRef};
 use geographiclib_rs::{Geodesic, PolygonArea, Winding};
 
 /// One horizontal edge line of the grid (a row boundary), densified, in lon/lat degrees.
@@ -52,22 +52,18 @@ pub(crate) fn segments_for(cell_m: f64) -> usize {
 
 impl Corners {
     pub(crate) fn new(grid: &GridSpec, srs: &SpatialRef, ell: &Ellipsoid) -> Result<Corners> {
-        let mut proj = srs.clone();
-        proj.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-        let mut geo = srs
-            .geog_cs()
-            .map_err(|e| crs_err(format!("the projected CRS has no geographic base CRS: {e}")))?;
-        geo.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-        let to_geo = CoordTransform::new(&proj, &geo).map_err(|e| {
-            crs_err(format!(
-                "PROJ cannot transform the CRS to its geographic base: {e}"
-            ))
-        })?;
-        let to_proj = CoordTransform::new(&geo, &proj).map_err(|e| {
-            crs_err(format!(
-                "PROJ cannot transform the geographic base to the CRS: {e}"
-            ))
-        })?;
+        let proj = crate::crs::traditional(srs.clone());
+        let geo = crate::crs::geographic_base(srs, "raster CRS")?;
+        let to_geo = transform(
+            &proj,
+            &geo,
+            "raster CRS to its geographic base (cell areas)",
+        )?;
+        let to_proj = transform(
+            &geo,
+            &proj,
+            "geographic base to the raster CRS (cell areas)",
+        )?;
         let rad_per_unit = geo.angular_units();
         let deg_per_unit = if (rad_per_unit / 1f64.to_radians() - 1.0).abs() < 1e-12 {
             1.0

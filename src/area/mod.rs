@@ -21,7 +21,7 @@ pub use ellipsoid::{authalic_q, lonlat_cell_area_m2, lonlat_cell_area_m2_on, Ell
 
 use crate::{GridSpec, Result};
 use crs::crs_err;
-use gdal::spatial_ref::{AxisMappingStrategy, SpatialRef};
+use gdal::spatial_ref::SpatialRef;
 
 /// How cell areas are obtained.
 #[derive(Debug, Clone, PartialEq)]
@@ -77,20 +77,13 @@ pub struct CellAreas {
     height: usize,
 }
 
-/// The grid's CRS, with traditional (x = lon/easting) axis order.
+/// The grid's CRS (`crate::crs::grid_srs`: traditional x = lon/easting axis order), checked for
+/// the area model; `None` for a lon/lat grid without a CRS.
 fn grid_srs(grid: &GridSpec) -> Result<Option<SpatialRef>> {
-    if grid.crs_wkt.trim().is_empty() {
-        if grid.geographic {
-            return Ok(None); // WGS 84 lon/lat by convention (GridSpec::lonlat)
-        }
-        return Err(crs_err(
-            "the grid is projected but carries no CRS; assign one \
-             (e.g. gdal_edit.py -a_srs EPSG:6933 FILE) and run again",
-        ));
+    if grid.crs_wkt.trim().is_empty() && grid.geographic {
+        return Ok(None); // WGS 84 lon/lat by convention (GridSpec::lonlat)
     }
-    let mut srs = SpatialRef::from_wkt(&grid.crs_wkt)
-        .map_err(|e| crs_err(format!("GDAL cannot read the CRS WKT: {e}")))?;
-    srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
+    let srs = crate::crs::grid_srs(grid)?;
     if srs.is_geographic() != grid.geographic {
         return Err(crs_err(format!(
             "the grid is marked {} but its CRS \"{}\" is {}",

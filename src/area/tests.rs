@@ -3,6 +3,7 @@
 
 use super::*;
 use crate::Error;
+use gdal::spatial_ref::AxisMappingStrategy;
 use geographiclib_rs::{Geodesic, PolygonArea, Winding};
 
 fn rel(a: f64, b: f64) -> f64 {

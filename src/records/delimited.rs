@@ -173,7 +173,7 @@ fn parse_coord(raw: &[u8], delimiter: u8) -> Coord {
 
 /// Read a delimited text file into raw points in the `--records-crs` CRS.
 pub(super) fn read(path: &Path, opts: &super::RecordOptions) -> Result<RawRecords> {
-    let srs = reproject::user_srs(&opts.crs, "--records-crs")?;
+    let srs = crate::crs::from_definition(&opts.crs, "--records-crs")?;
     let geographic = reproject::is_geographic_degrees(&srs);
     let file = std::fs::File::open(path).map_err(Error::input_io(path))?;
     let mut buf = BufReader::new(file);

@@ -9,7 +9,7 @@
 //! - The CRS is the layer's own (GeoJSON without a `crs` member is EPSG:4326); a layer
 //!   without one uses `--records-crs`, with a warning.
 
-use super::{reproject, RawPoint, RawRecords, DEFAULT_CRS};
+use super::{RawPoint, RawRecords, DEFAULT_CRS};
 use crate::{Error, Result};
 use gdal::vector::{geometry_type_flatten, Geometry, LayerAccess, OGRwkbGeometryType};
 use gdal::{Dataset, DatasetOptions, GdalOpenFlags};
@@ -64,7 +64,7 @@ pub(super) fn read(path: &Path, opts: &super::RecordOptions) -> Result<RawRecord
                 ));
             }
             (
-                reproject::traditional(s),
+                crate::crs::traditional(s),
                 format!("CRS of layer '{}'", layer.name()),
             )
         }
@@ -76,7 +76,7 @@ pub(super) fn read(path: &Path, opts: &super::RecordOptions) -> Result<RawRecord
                 opts.crs
             ));
             (
-                reproject::user_srs(&opts.crs, "--records-crs")?,
+                crate::crs::from_definition(&opts.crs, "--records-crs")?,
                 format!("--records-crs {}", opts.crs),
             )
         }

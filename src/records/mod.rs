@@ -22,7 +22,6 @@
 mod delimited;
 mod layer;
 mod reproject;
-pub(crate) use reproject::user_srs;
 #[cfg(test)]
 mod tests;
 #[cfg(test)]

@@ -1,45 +1,14 @@
-//! CRS handling for records: parse user CRS strings, and move single points from the
-//! records CRS to the raster CRS and to WGS84 longitude/latitude.
+//! CRS handling for records: move single points from the records CRS to the raster CRS and to
+//! WGS84 longitude/latitude.
 //!
-//! Every `SpatialRef` made or received here gets `TraditionalGisOrder` (x = easting or
-//! longitude); without it EPSG:4326 is read as (lat, lon) and the numbers come out wrong
+//! Every `SpatialRef` used here comes from `crate::crs` with `TraditionalGisOrder` (x = easting
+//! or longitude); without it EPSG:4326 is read as (lat, lon) and the numbers come out wrong
 //! without any error. Points go through PROJ one at a time, because one failing point makes
 //! a batch call fail as a whole.
 
-use crate::{Error, Result};
-use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
-
-/// Parse a CRS definition as typed by the user (EPSG code, WKT, PROJ string, ...).
-/// `what` names where the string came from, e.g. "--records-crs".
-pub(crate) fn user_srs(definition: &str, what: &str) -> Result<SpatialRef> {
-    let def = definition.trim();
-    if def.is_empty() {
-        return Err(Error::Crs {
-            what: what.to_string(),
-            reason: "empty CRS; give one such as EPSG:4326".into(),
-        });
-    }
-    let mut srs = SpatialRef::from_definition(def).map_err(|e| Error::Crs {
-        what: what.to_string(),
-        reason: format!(
-            "'{def}' is not a CRS GDAL/PROJ understands ({e}); give one such as EPSG:4326, \
-             a WKT string or a PROJ string"
-        ),
-    })?;
-    srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-    Ok(srs)
-}
-
-/// Force the traditional GIS axis order on a CRS read from a file.
-pub(crate) fn traditional(mut srs: SpatialRef) -> SpatialRef {
-    srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-    srs
-}
-
-/// WGS84 longitude/latitude, x = longitude.
-fn wgs84() -> Result<SpatialRef> {
-    user_srs("EPSG:4326", "WGS84 (EPSG:4326)")
-}
+use crate::crs::{from_definition, transform, wgs84};
+use crate::Result;
+use gdal::spatial_ref::{CoordTransform, SpatialRef};
 
 /// True for a geographic CRS whose angular unit is the degree.
 pub(crate) fn is_geographic_degrees(srs: &SpatialRef) -> bool {
@@ -74,23 +43,19 @@ impl Reprojector {
         let raster = if raster_crs.trim().is_empty() {
             wgs84()?
         } else {
-            user_srs(raster_crs, "raster CRS")?
-        };
-        let wgs = wgs84()?;
-        let fail = |target: &str| {
-            let label = records_label.to_string();
-            let target = target.to_string();
-            move |e: gdal::errors::GdalError| Error::Crs {
-                what: label,
-                reason: format!(
-                    "no transformation from the records CRS to the {target} ({e}); check the \
-                     records CRS"
-                ),
-            }
+            from_definition(raster_crs, "raster CRS")?
         };
         Ok(Reprojector {
-            to_raster: CoordTransform::new(records, &raster).map_err(fail("raster CRS"))?,
-            to_wgs84: CoordTransform::new(records, &wgs).map_err(fail("WGS84"))?,
+            to_raster: transform(
+                records,
+                &raster,
+                &format!("{records_label}: records CRS to the raster CRS"),
+            )?,
+            to_wgs84: transform(
+                records,
+                &wgs84()?,
+                &format!("{records_label}: records CRS to WGS84"),
+            )?,
         })
     }
 

@@ -3,8 +3,9 @@
 //! Both reuse the vector step's reader, polygonizer, lon/lat conversion and writer.
 
 use super::inputs::Table;
-use super::lonlat::{wgs84, ToLonLat};
+use super::lonlat::ToLonLat;
 use super::write::{write_gpkg, Geom, LayerData};
+use crate::crs::wgs84;
 use crate::model::RangeModel;
 use crate::patches::Connectivity;
 use crate::raster_io::class;

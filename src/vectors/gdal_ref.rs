@@ -6,7 +6,6 @@ use super::polygonize::{is_valid_quiet, polygons_of};
 use crate::patches::Connectivity;
 use crate::{Error, GridSpec, Result};
 use gdal::cpl::CslStringList;
-use gdal::spatial_ref::SpatialRef;
 use gdal::vector::{LayerAccess, LayerOptions, OGRFieldType, OGRwkbGeometryType, ToGdal};
 use gdal::DriverManager;
 use geo_types::{MultiPolygon, Polygon};
@@ -73,7 +72,7 @@ pub(crate) fn polygonize_labels(
     let srs = if grid.crs_wkt.trim().is_empty() {
         None
     } else {
-        Some(SpatialRef::from_wkt(&grid.crs_wkt).map_err(fail("(CRS)"))?)
+        Some(crate::crs::grid_srs(grid)?)
     };
     let mut pieces: Vec<Vec<Polygon<f64>>> = vec![Vec::new(); n_ids];
     {

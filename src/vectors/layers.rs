@@ -4,16 +4,17 @@
 //! `range.gpkg` (raster CRS), the GeoJSON files (lon/lat) and, when asked, the equal-area
 //! GeoPackage. The geometries of one CRS are made, written and dropped before the next.
 
-use super::crs::{choose, Target};
+use super::equal_area::{choose, Target};
 use super::geojson::write_geojson;
 use super::inputs::{Kind, SummaryFacts, Table, Value};
-use super::lonlat::{densify, grid_srs, wgs84, ToLonLat};
+use super::lonlat::{densify, ToLonLat};
 use super::parallels::lonlat_polygon;
 use super::polygonize::polygons_of;
 use super::source::{trace, RunSource};
 use super::trace::PixelPolygon;
 use super::write::{write_gpkg, Geom, LayerData};
 use super::{VectorOptions, VectorReport};
+use crate::crs::{grid_srs, transform, wgs84};
 use crate::raster_io::class;
 use crate::{Error, GridSpec, Result};
 use gdal::spatial_ref::CoordTransform;
@@ -172,10 +173,7 @@ pub(crate) fn build_and_write(
             centre_lon,
             ctx,
         )?;
-        let ct = CoordTransform::new(&w84, &srs).map_err(|e| Error::Crs {
-            what: "--vector-crs".into(),
-            reason: format!("no transformation from WGS84: {e}"),
-        })?;
+        let ct = transform(&w84, &srs, "--vector-crs (from WGS84 lon/lat)")?;
         let seg = if grid.geographic {
             grid.dx().max(grid.dy())
         } else {
@@ -281,12 +279,11 @@ impl Shapes {
         let to_native: Option<CoordTransform> = if grid.geographic {
             None
         } else {
-            Some(
-                CoordTransform::new(&wgs84()?, &grid_srs(grid)?).map_err(|e| Error::Crs {
-                    what: "raster CRS".into(),
-                    reason: format!("no transformation from WGS84 for the records: {e}"),
-                })?,
-            )
+            Some(transform(
+                &wgs84()?,
+                &grid_srs(grid)?,
+                "WGS84 lon/lat to the raster CRS (records layer)",
+            )?)
         };
         let west = grid.geo_transform[0];
         let recs = records

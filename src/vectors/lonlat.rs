@@ -16,6 +16,7 @@
 //! meridians, so every new vertex is an existing latitude on the cutting meridian.
 
 use super::polygonize::{is_valid_quiet, polygons_of};
+use crate::crs::{grid_srs, transform, wgs84};
 use crate::{Error, GridSpec, Result};
 use gdal::spatial_ref::CoordTransform;
 use gdal::vector::{Geometry, ToGdal};
@@ -32,24 +33,17 @@ pub(crate) struct ToLonLat {
     max_edge: f64,
 }
 
-// WGS84 and the grid's CRS come from the one CRS module.
-pub(crate) use crate::crs::{grid_srs, wgs84};
-
 impl ToLonLat {
     /// For `grid`.
     pub(crate) fn new(grid: &GridSpec) -> Result<Self> {
         let ct = if grid.geographic {
             None
         } else {
-            let src = grid_srs(grid)?;
-            Some(
-                CoordTransform::new(&src, &wgs84()?).map_err(|e| Error::Crs {
-                    what: "raster CRS".into(),
-                    reason: format!(
-                        "no transformation to WGS84 lon/lat for the vector outputs: {e}"
-                    ),
-                })?,
-            )
+            Some(transform(
+                &grid_srs(grid)?,
+                &wgs84()?,
+                "raster CRS to WGS84 lon/lat (vector outputs)",
+            )?)
         };
         Ok(ToLonLat {
             ct,

@@ -24,7 +24,7 @@
 //! See docs/vectors.md.
 
 mod batch_layer;
-mod crs;
+mod equal_area;
 #[cfg(test)]
 mod gdal_ref;
 mod geojson;
@@ -45,7 +45,7 @@ mod trace_tests;
 mod write;
 
 pub use batch_layer::{range_lonlat, write_table_gpkg};
-pub use crs::VectorCrs;
+pub use equal_area::VectorCrs;
 pub use write::GEOJSON_DECIMALS;
 
 use crate::access::AccessSpec;

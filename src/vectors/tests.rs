@@ -1,6 +1,6 @@
 //! Unit tests of the vector step's parts. Sources are named beside each check.
 
-use super::crs::{choose, VectorCrs};
+use super::equal_area::{choose, VectorCrs};
 use super::inputs::{Kind, Value};
 use super::lonlat::{split_at, unwrap_ring};
 use super::polygonize::is_valid_quiet;
@@ -13,7 +13,7 @@ use std::path::Path;
 
 fn wgs84_grid(width: usize, height: usize, west: f64, north: f64, cell: f64) -> GridSpec {
     let mut g = GridSpec::lonlat(width, height, west, north, cell);
-    g.crs_wkt = super::lonlat::wgs84().unwrap().to_wkt().unwrap();
+    g.crs_wkt = crate::crs::wgs84().unwrap().to_wkt().unwrap();
     g
 }
 

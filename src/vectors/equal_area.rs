@@ -12,11 +12,10 @@
 //! is meant for area work. Polygons are cut at the antimeridian of the CRS's central meridian
 //! (0 when the CRS gives none), so no part crosses the edge of the map.
 
-use super::lonlat::{grid_srs, wgs84};
 use crate::area::{AreaMethod, CellAreas};
+use crate::crs::{from_definition, grid_srs, proj_parm, transform, wgs84};
 use crate::{Error, GridSpec, Result};
-use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
-use std::ffi::CString;
+use gdal::spatial_ref::SpatialRef;
 
 /// Which equal-area CRS to write.
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -57,10 +56,11 @@ fn extent_lonlat(grid: &GridSpec) -> Result<[f64; 4]> {
     if grid.geographic {
         return Ok(b);
     }
-    let ct = CoordTransform::new(&grid_srs(grid)?, &wgs84()?).map_err(|e| Error::Crs {
-        what: "raster CRS".into(),
-        reason: format!("no transformation to WGS84 for the extent: {e}"),
-    })?;
+    let ct = transform(
+        &grid_srs(grid)?,
+        &wgs84()?,
+        "raster CRS to WGS84 lon/lat (extent, for the equal-area CRS)",
+    )?;
     ct.transform_bounds(&b, 21).map_err(|e| Error::Crs {
         what: "raster CRS".into(),
         reason: format!("the raster's extent has no WGS84 lon/lat: {e}"),
@@ -125,17 +125,10 @@ pub(crate) fn choose(spec: &VectorCrs, grid: &GridSpec) -> Result<Target> {
     }
 }
 
+/// `text` as a CRS; a CRS GDAL does not understand is a bad `--vector-crs` value.
 fn from_text(text: &str) -> Result<SpatialRef> {
-    let mut srs = SpatialRef::from_definition(text)
-        .map_err(|e| crs_err(format!("{text} is not a CRS GDAL understands: {e}")))?;
-    srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-    Ok(srs)
-}
-
-fn proj_parm(srs: &SpatialRef, name: &str) -> Option<f64> {
-    let c = CString::new(name).ok()?;
-    let mut err = 0;
-    // SAFETY: live handle, local out-pointer.
-    let v = unsafe { gdal_sys::OSRGetProjParm(srs.to_c_hsrs(), c.as_ptr(), f64::NAN, &mut err) };
-    (err == 0 && v.is_finite()).then_some(v)
+    from_definition(text, "--vector-crs").map_err(|e| match e {
+        Error::Crs { reason, .. } => crs_err(reason),
+        other => other,
+    })
 }

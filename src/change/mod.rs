@@ -232,6 +232,7 @@ pub fn run_change(
         inputs.push(p);
     }
     let dir = crate::output::OutputDir::prepare(out, overwrite, &inputs)?;
+    let mut clock = crate::progress::StageClock::new();
 
     // 1. The present run, its class rows kept as runs on their way to classes.tif.
     let classes_path = dir.file("classes.tif");
@@ -248,8 +249,10 @@ pub fn run_change(
     let present_runs = Arc::new(tee.runs);
     crate::styles::describe_classes(writer.dataset(), &classes_path, &result.summary)?;
     writer.close()?;
+    clock.lap("change: present pass");
     if opts.range.metrics.enabled {
         crate::metrics::add_range_metrics(&mut result, &model, &opts.range.metrics, false)?;
+        clock.lap("change: present metrics");
     }
     let t = result.summary.threshold.value;
 
@@ -287,18 +290,14 @@ pub fn run_change(
         .dispersal_km
         .map(|d| reach::ReachSpec::new(&grid, present_runs.clone(), d))
         .transpose()?;
-    let mut occupancy = if opts.range.metrics.enabled {
-        let recs = aoo_records(&result, opts.range.metrics.keep_dropped);
-        if recs.is_empty() || present_runs.range_cells() > occupancy::MAX_AOO_CELLS {
-            None
-        } else {
-            Some(occupancy::Occupancy::new(
-                &grid,
-                &recs,
-                opts.range.metrics.aoo_cell_km,
-                futures.len(),
-            )?)
-        }
+    // The futures' ranges as runs, for their modelled AOO (with the metrics and a record used).
+    let aoo_recs = aoo_records(&result, opts.range.metrics.keep_dropped);
+    let mut future_runs = if opts.range.metrics.enabled && !aoo_recs.is_empty() {
+        Some(
+            (0..futures.len())
+                .map(|_| occupancy::FutureRuns::new(&grid))
+                .collect::<Result<Vec<_>>>()?,
+        )
     } else {
         None
     };
@@ -319,38 +318,45 @@ pub fn run_change(
             },
             &mut sinks,
             agreement.as_mut().map(|a| a as &mut dyn RowSink),
-            occupancy.as_mut(),
+            future_runs.as_deref_mut(),
         )?
     };
+    clock.lap("change: futures pass");
     for w in writers {
         w.close_with_overviews()?;
     }
     if let Some(a) = agreement {
         a.close_with_overviews()?;
     }
+    clock.lap("change: change.tif overviews");
 
     // 3. Reports.
     let present_km2 = result.summary.area_km2.inside_accessible;
-    let aoo_note = if !opts.range.metrics.enabled {
-        None
-    } else if occupancy.as_ref().map_or(true, |o| o.overflow) {
-        Some(format!(
-            "modelled AOO of the present and future ranges left out: more than {} cells to count (or no record used); run on a coarser grid for it",
-            occupancy::MAX_AOO_CELLS
-        ))
-    } else {
-        None
-    };
-    let mut aoo_figs = occupancy.as_mut().filter(|o| !o.overflow).map(|o| {
-        let present = o.present.figures().min_km2();
+    let aoo_note = (opts.range.metrics.enabled && aoo_recs.is_empty()).then(|| {
+        "modelled AOO of the present and future ranges left out: no record is used, so the AOO grid has no centre".to_string()
+    });
+    let counted = future_runs
+        .map(|fr| {
+            occupancy::count(
+                &grid,
+                &aoo_recs,
+                opts.range.metrics.aoo_cell_km,
+                &present_runs,
+                &fr,
+            )
+        })
+        .transpose()?;
+    clock.lap("change: modelled AOO of the ranges");
+    let mut aoo_figs = counted.map(|o| {
+        let present = o.present.min_km2();
         let cell_km = o.cell_km;
         o.futures
-            .iter_mut()
+            .iter()
             .map(|[a, b, c]| {
                 let r = report::DispersalRules {
-                    no_dispersal: a.figures().min_km2(),
-                    limited_dispersal: b.figures().min_km2(),
-                    full_dispersal: c.figures().min_km2(),
+                    no_dispersal: a.min_km2(),
+                    limited_dispersal: b.min_km2(),
+                    full_dispersal: c.min_km2(),
                 };
                 ChangeAoo {
                     cell_km,
@@ -439,6 +445,7 @@ pub fn run_change(
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
     drop(model); // removes its spill file before the folder is committed
     dir.commit()?;
+    clock.lap("change: reports and commit");
     Ok(ChangeResult {
         summary,
         present: result,

@@ -15,6 +15,7 @@ mod pass;
 mod present;
 mod reach;
 mod report;
+mod report_files;
 #[cfg(test)]
 mod tests;
 
@@ -69,7 +70,7 @@ pub struct ChangeResult {
 
 /// Our own palette: pale stone unsuitable, dark green stable, brick red lost, sky blue
 /// gained within reach, lilac gained beyond reach (nodata transparent).
-const CHANGE_STYLES: [ClassStyle; 5] = [
+pub const CHANGE_STYLES: [ClassStyle; 5] = [
     ClassStyle {
         value: 0,
         name: code::NAMES[0],
@@ -237,8 +238,10 @@ pub fn run_change(
     // 1. The present run, its class rows kept as runs on their way to classes.tif.
     let classes_path = dir.file("classes.tif");
     let mut writer = ClassWriter::create(&classes_path, &grid)?;
+    // The report's map needs the present nodata, which the model does not hold.
+    let mut nodata_tee = crate::report_html::runs::NodataTee::new(&mut writer, grid.width);
     let mut tee = present::TeeSink {
-        inner: &mut writer,
+        inner: &mut nodata_tee,
         runs: present::PresentRuns::new(grid.width, grid.height),
     };
     let mut range_opts = opts.range.clone();
@@ -247,6 +250,7 @@ pub fn run_change(
     }
     let (mut result, model) = compute_range(present_path, records, &range_opts, &mut tee)?;
     let present_runs = Arc::new(tee.runs);
+    let present_nodata = nodata_tee.runs;
     crate::styles::describe_classes(writer.dataset(), &classes_path, &result.summary)?;
     writer.close()?;
     clock.lap("change: present pass");
@@ -301,6 +305,11 @@ pub fn run_change(
     } else {
         None
     };
+    let mut thumbs = opts.range.report.then(|| {
+        (0..futures.len())
+            .map(|_| crate::report_html::change::ChangeThumb::new(grid.width, grid.height))
+            .collect::<Vec<_>>()
+    });
     let totals = {
         let mut sinks: Vec<&mut dyn RowSink> =
             writers.iter_mut().map(|w| w as &mut dyn RowSink).collect();
@@ -319,6 +328,7 @@ pub fn run_change(
             &mut sinks,
             agreement.as_mut().map(|a| a as &mut dyn RowSink),
             future_runs.as_deref_mut(),
+            thumbs.as_deref_mut(),
         )?
     };
     clock.lap("change: futures pass");
@@ -443,6 +453,22 @@ pub fn run_change(
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&summary).expect("summary serialises");
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
+    if let Some(thumbs) = &thumbs {
+        let written = serde_json::to_value(&summary).expect("summary serialises");
+        let maps: Vec<PathBuf> = change_paths
+            .iter()
+            .map(|p| p.with_file_name("change-map.png"))
+            .collect();
+        report_files::write(
+            &dir,
+            &result,
+            &model,
+            &present_nodata,
+            written,
+            thumbs,
+            &maps,
+        )?;
+    }
     drop(model); // removes its spill file before the folder is committed
     dir.commit()?;
     clock.lap("change: reports and commit");

@@ -153,12 +153,13 @@ struct WorkerShared<'a> {
 
 /// Run the pass. `sinks[f]` receives future f's change rows, `agreement` the per-cell count of
 /// futures whose range (limited dispersal, or full without D) holds the cell, `future_runs[f]`
-/// future f's range as runs (for the modelled AOO).
+/// future f's range as runs (for the modelled AOO), `thumbs[f]` its decimated map (report).
 pub(crate) fn run_pass(
     inp: PassInput<'_>,
     sinks: &mut [&mut dyn RowSink],
     mut agreement: Option<&mut dyn RowSink>,
     mut future_runs: Option<&mut [FutureRuns]>,
+    mut thumbs: Option<&mut [crate::report_html::change::ChangeThumb]>,
 ) -> Result<Vec<FutureTotals>> {
     let grid = inp.grid;
     let (w, h) = (grid.width, grid.height);
@@ -287,6 +288,11 @@ pub(crate) fn run_pass(
                         for (fr, c) in runs.iter_mut().zip(&strip.codes) {
                             fr.take_row(row, &c[r * w..(r + 1) * w]);
                         }
+                    }
+                }
+                if let Some(t) = thumbs.as_deref_mut() {
+                    for (th, c) in t.iter_mut().zip(&strip.codes) {
+                        th.add_rows(y0, c);
                     }
                 }
                 for (f, sink) in sinks.iter_mut().enumerate() {

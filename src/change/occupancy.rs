@@ -10,7 +10,7 @@
 use super::pass::code;
 use super::present::PresentRuns;
 use crate::metrics::aoo::{self, AooFigures, AooGrid};
-use crate::metrics::aoo_runs::{count_rows, RowRuns};
+use crate::metrics::aoo_runs::{count_rows, RowRuns, RowVisit};
 use crate::{Error, GridSpec, Result};
 use std::ops::Range;
 
@@ -96,23 +96,20 @@ pub(crate) fn count(
 ) -> Result<RangeAoo> {
     let (lon0, lat0) = aoo::centre_of(records);
     let g = AooGrid::new(lon0, lat0, cell_km)?;
-    let present_rows =
-        |band: Range<usize>, f: &mut dyn FnMut(usize, &[(u32, u32)]) -> Result<()>| -> Result<()> {
-            for r in band {
-                if !present.range[r].is_empty() {
-                    f(r, &present.range[r])?;
-                }
+    let present_rows = |band: Range<usize>, f: &mut RowVisit| -> Result<()> {
+        for r in band {
+            if !present.range[r].is_empty() {
+                f(r, &present.range[r])?;
             }
-            Ok(())
-        };
+        }
+        Ok(())
+    };
     let present_fig = count_rows(grid, &g, &present_rows as &RowRuns)?;
     let mut out = Vec::with_capacity(futures.len());
     for fr in futures {
         let mut figs = Vec::with_capacity(3);
         for rule in 0..3u32 {
-            let rows = |band: Range<usize>,
-                        f: &mut dyn FnMut(usize, &[(u32, u32)]) -> Result<()>|
-             -> Result<()> {
+            let rows = |band: Range<usize>, f: &mut RowVisit| -> Result<()> {
                 let mut runs = Vec::new();
                 for r in band {
                     fr.runs(r, rule, &mut runs);

@@ -28,9 +28,13 @@ const BAND_ROWS: usize = 512;
 /// A range as column runs per row: `for_band(rows, f)` calls `f(row, runs)` for the rows in
 /// `rows`, in order, with half-open column runs `start..end` sorted by column (rows without
 /// runs may be left out). Called from several threads at once, one band each.
-pub(crate) type RowRuns<'a> = dyn Fn(Range<usize>, &mut dyn FnMut(usize, &[(u32, u32)]) -> Result<()>) -> Result<()>
-    + Sync
-    + 'a;
+pub(crate) type RowRuns<'a> = dyn Fn(Range<usize>, &mut RowVisit) -> Result<()> + Sync + 'a;
+
+/// What [`RowRuns`] calls for each row: `(row, runs)`.
+pub(crate) type RowVisit<'a> = dyn FnMut(usize, &[(u32, u32)]) -> Result<()> + 'a;
+
+/// What a band does with the projected centres of each row.
+type CentreRow<'a, S> = dyn Fn(&mut S, &[(f64, f64)]) + Sync + 'a;
 
 /// The AOO figures of the centres of the cells of the patches `keep` selects (by id), whose
 /// boundary corners are `extent_pts` (WGS84 lon/lat, for the bitmap's extent).
@@ -40,7 +44,7 @@ pub(crate) fn count_runs(
     keep: &(dyn Fn(u32) -> bool + Sync),
     extent_pts: &[(f64, f64)],
 ) -> Result<AooFigures> {
-    let rows = |band: Range<usize>, f: &mut dyn FnMut(usize, &[(u32, u32)]) -> Result<()>| {
+    let rows = |band: Range<usize>, f: &mut RowVisit| {
         let mut kept = Vec::new();
         model.for_rows(band, &mut |row, runs: &[Run]| {
             kept.clear();
@@ -146,7 +150,7 @@ fn for_band_centres<S>(
     aoo: &AooGrid,
     rows: &RowRuns,
     start: &(dyn Fn() -> S + Sync),
-    row_fn: &(dyn Fn(&mut S, &[(f64, f64)]) + Sync),
+    row_fn: &CentreRow<'_, S>,
     done: &(dyn Fn(S) + Sync),
 ) -> Result<()> {
     let h = grid.height;

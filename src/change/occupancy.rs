@@ -104,7 +104,9 @@ pub(crate) fn count(
         }
         Ok(())
     };
+    let mut clock = crate::progress::StageClock::new();
     let present_fig = count_rows(grid, &g, &present_rows as &RowRuns)?;
+    clock.lap("change: AOO of the present range");
     let mut out = Vec::with_capacity(futures.len());
     for fr in futures {
         let mut figs = Vec::with_capacity(3);
@@ -120,6 +122,7 @@ pub(crate) fn count(
                 Ok(())
             };
             figs.push(count_rows(grid, &g, &rows as &RowRuns)?);
+            clock.lap("change: AOO of a future range");
         }
         let [a, b, c]: [AooFigures; 3] = figs.try_into().expect("three rules");
         out.push([a, b, c]);

@@ -95,59 +95,64 @@ impl QuarterBitmap {
         true
     }
 
-    /// OR quarter row `r` into `or` (one word per 64 quarter columns); whether any bit was set.
-    fn or_row(&self, r: usize, or: &mut [u64]) -> bool {
-        let mut any = false;
-        let first = (r / TILE_ROWS) * self.tiles_x;
-        let at = (r % TILE_ROWS) * TILE_WORDS;
-        for (tx, slot) in self.tiles[first..first + self.tiles_x].iter().enumerate() {
-            let Some(tile) = slot.get() else { continue };
-            let words = &tile[at..at + TILE_WORDS];
-            for (o, w) in or[tx * TILE_WORDS..].iter_mut().zip(words) {
-                let w = w.load(Ordering::Relaxed);
-                *o |= w;
-                any |= w != 0;
-            }
-        }
-        any
-    }
-
     /// Occupied cells at each origin (x offset k, y offset l quarter cells: index 4k + l):
     /// a cell of origin (k, l) covers quarter cells a in 4X + k .. 4X + k + 3 and b likewise.
     pub(crate) fn per_origin(&self) -> Vec<usize> {
         let mut out = vec![0usize; 16];
-        // Whole tiles wide, so a tile's words always fit; the extra words stay 0.
-        let mut or = vec![0u64; self.tiles_x * TILE_WORDS];
+        // The allocated tiles of each tile row, by increasing column.
+        let touched: Vec<Vec<usize>> = self
+            .tiles
+            .chunks(self.tiles_x)
+            .map(|row| {
+                (0..row.len())
+                    .filter(|&tx| row[tx].get().is_some())
+                    .collect()
+            })
+            .collect();
+        let mut txs: Vec<usize> = Vec::new();
         for l in 0..4i64 {
             // Rows b with the same (b - l) div 4 form one grid row of origin (., l).
             let first = (self.b0 - l).div_euclid(4);
             let last = (self.b0 + self.rows as i64 - 1 - l).div_euclid(4);
             for yrow in first..=last {
-                or.iter_mut().for_each(|w| *w = 0);
-                let mut any = false;
-                for b in 4 * yrow + l..4 * yrow + l + 4 {
-                    let r = b - self.b0;
-                    if r < 0 || r >= self.rows as i64 {
-                        continue;
-                    }
-                    any |= self.or_row(r as usize, &mut or);
+                let rs: Vec<usize> = (4 * yrow + l..4 * yrow + l + 4)
+                    .map(|b| b - self.b0)
+                    .filter(|&r| r >= 0 && r < self.rows as i64)
+                    .map(|r| r as usize)
+                    .collect();
+                // The tile columns any of the four quarter rows has, in order.
+                txs.clear();
+                for ty in [rs[0] / TILE_ROWS, rs[rs.len() - 1] / TILE_ROWS] {
+                    txs.extend_from_slice(&touched[ty]);
                 }
-                if !any {
-                    continue;
-                }
+                txs.sort_unstable();
+                txs.dedup();
                 // Distinct grid columns among the set quarter columns, for each x offset.
                 let mut last_col = [i64::MIN; 4];
-                for (wi, &w) in or.iter().enumerate() {
-                    let mut w = w;
-                    while w != 0 {
-                        let bit = w.trailing_zeros() as i64;
-                        w &= w - 1;
-                        let a = self.a0 + wi as i64 * 64 + bit;
-                        for k in 0..4i64 {
-                            let x = (a - k).div_euclid(4);
-                            if x != last_col[k as usize] {
-                                last_col[k as usize] = x;
-                                out[(4 * k + l) as usize] += 1;
+                for &tx in &txs {
+                    let mut or = [0u64; TILE_WORDS];
+                    for &r in &rs {
+                        let Some(tile) = self.tiles[(r / TILE_ROWS) * self.tiles_x + tx].get()
+                        else {
+                            continue;
+                        };
+                        let at = (r % TILE_ROWS) * TILE_WORDS;
+                        for (o, w) in or.iter_mut().zip(&tile[at..at + TILE_WORDS]) {
+                            *o |= w.load(Ordering::Relaxed);
+                        }
+                    }
+                    for (j, &w) in or.iter().enumerate() {
+                        let mut w = w;
+                        while w != 0 {
+                            let bit = w.trailing_zeros() as i64;
+                            w &= w - 1;
+                            let a = self.a0 + ((tx * TILE_WORDS + j) * 64) as i64 + bit;
+                            for k in 0..4i64 {
+                                let x = (a - k).div_euclid(4);
+                                if x != last_col[k as usize] {
+                                    last_col[k as usize] = x;
+                                    out[(4 * k + l) as usize] += 1;
+                                }
                             }
                         }
                     }

@@ -16,3 +16,5 @@ fi
   .venv/bin/pip install -q --disable-pip-version-check pillow numpy rasterio playwright
 [ -x target/release/areal ] || cargo build --release --quiet
 .venv/bin/python tests/py/check_report.py target/release/areal "$@"
+# The change report of `areal change` (change map against change.tif, numbers, Chromium).
+.venv/bin/python tests/py/check_change_report.py target/release/areal

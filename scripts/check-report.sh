@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # The report in a real browser: installs Debian's chromium if missing (idempotent), Pillow,
 # numpy, rasterio and Playwright (PyPI, driving the Debian browser; `playwright install` is
-# never run) into .venv, then runs tests/py/check_report.py.
+# never run) into .venv, then runs tests/py/check_report.py and
+# tests/py/check_change_report.py.
 # Usage: bash scripts/check-report.sh [--shots DIR] [--update-docs]
 set -euo pipefail
 cd "$(dirname "$0")/.."

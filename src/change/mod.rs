@@ -254,11 +254,8 @@ pub fn run_change(
     crate::styles::describe_classes(writer.dataset(), &classes_path, &result.summary)?;
     writer.close()?;
     clock.lap("change: present pass");
-    if opts.range.metrics.enabled {
-        crate::metrics::add_range_metrics(&mut result, &model, &opts.range.metrics, false)?;
-        clock.lap("change: present metrics");
-    }
     let t = result.summary.threshold.value;
+    let whole = result.summary.accessible.whole_raster;
 
     // 2. The futures, in lockstep.
     let several = futures.len() > 1;
@@ -310,10 +307,19 @@ pub fn run_change(
             .map(|_| crate::report_html::change::ChangeThumb::new(grid.width, grid.height))
             .collect::<Vec<_>>()
     });
-    let totals = {
+    // The present run's metrics read only the model: they run on their own thread while the
+    // futures stream (the pass leaves a core partly idle on its consumer thread).
+    let (totals, metrics_done) = std::thread::scope(|scope| {
+        let metrics = opts.range.metrics.enabled.then(|| {
+            let (result, model) = (&mut result, &model);
+            scope.spawn(move || {
+                crate::metrics::add_range_metrics(result, model, &opts.range.metrics, false)
+                    .map(|_| ())
+            })
+        });
         let mut sinks: Vec<&mut dyn RowSink> =
             writers.iter_mut().map(|w| w as &mut dyn RowSink).collect();
-        pass::run_pass(
+        let totals = pass::run_pass(
             pass::PassInput {
                 grid: &grid,
                 present: &present_runs,
@@ -321,7 +327,7 @@ pub fn run_change(
                 t,
                 reach: reach.as_ref(),
                 model: &model,
-                whole: result.summary.accessible.whole_raster,
+                whole,
                 connectivity: opts.range.connectivity,
                 progress: &opts.range.progress,
             },
@@ -329,9 +335,13 @@ pub fn run_change(
             agreement.as_mut().map(|a| a as &mut dyn RowSink),
             future_runs.as_deref_mut(),
             thumbs.as_deref_mut(),
-        )?
-    };
-    clock.lap("change: futures pass");
+        );
+        let done = metrics.map(|h| h.join().unwrap_or_else(|p| std::panic::resume_unwind(p)));
+        (totals, done)
+    });
+    let totals = totals?;
+    metrics_done.transpose()?;
+    clock.lap("change: futures pass and present metrics");
     for w in writers {
         w.close_with_overviews()?;
     }

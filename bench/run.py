@@ -70,7 +70,7 @@ def main():
     ap.add_argument("--no-peer", action="store_true")
     ap.add_argument("--report-cost", action="store_true",
                     help="only measure what report.html, map.png and the classes.tif overviews add to a run")
-    ap.add_argument("--repeat", type=int, default=3, help="runs of each kind with --report-cost (fastest kept)")
+    ap.add_argument("--repeat", type=int, default=3, help="rounds with --report-cost (median and fastest shown)")
     a = ap.parse_args()
     if a.report_cost:
         return report_cost(a)
@@ -125,44 +125,53 @@ def main():
 def report_cost(a):
     """The report (report.html, map.png) and the classes.tif overviews as a share of the run.
 
-    Side by side on the polygon-M input, alternating, fastest of --repeat kept: areal as
-    shipped, areal --no-report, and areal --no-report with AREAL_CLASS_OVERVIEWS=0 (no
-    overviews): the run without both."""
-    lines = ["| size | areal s | --no-report s | --no-report, no overviews s | report s | overviews s | "
-             "(report + overviews) / run without them | CPU s: areal / without both | CPU ratio | "
-             "peak RSS MB: areal / without both |",
-             "|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|"]
+    Side by side on the polygon-M input, alternating round by round, --repeat rounds: areal
+    as shipped, areal --no-report, and areal --no-report with AREAL_CLASS_OVERVIEWS=0 (no
+    overviews): the run without both. Wall and CPU (user + system) seconds are given as the
+    median over the rounds and the fastest; the load average before and after is printed,
+    as other work on the machine moves wall times by more than the report costs."""
+    lines = ["| size | kind | wall s, median (fastest) | CPU s, median (fastest) | peak RSS MB |",
+             "|---|---|---:|---:|---:|"]
     env = dict(os.environ)
     env.setdefault("GDAL_CACHEMAX", "32")
     bare_env = dict(env, AREAL_CLASS_OVERVIEWS="0")
+    load0 = os.getloadavg()
+    summary = []
     for size in a.sizes.split(","):
         prefix = ensure_inputs(size)
         tif, occ, m = prefix + ".tif", prefix + ".occ.csv", prefix + ".m.geojson"
         base = [AREAL, "range", "--suitability", tif, "--records", occ, "--omission", "5",
                 "--accessible", m, "--no-metrics", "--overwrite", "--quiet"]
-        kinds = [("full", base, env), ("noreport", base + ["--no-report"], env),
-                 ("bare", base + ["--no-report"], bare_env)]
-        best = {k: float("inf") for k, _, _ in kinds}
-        cpu = {k: float("inf") for k, _, _ in kinds}
+        kinds = [("areal as shipped", base, env), ("--no-report", base + ["--no-report"], env),
+                 ("--no-report, no overviews", base + ["--no-report"], bare_env)]
+        wall = {k: [] for k, _, _ in kinds}
+        cpu = {k: [] for k, _, _ in kinds}
         rss = {k: 0.0 for k, _, _ in kinds}
         for _ in range(a.repeat):
-            for k, cmd, e in kinds:
-                ok, s, mb, _, tail = timed(cmd + ["--out", os.path.join(DATA, f"out-{size}-{k}")], env=e)
+            for i, (k, cmd, e) in enumerate(kinds):
+                ok, s, mb, _, tail = timed(cmd + ["--out", os.path.join(DATA, f"out-{size}-cost{i}")], env=e)
                 if not ok:
                     sys.exit(f"areal failed on {size} ({k}): {tail}")
-                best[k], rss[k] = min(best[k], s), max(rss[k], mb)
-                # User + system CPU seconds: less sensitive than wall time to other load.
+                wall[k].append(s)
+                rss[k] = max(rss[k], mb)
                 u = re.search(r"User time \(seconds\): ([\d.]+)", tail_full[0])
                 y = re.search(r"System time \(seconds\): ([\d.]+)", tail_full[0])
-                if u and y:
-                    cpu[k] = min(cpu[k], float(u.group(1)) + float(y.group(1)))
-        report_s = best["full"] - best["noreport"]
-        ovr_s = best["noreport"] - best["bare"]
-        lines.append(f"| {size} | {best['full']:.2f} | {best['noreport']:.2f} | {best['bare']:.2f} | {report_s:.2f} | "
-                     f"{ovr_s:.2f} | {(report_s + ovr_s) / best['bare']:.3f} | {cpu['full']:.1f} / {cpu['bare']:.1f} | "
-                     f"{cpu['full'] / cpu['bare'] - 1:.3f} | {rss['full']:.0f} / {rss['bare']:.0f} |")
-    text = "\n".join(lines) + "\n"
-    header = f"Report cost, run {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())} on {platform.node()} ({os.cpu_count()} cores).\n\n"
+                cpu[k].append(float(u.group(1)) + float(y.group(1)) if u and y else float("nan"))
+        med = lambda v: sorted(v)[len(v) // 2]
+        for k, _, _ in kinds:
+            lines.append(f"| {size} | {k} | {med(wall[k]):.2f} ({min(wall[k]):.2f}) | "
+                         f"{med(cpu[k]):.2f} ({min(cpu[k]):.2f}) | {rss[k]:.0f} |")
+        full, nrep, bare = (k for k, _, _ in kinds)
+        for what, f in (("median", med), ("fastest", min)):
+            summary.append(f"{size}, {what}: report {f(cpu[full]) - f(cpu[nrep]):+.2f} CPU s, "
+                           f"overviews {f(cpu[nrep]) - f(cpu[bare]):+.2f} CPU s, together "
+                           f"{(f(cpu[full]) / f(cpu[bare]) - 1) * 100:+.1f} % CPU and "
+                           f"{(f(wall[full]) / f(wall[bare]) - 1) * 100:+.1f} % wall over the run without both")
+    load1 = os.getloadavg()
+    text = "\n".join(lines) + "\n\n" + "\n".join(f"- {x}" for x in summary) + "\n"
+    header = (f"Report cost, run {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())} on {platform.node()} "
+              f"({os.cpu_count()} cores), {a.repeat} rounds; load average (1, 5, 15 min) before "
+              f"{load0[0]:.2f}, {load0[1]:.2f}, {load0[2]:.2f}, after {load1[0]:.2f}, {load1[1]:.2f}, {load1[2]:.2f}.\n\n")
     with open(a.out + ".tmp", "w") as f:
         f.write(header + text)
     os.replace(a.out + ".tmp", a.out)

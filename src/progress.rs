@@ -48,6 +48,7 @@ impl ProgressHandle {
 pub(crate) struct StageClock {
     on: bool,
     last: std::time::Instant,
+    last_cpu: f64,
 }
 
 impl StageClock {
@@ -55,18 +56,37 @@ impl StageClock {
         StageClock {
             on: std::env::var_os("AREAL_TIMINGS").is_some(),
             last: std::time::Instant::now(),
+            last_cpu: cpu_seconds(),
         }
     }
 
-    /// Print the time since the last lap, labelled `stage`.
+    /// Print the wall and CPU time (all threads of the process) since the last lap, labelled
+    /// `stage`. CPU seconds vary less than wall seconds on a shared machine.
     pub(crate) fn lap(&mut self, stage: &str) {
         if self.on {
             let now = std::time::Instant::now();
+            let cpu = cpu_seconds();
             eprintln!(
-                "areal: timing: {stage}: {:.3} s",
-                (now - self.last).as_secs_f64()
+                "areal: timing: {stage}: {:.3} s ({:.3} CPU s)",
+                (now - self.last).as_secs_f64(),
+                cpu - self.last_cpu
             );
             self.last = now;
+            self.last_cpu = cpu;
         }
     }
+}
+
+/// User + system CPU seconds of the whole process so far (0 where unknown).
+fn cpu_seconds() -> f64 {
+    #[cfg(target_os = "linux")]
+    {
+        // SAFETY: getrusage only writes the struct it is given.
+        let mut u: libc::rusage = unsafe { std::mem::zeroed() };
+        if unsafe { libc::getrusage(libc::RUSAGE_SELF, &mut u) } == 0 {
+            let tv = |t: libc::timeval| t.tv_sec as f64 + t.tv_usec as f64 * 1e-6;
+            return tv(u.ru_utime) + tv(u.ru_stime);
+        }
+    }
+    0.0
 }

@@ -218,6 +218,7 @@ pub fn run_range(
     let dir = crate::output::OutputDir::prepare(out, overwrite, &inputs)?;
     // Open the raster once up front so a bad raster fails before anything is created.
     let grid = SuitabilityRaster::open(suitability)?.grid().clone();
+    let hashes = crate::batch::runfile::InputHashes::start(suitability, records, opts);
     let mut writer = crate::raster_io::ClassWriter::create(&dir.file("classes.tif"), &grid)?;
     let mut opts_here = opts.clone();
     if opts_here.model.spill_dir.is_none() {
@@ -264,7 +265,7 @@ pub fn run_range(
         crate::styles::write_layer_styles(&run_dir)?;
     }
     drop(model); // removes its spill file before the folder is committed
-    crate::batch::runfile::write(&dir.file(""), suitability, records, opts)?;
+    hashes.write(&dir.file(""), opts)?;
     dir.commit()?;
     clock.lap("tables and commit");
     Ok(result)

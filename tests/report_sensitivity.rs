@@ -33,6 +33,11 @@ struct Recount {
 
 impl Recount {
     fn demo(out: &std::path::Path) -> Self {
+        Self::demo_with_m(out, &demo("accessible.geojson"))
+    }
+
+    /// The demo's raster and records with the M polygons of `m`.
+    fn demo_with_m(out: &std::path::Path, m: &std::path::Path) -> Self {
         let ds = Dataset::open(demo("suitability.tif")).unwrap();
         let gt = ds.geo_transform().unwrap();
         let band = ds.rasterband(1).unwrap();
@@ -53,7 +58,7 @@ impl Recount {
             .create_with_band_type::<u8, _>("", w, h, 1)
             .unwrap();
         mem.set_geo_transform(&gt).unwrap();
-        let poly = Dataset::open(demo("accessible.geojson")).unwrap();
+        let poly = Dataset::open(m).unwrap();
         let geoms: Vec<gdal::vector::Geometry> = poly
             .layer(0)
             .unwrap()
@@ -123,6 +128,10 @@ fn run_demo(out: &std::path::Path) -> serde_json::Value {
 }
 
 fn run_demo_at(out: &std::path::Path, e: f64) -> serde_json::Value {
+    run_demo_with(out, e, &demo("accessible.geojson"))
+}
+
+fn run_demo_with(out: &std::path::Path, e: f64, m: &std::path::Path) -> serde_json::Value {
     let e = e.to_string();
     let o = run(&[
         "range",
@@ -133,7 +142,7 @@ fn run_demo_at(out: &std::path::Path, e: f64) -> serde_json::Value {
         "--omission",
         &e,
         "--accessible",
-        demo("accessible.geojson").to_str().unwrap(),
+        m.to_str().unwrap(),
         "--no-metrics",
         "--no-report",
         "--out",
@@ -232,4 +241,42 @@ fn sensitivity_rows_equal_an_independent_recount() {
             f(&s["area_km2"]["inside_accessible"])
         ) <= 1e-12
     );
+}
+
+#[test]
+fn with_m_edges_off_the_cell_centres_every_row_equals_the_recount_inside_m_too() {
+    // An M polygon (made here) whose vertices sit at odd coordinates, so no cell centre lies
+    // on an edge and GDAL's rasteriser (cell centres) and areal must agree on every cell: the
+    // recount is then independent for the areas inside M as well.
+    let t = tempfile::tempdir().unwrap();
+    let m = t.path().join("m.geojson");
+    std::fs::write(
+        &m,
+        r#"{"type":"FeatureCollection","features":[{"type":"Feature","properties":{},
+        "geometry":{"type":"Polygon","coordinates":[[[10.1234,40.2171],[11.7013,40.0937],
+        [12.9321,40.4119],[13.0617,41.3873],[12.6943,42.6129],[12.9411,43.5387],
+        [11.8089,43.8791],[10.4133,43.8437],[10.0719,42.7093],[10.1234,40.2171]]]}}]}"#,
+    )
+    .unwrap();
+    let out = t.path().join("out");
+    let s = run_demo_with(&out, 5.0, &m);
+    let r = Recount::demo_with_m(&out, &m);
+    let rows = s["sensitivity"].as_array().expect("sensitivity is a list");
+    assert!(rows.len() >= 5);
+    for row in rows {
+        let e = row["omission_percent"].as_f64().unwrap();
+        let (th, k, all, inside) = r.at(e);
+        assert_eq!(row["threshold"].as_f64().unwrap(), th, "T at E = {e}");
+        assert_eq!(row["records_dropped"].as_u64().unwrap(), k as u64);
+        let got = |key: &str| row[key].as_f64().unwrap();
+        assert!(
+            rel(got("area_km2_suitable"), all) <= 1e-9,
+            "suitable at E = {e}"
+        );
+        assert!(
+            rel(got("area_km2_inside_accessible"), inside) <= 1e-9,
+            "inside M at E = {e}: {} vs recount {inside}",
+            got("area_km2_inside_accessible")
+        );
+    }
 }

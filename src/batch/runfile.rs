@@ -115,11 +115,32 @@ fn cwd() -> String {
 
 /// Write the run file of a finished run into its (temporary) folder `dir`.
 pub fn write(dir: &Path, suitability: &Path, records: &Path, opts: &RangeOptions) -> Result<()> {
+    write_hashed(dir, inputs_of(suitability, records, opts)?, opts)
+}
+
+/// The inputs' hashes, computed on a thread of their own while the run works (reading a
+/// global raster through SHA-256 takes a second or more).
+pub(crate) struct InputHashes(std::thread::JoinHandle<Result<BTreeMap<String, InputFile>>>);
+
+impl InputHashes {
+    pub(crate) fn start(suitability: &Path, records: &Path, opts: &RangeOptions) -> InputHashes {
+        let (s, r, o) = (suitability.to_path_buf(), records.to_path_buf(), opts.clone());
+        InputHashes(std::thread::spawn(move || inputs_of(&s, &r, &o)))
+    }
+
+    /// Write the run file of `dir` with these input hashes.
+    pub(crate) fn write(self, dir: &Path, opts: &RangeOptions) -> Result<()> {
+        let inputs = self.0.join().expect("hashing the inputs does not panic")?;
+        write_hashed(dir, inputs, opts)
+    }
+}
+
+fn write_hashed(dir: &Path, inputs: BTreeMap<String, InputFile>, opts: &RangeOptions) -> Result<()> {
     let rf = RunFile {
         areal_version: env!("CARGO_PKG_VERSION").to_string(),
         cwd: cwd(),
         options: settings::from_range_options(opts),
-        inputs: inputs_of(suitability, records, opts)?,
+        inputs,
         outputs: hash_outputs(dir)?,
     };
     let text = format!(

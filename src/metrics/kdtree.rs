@@ -209,11 +209,12 @@ impl KdTree {
         if self.nodes.is_empty() {
             return;
         }
-        let angle_to = |x: &[f64; 3]| -> (f64, f64) {
+        // Angles are compared through their cosines (no inverse trigonometry per point).
+        let (sin_t, cos_t) = theta.min(std::f64::consts::PI).sin_cos();
+        let cos_to = |x: &[f64; 3]| -> (f64, f64) {
             let v = [x[0] - c[0], x[1] - c[1], x[2] - c[2]];
             let len = (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt();
-            let cos = (u[0] * v[0] + u[1] * v[1] + u[2] * v[2]) / len;
-            (cos.clamp(-1.0, 1.0).acos(), len)
+            ((u[0] * v[0] + u[1] * v[1] + u[2] * v[2]) / len, len)
         };
         stack.clear();
         stack.push((0, 0.0));
@@ -228,14 +229,21 @@ impl KdTree {
                 0.5 * (node.lo[2] + node.hi[2]),
             ];
             let r = 0.5 * d2(&node.lo, &node.hi).sqrt();
-            let (a, len) = angle_to(&mid);
-            if len > r && a - (r / len).min(1.0).asin() > theta {
-                continue;
+            let (cos_a, len) = cos_to(&mid);
+            // The box lies outside the cone when the angle to its centre exceeds theta plus
+            // the angle beta its enclosing ball subtends: cos a < cos(theta + beta).
+            if len > r && theta < std::f64::consts::PI {
+                let sin_b = r / len;
+                let cos_b = (1.0 - sin_b * sin_b).sqrt();
+                // theta + beta < pi exactly when cos(theta) > -cos(beta).
+                if cos_t > -cos_b && cos_a < cos_t * cos_b - sin_t * sin_b {
+                    continue;
+                }
             }
             if node.kids[0] == 0 {
                 for &i in &self.items[node.start as usize..node.end as usize] {
                     let i = i as usize;
-                    if !skip(label[i]) && angle_to(&xyz[i]).0 <= theta {
+                    if !skip(label[i]) && cos_to(&xyz[i]).0 >= cos_t {
                         visit(i);
                     }
                 }

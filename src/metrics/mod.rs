@@ -27,6 +27,7 @@ pub mod criterion_b;
 mod eoo;
 mod extent;
 mod figures;
+mod geodesics;
 mod kdtree;
 mod laea;
 mod range;

@@ -25,10 +25,11 @@
 //! Only the pairs in between are measured. Breadth-first order gives the fewest jumps; nodes
 //! holding only reached patches are skipped.
 
+use super::geodesics::{ball_bound, ecef, longest_geodesic, search_bound, Geodesics};
 use super::kdtree::{d2, KdTree};
 use crate::access::buffer::m_min;
-use crate::area::Ellipsoid;
-use geographiclib_rs::{Geodesic, InverseGeodesic};
+use rayon::prelude::*;
+use rustc_hash::FxHashMap;
 use std::collections::VecDeque;
 
 /// The corners of every patch.
@@ -42,128 +43,6 @@ pub(crate) struct Corners {
     label: Vec<u32>,
     /// Corners of patch p: `start[p]..start[p + 1]`.
     start: Vec<usize>,
-    geod: Geodesic,
-    /// Geodesics already computed, by what GeographicLib's Inverse depends on (see
-    /// [`inverse_key`]): pairs facing each other across a straight gap along a parallel all
-    /// have one length, and are computed once.
-    cache: std::cell::RefCell<std::collections::HashMap<[u64; 4], f64>>,
-}
-
-/// Geodesics kept for reuse (about 50 MB).
-const CACHE_ENTRIES: usize = 1 << 20;
-
-/// GeographicLib's `AngDiff` (geographiclib-rs `geomath::ang_diff`, which is not public):
-/// `y - x` reduced to [-180, 180] as an exact sum `d + t`.
-fn ang_diff(x: f64, y: f64) -> (f64, f64) {
-    fn sum(u: f64, v: f64) -> (f64, f64) {
-        let s = u + v;
-        let up = s - v;
-        let vpp = s - up;
-        (s, -((up - u) + (vpp - v)))
-    }
-    fn normalise(x: f64) -> f64 {
-        let z = if x.is_finite() { x % 360.0 } else { f64::NAN };
-        let z = if x == 0.0 { x } else { z };
-        let y = if z < -180.0 {
-            z + 360.0
-        } else if z < 180.0 {
-            z
-        } else {
-            z - 360.0
-        };
-        if y == -180.0 {
-            180.0
-        } else {
-            y
-        }
-    }
-    let (d, t) = sum(normalise(-x), normalise(y));
-    let d = normalise(d);
-    if d == 180.0 && t > 0.0 {
-        sum(-180.0, t)
-    } else {
-        sum(d, t)
-    }
-}
-
-/// The inputs GeographicLib's Inverse uses (both latitudes and the longitude difference as
-/// `AngDiff` gives it): equal keys give bit-identical geodesics, by the ellipsoid's symmetry
-/// about its axis.
-fn inverse_key(a: (f64, f64), b: (f64, f64)) -> [u64; 4] {
-    let (d, t) = ang_diff(a.1, b.1);
-    [a.0.to_bits(), b.0.to_bits(), d.to_bits(), t.to_bits()]
-}
-
-/// Earth-centred coordinates (metres) of the point at geodetic (lat, lon) degrees on WGS84.
-pub(crate) fn ecef(lat: f64, lon: f64) -> [f64; 3] {
-    let ell = Ellipsoid::WGS84;
-    let e2 = ell.e2();
-    let (sp, cp) = lat.to_radians().sin_cos();
-    let (sl, cl) = lon.to_radians().sin_cos();
-    let n = ell.a / (1.0 - e2 * sp * sp).sqrt();
-    [n * cp * cl, n * cp * sl, n * (1.0 - e2) * sp]
-}
-
-/// The squared chord to search within for geodesics up to `s_m` metres (a chord is never
-/// longer than its geodesic), with a hair of margin for rounding.
-fn search_bound(s_m: f64) -> f64 {
-    if !s_m.is_finite() {
-        return f64::INFINITY;
-    }
-    let b = s_m * (1.0 + 1e-9) + 1e-6;
-    b * b
-}
-
-/// Whether the geodesic between corners at (lat, lon) `a` and `b` (ECEF `xa`, `xb`, metres)
-/// may be shorter than `bound` metres: false when a lower bound reaches it.
-///
-/// Every principal radius of curvature of WGS84 is at least ρ = a(1 - e²), so by Blaschke's
-/// rolling-ball theorem the ball of radius ρ touching the ellipsoid from inside (centre
-/// `t - ρ n` for the touching point t with normal n) lies inside it. Projecting onto a convex set never lengthens a curve, and the
-/// geodesic projects to a curve on that ball's sphere joining the projections of `a` and `b`,
-/// so the geodesic is at least the great-circle arc between them: ρ times the angle they make
-/// at the centre. The ball may touch the ellipsoid anywhere; touching it between the two
-/// corners keeps the bound tightest. The bound is far tighter than the chord at long range (about 10 m short at
-/// 1,000 km, where the chord is 1 km short), so few pairs need a geodesic of their own.
-fn may_be_below(a: (f64, f64), b: (f64, f64), xa: &[f64; 3], xb: &[f64; 3], bound: f64) -> bool {
-    let rho = m_min();
-    let theta = (bound + 1e-6) / (rho * (1.0 - 1e-9));
-    if theta >= std::f64::consts::PI {
-        return true;
-    }
-    // The ball touches the ellipsoid at the point of mean latitude and longitude (any point of
-    // the ellipsoid would do; one between the two keeps the bound tight).
-    let lat = 0.5 * (a.0 + b.0);
-    let mut dl = b.1 - a.1;
-    if dl > 180.0 {
-        dl -= 360.0;
-    } else if dl < -180.0 {
-        dl += 360.0;
-    }
-    let lon = a.1 + 0.5 * dl;
-    let t = ecef(lat, lon);
-    let n = crate::access::buffer::unit(lat, lon);
-    let c = [t[0] - rho * n[0], t[1] - rho * n[1], t[2] - rho * n[2]];
-    let u = [xa[0] - c[0], xa[1] - c[1], xa[2] - c[2]];
-    let v = [xb[0] - c[0], xb[1] - c[1], xb[2] - c[2]];
-    let dot = u[0] * v[0] + u[1] * v[1] + u[2] * v[2];
-    let (lu, lv) = (
-        (u[0] * u[0] + u[1] * u[1] + u[2] * u[2]).sqrt(),
-        (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt(),
-    );
-    // Angle below theta exactly when its cosine is above cos(theta).
-    dot > lu * lv * theta.cos()
-}
-
-/// The longest geodesic whose chord is `d_m` metres (Schur's comparison theorem with the
-/// smallest radius of curvature of WGS84); infinite past a half turn.
-fn longest_geodesic(d_m: f64) -> f64 {
-    let rho = m_min();
-    let x = d_m / (2.0 * rho);
-    if x >= 1.0 {
-        return f64::INFINITY;
-    }
-    2.0 * rho * x.asin() * (1.0 + 1e-9) + 1e-6
 }
 
 impl Corners {
@@ -183,8 +62,6 @@ impl Corners {
             xyz,
             label,
             start: bc.start,
-            geod: Geodesic::wgs84(),
-            cache: Default::default(),
         })
     }
 
@@ -202,28 +79,9 @@ impl Corners {
         self.start.len() - 1
     }
 
-    /// The geodesic between corners `i` and `j` when it may be below `bound` metres, else
-    /// `None` (a lower bound already reaches `bound`).
-    fn dist_below(&self, i: usize, j: usize, bound: f64) -> Option<f64> {
-        if !may_be_below(self.pts[i], self.pts[j], &self.xyz[i], &self.xyz[j], bound) {
-            return None;
-        }
-        Some(self.dist(i, j))
-    }
-
-    fn dist(&self, i: usize, j: usize) -> f64 {
-        let (a, b) = (self.pts[i], self.pts[j]);
-        let key = inverse_key(a, b);
-        if let Some(&s) = self.cache.borrow().get(&key) {
-            return s;
-        }
-        let s: f64 = self.geod.inverse(a.0, a.1, b.0, b.1);
-        let mut cache = self.cache.borrow_mut();
-        if cache.len() >= CACHE_ENTRIES {
-            cache.clear(); // memory stays bounded; ties are met close together
-        }
-        cache.insert(key, s);
-        s
+    /// A lower bound (metres) on the geodesic between corners `i` and `j`.
+    fn lower(&self, i: usize, j: usize) -> f64 {
+        ball_bound(self.pts[i], self.pts[j], &self.xyz[i], &self.xyz[j])
     }
 
     /// A k-d tree over the corners of the patches `keep` selects.
@@ -239,127 +97,257 @@ impl Corners {
 /// For each patch, the distance (km) to the nearest patch among those `target` selects
 /// (other than itself); None when there is none.
 ///
-/// The queries go leaf by leaf through a tree over every corner: a leaf whose corners all
-/// belong to one patch is one box query (its corners are compared with each candidate only
-/// when the candidate is near the box), a mixed leaf one query per corner.
+/// The query corners go in groups (a leaf of a tree over every corner whose corners all belong
+/// to one patch, or one corner of a mixed leaf), and the patches on both cores. For each
+/// patch: first, arithmetic only, the pair of corners nearest in chord (a group is one box
+/// query); its geodesic bounds the answer. Then every pair whose lower bound
+/// ([`ball_bound`]) is below that is a candidate; of the candidates on one pair of latitudes
+/// only the one with the smallest longitude difference is kept, because between two given
+/// latitudes the geodesic grows with the longitude difference (see [`Candidates`]).
+/// The candidates are measured in order of their bound, until the bound reaches the best
+/// geodesic found. The result is the exact minimum over corner pairs.
 pub(crate) fn nearest(c: &Corners, target: impl Fn(usize) -> bool) -> Vec<Option<f64>> {
     let tree = c.tree(&target);
     let queries = c.tree(|_| true);
-    let n = c.n();
-    let mut stack = Vec::new();
-    // Phase 1, arithmetic only: the pair nearest in chord for each patch.
-    let mut cbest = vec![f64::INFINITY; n];
-    let mut pair: Vec<Option<(usize, usize)>> = vec![None; n];
+    let mut groups: Vec<Vec<Group>> = (0..c.n()).map(|_| Vec::new()).collect();
     for_queries(&queries, c, |p, items, lo, hi| {
-        if cbest[p] == 0.0 {
-            return;
-        }
-        let bound = cbest[p];
-        tree.search_box(
-            &c.xyz,
-            &c.label,
-            lo,
-            hi,
-            bound,
-            |l| l as usize == p,
-            |j, _| {
-                for &i in items {
-                    let d = d2(&c.xyz[i as usize], &c.xyz[j]);
-                    if d < cbest[p] {
-                        cbest[p] = d;
-                        pair[p] = Some((i as usize, j));
-                    }
-                }
-                cbest[p]
-            },
-            &mut stack,
-        );
-    });
-    // Phase 2: geodesics, only for the pairs whose chord is below the best geodesic so far
-    // (a chord is never longer than its geodesic).
-    let mut best: Vec<f64> = (0..n)
-        .map(|p| match pair[p] {
-            None => f64::INFINITY,
-            Some(_) if cbest[p] == 0.0 => 0.0,
-            Some((i, j)) => c.dist(i, j),
+        groups[p].push(Group {
+            items,
+            lo: *lo,
+            hi: *hi,
         })
-        .collect();
-    for_queries(&queries, c, |p, items, lo, hi| {
-        let (Some(first), true) = (pair[p], best[p] > 0.0) else {
-            return;
-        };
-        let check = |j: usize, best: &mut f64| {
-            for &i in items {
-                let i = i as usize;
-                if (i, j) != first && d2(&c.xyz[i], &c.xyz[j]) <= search_bound(*best) {
-                    if let Some(s) = c.dist_below(i, j, *best) {
-                        *best = best.min(s);
-                    }
-                }
+    });
+    groups
+        .par_iter()
+        .enumerate()
+        .map_init(Search::new, |search, (p, gs)| {
+            search.nearest(c, &tree, p, gs).map(|s| s / 1000.0)
+        })
+        .collect()
+}
+
+/// Query corners searched together: their bounding box in ECEF metres.
+struct Group<'a> {
+    items: &'a [u32],
+    lo: [f64; 3],
+    hi: [f64; 3],
+}
+
+/// One thread's working state for [`nearest`].
+struct Search {
+    geodesics: Geodesics,
+    stack: Vec<(u32, f64)>,
+    candidates: Candidates,
+    order: Vec<(f64, u32, u32)>,
+}
+
+impl Search {
+    fn new() -> Search {
+        Search {
+            geodesics: Geodesics::new(),
+            stack: Vec::new(),
+            candidates: Candidates::default(),
+            order: Vec::new(),
+        }
+    }
+
+    /// The geodesic (metres) from patch `p` (query corners `gs`) to the nearest corner in
+    /// `tree` of another patch.
+    fn nearest(&mut self, c: &Corners, tree: &KdTree, p: usize, gs: &[Group]) -> Option<f64> {
+        let own = |l: u32| l as usize == p;
+        // Phase 1, arithmetic only: the pair nearest in chord.
+        let mut cbest = f64::INFINITY;
+        let mut pair = None;
+        for g in gs {
+            if cbest == 0.0 {
+                break;
             }
-        };
-        // Only targets within the rolling-ball angle of `best` of some query corner can be
-        // nearer (see `may_be_below`): with the ball touching at the group's first corner,
-        // they lie in a cone round its normal, widened by the group's own spread.
-        let rho = m_min();
-        let i0 = items[0] as usize;
-        let u = crate::access::buffer::unit(c.pts[i0].0, c.pts[i0].1);
-        let apex = [
-            c.xyz[i0][0] - rho * u[0],
-            c.xyz[i0][1] - rho * u[1],
-            c.xyz[i0][2] - rho * u[2],
-        ];
-        let spread = items
-            .iter()
-            .map(|&i| {
-                let x = &c.xyz[i as usize];
-                let v = [x[0] - apex[0], x[1] - apex[1], x[2] - apex[2]];
-                let len = (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt();
-                ((u[0] * v[0] + u[1] * v[1] + u[2] * v[2]) / len)
-                    .clamp(-1.0, 1.0)
-                    .acos()
-            })
-            .fold(0.0, f64::max);
-        let theta = (best[p] + 1e-6) / (rho * (1.0 - 1e-9)) + spread + 1e-9;
-        let mut b = best[p];
-        if theta >= std::f64::consts::PI {
-            // A cone this wide prunes nothing: search by chord.
             tree.search_box(
                 &c.xyz,
                 &c.label,
-                lo,
-                hi,
-                search_bound(b),
-                |l| l as usize == p,
+                &g.lo,
+                &g.hi,
+                cbest,
+                own,
                 |j, _| {
-                    check(j, &mut b);
-                    search_bound(b)
+                    for &i in g.items {
+                        let d = d2(&c.xyz[i as usize], &c.xyz[j]);
+                        if d < cbest {
+                            cbest = d;
+                            pair = Some((i as usize, j));
+                        }
+                    }
+                    cbest
                 },
-                &mut stack,
-            );
-        } else {
-            tree.search_cone(
-                &c.xyz,
-                &c.label,
-                &apex,
-                &u,
-                theta,
-                |l| l as usize == p,
-                |j| check(j, &mut b),
-                &mut stack,
+                &mut self.stack,
             );
         }
-        best[p] = b;
-    });
-    (0..n).map(|p| pair[p].map(|_| best[p] / 1000.0)).collect()
+        let (i0, j0) = pair?;
+        if cbest == 0.0 {
+            return Some(0.0);
+        }
+        // Phase 2: the candidates below the geodesic of that pair.
+        let mut best = self.geodesics.dist(c.pts[i0], c.pts[j0]);
+        self.candidates.clear();
+        let rho = m_min();
+        for g in gs {
+            // Only targets within the rolling-ball angle of `best` of some query corner can
+            // be nearer (see `ball_bound`): with the ball touching at the group's first
+            // corner, they lie in a cone round its normal, widened by the group's own spread.
+            let i0 = g.items[0] as usize;
+            let u = crate::access::buffer::unit(c.pts[i0].0, c.pts[i0].1);
+            let apex = [
+                c.xyz[i0][0] - rho * u[0],
+                c.xyz[i0][1] - rho * u[1],
+                c.xyz[i0][2] - rho * u[2],
+            ];
+            let spread = g
+                .items
+                .iter()
+                .map(|&i| {
+                    let x = &c.xyz[i as usize];
+                    let v = [x[0] - apex[0], x[1] - apex[1], x[2] - apex[2]];
+                    let len = (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt();
+                    ((u[0] * v[0] + u[1] * v[1] + u[2] * v[2]) / len)
+                        .clamp(-1.0, 1.0)
+                        .acos()
+                })
+                .fold(0.0, f64::max);
+            let theta = (best + 1e-6) / (rho * (1.0 - 1e-9)) + spread + 1e-9;
+            let candidates = &mut self.candidates;
+            let mut consider = |j: usize| {
+                for &i in g.items {
+                    let i = i as usize;
+                    if d2(&c.xyz[i], &c.xyz[j]) <= search_bound(best) {
+                        candidates.offer(c, i, j);
+                    }
+                }
+            };
+            if theta >= std::f64::consts::PI {
+                // A cone this wide prunes nothing: search by chord.
+                let bound = search_bound(best);
+                tree.search_box(
+                    &c.xyz,
+                    &c.label,
+                    &g.lo,
+                    &g.hi,
+                    bound,
+                    own,
+                    |j, _| {
+                        consider(j);
+                        bound
+                    },
+                    &mut self.stack,
+                );
+            } else {
+                tree.search_cone(
+                    &c.xyz,
+                    &c.label,
+                    &apex,
+                    &u,
+                    theta,
+                    own,
+                    consider,
+                    &mut self.stack,
+                );
+            }
+        }
+        // Measure in order of the lower bound; stop where it reaches the best.
+        self.order.clear();
+        for (i, j) in self.candidates.kept() {
+            let lb = c.lower(i as usize, j as usize);
+            if lb < best {
+                self.order.push((lb, i, j));
+            }
+        }
+        self.order.sort_unstable_by(|a, b| a.0.total_cmp(&b.0));
+        for &(lb, i, j) in &self.order {
+            if lb >= best {
+                break;
+            }
+            best = best.min(self.geodesics.dist(c.pts[i as usize], c.pts[j as usize]));
+        }
+        Some(best)
+    }
+}
+
+/// Longitude differences (degrees) this close are one: two corners of one row at nominally
+/// the same distance in longitude from a third may differ by rounding in their longitudes,
+/// and GeographicLib then gives lengths that differ in the last bits either way. Distinct
+/// corners of a row are a whole cell apart.
+const SAME_LON_DIFF: f64 = 1e-9;
+
+/// The candidate pairs of one patch, by (query latitude, target latitude) bits: on each pair
+/// of latitudes, only the pairs with the smallest longitude difference.
+///
+/// Between two given latitudes the geodesic is a non-decreasing function of the longitude
+/// difference |λ12| in [0°, 180°]: by the first variation of arc length, moving the end point
+/// east along its parallel changes the length at the rate N cos φ2 sin α2 (α2 the azimuth at
+/// the end), and the shortest geodesic with λ12 in [0°, 180°] runs east, α2 in [0°, 180°]
+/// (Karney 2013, section 3: the symmetries that reduce the inverse problem to λ12 ≥ 0 give
+/// 0 ≤ α1 ≤ 180°, and sin α keeps its sign along a geodesic by Clairaut's relation). So of two
+/// pairs on the same latitudes the one closer in longitude is never farther. Pairs tied within
+/// [`SAME_LON_DIFF`] are all kept, so the minimum is GeographicLib's own to the last bit.
+#[derive(Default)]
+struct Candidates {
+    /// Smallest |longitude difference| and the first of its pairs in `pairs`.
+    by_lats: FxHashMap<(u64, u64), (f64, u32)>,
+    /// (query corner, target corner, next pair of the same latitudes or `u32::MAX`).
+    pairs: Vec<(u32, u32, u32)>,
+}
+
+impl Candidates {
+    fn clear(&mut self) {
+        self.by_lats.clear();
+        self.pairs.clear();
+    }
+
+    fn offer(&mut self, c: &Corners, i: usize, j: usize) {
+        let (a, b) = (c.pts[i], c.pts[j]);
+        // |λ2 - λ1| reduced to [0°, 180°].
+        let mut dl = (b.1 - a.1).abs();
+        if dl > 180.0 {
+            dl = (dl - 360.0 * (dl / 360.0).round()).abs();
+        }
+        let pairs = &mut self.pairs;
+        let mut push = |next: u32| {
+            pairs.push((i as u32, j as u32, next));
+            (pairs.len() - 1) as u32
+        };
+        match self.by_lats.entry((a.0.to_bits(), b.0.to_bits())) {
+            std::collections::hash_map::Entry::Vacant(e) => {
+                e.insert((dl, push(u32::MAX)));
+            }
+            std::collections::hash_map::Entry::Occupied(mut e) => {
+                let (best, head) = *e.get();
+                if dl < best - SAME_LON_DIFF {
+                    e.insert((dl, push(u32::MAX)));
+                } else if dl <= best + SAME_LON_DIFF {
+                    e.insert((best.min(dl), push(head)));
+                }
+            }
+        }
+    }
+
+    /// Every pair kept: the nearest in longitude on each pair of latitudes.
+    fn kept(&self) -> impl Iterator<Item = (u32, u32)> + '_ {
+        self.by_lats.values().flat_map(move |&(_, head)| {
+            let mut k = head;
+            std::iter::from_fn(move || {
+                let &(i, j, next) = self.pairs.get(k as usize)?;
+                k = next;
+                Some((i, j))
+            })
+        })
+    }
 }
 
 /// Call `f(patch, corners, box lo, box hi)` for each group of query corners: a pure leaf of
 /// `queries` as one group, each corner of a mixed leaf on its own.
-fn for_queries(
-    queries: &KdTree,
+fn for_queries<'q>(
+    queries: &'q KdTree,
     c: &Corners,
-    mut f: impl FnMut(usize, &[u32], &[f64; 3], &[f64; 3]),
+    mut f: impl FnMut(usize, &'q [u32], &[f64; 3], &[f64; 3]),
 ) {
     for leaf in queries.leaves() {
         match leaf.label {
@@ -391,6 +379,7 @@ pub(crate) fn reach(c: &Corners, start: impl Fn(usize) -> bool, gap_km: f64) -> 
     }
     let tree = c.tree(|_| true);
     let mut found = Vec::new();
+    let mut geodesics = Geodesics::new();
     while let Some(p) = queue.pop_front() {
         let next = jumps[p].map(|j| j + 1);
         for i in c.start[p]..c.start[p + 1] {
@@ -404,8 +393,8 @@ pub(crate) fn reach(c: &Corners, start: impl Fn(usize) -> bool, gap_km: f64) -> 
                     let q = c.label[j] as usize;
                     if !found.contains(&q)
                         && (longest_geodesic(d2.sqrt()) <= gap_m
-                            || c.dist_below(i, j, gap_m * (1.0 + 1e-12) + 1e-9)
-                                .is_some_and(|s| s <= gap_m))
+                            || (c.lower(i, j) <= gap_m
+                                && geodesics.dist(c.pts[i], c.pts[j]) <= gap_m))
                     {
                         found.push(q);
                     }

@@ -63,6 +63,9 @@ impl ClassWriter {
         classes: &[crate::styles::ClassStyle],
     ) -> Result<Self> {
         let err = |op: &str| output_error(path, op.to_string());
+        // GDAL compresses the tiles on its own threads (in file order, so the bytes do not
+        // depend on timing): the pass's consumer hands rows over without waiting on DEFLATE.
+        let threads = format!("NUM_THREADS={}", crate::pass::decode_threads());
         let opts = RasterCreationOptions::from_iter([
             "TILED=YES",
             "BLOCKXSIZE=256",
@@ -70,6 +73,7 @@ impl ClassWriter {
             "COMPRESS=DEFLATE",
             "PREDICTOR=1",
             "BIGTIFF=IF_SAFER",
+            threads.as_str(),
         ]);
         let driver =
             DriverManager::get_driver_by_name("GTiff").map_err(err("finding the GTiff driver"))?;

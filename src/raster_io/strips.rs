@@ -106,24 +106,34 @@ impl StripReader {
     /// (with its `codes`): how many of the ascending thresholds `cands` its value reaches
     /// (`v >= t`, the comparison the pass makes), or 255 for nodata.
     pub(crate) fn bins(&self, bufs: &StripBuffers, codes: &[u8], cands: &[f64], out: &mut Vec<u8>) {
-        out.clear();
         if self.as_f32 {
             let t: Vec<f32> = cands.iter().map(|&c| f32_threshold(c)).collect();
-            out.extend(bufs.f32s.iter().zip(codes).map(|(&v, &k)| {
-                if k == class::NODATA {
-                    class::NODATA
-                } else {
-                    t.iter().map(|&c| (v >= c) as u8).sum()
-                }
-            }));
+            count_reached(&bufs.f32s, codes, &t, out);
         } else {
-            out.extend(bufs.f64s.iter().zip(codes).map(|(&v, &k)| {
-                if k == class::NODATA {
-                    class::NODATA
-                } else {
-                    cands.iter().map(|&c| (v >= c) as u8).sum()
-                }
-            }));
+            count_reached(&bufs.f64s, codes, cands, out);
+        }
+    }
+}
+
+/// Per cell, how many of `cands` its value reaches (255 where `codes` says nodata). Blocks
+/// of cells small enough to stay in the first-level cache take one simple loop per
+/// candidate (these vectorise), then the nodata cells are marked.
+fn count_reached<T: Sample>(values: &[T], codes: &[u8], cands: &[T], out: &mut Vec<u8>) {
+    const BLOCK: usize = 2048;
+    out.clear();
+    out.resize(values.len(), 0);
+    for ((o, v), k) in out
+        .chunks_mut(BLOCK)
+        .zip(values.chunks(BLOCK))
+        .zip(codes.chunks(BLOCK))
+    {
+        for &c in cands {
+            for (o, &v) in o.iter_mut().zip(v) {
+                *o += (v >= c) as u8;
+            }
+        }
+        for (o, &k) in o.iter_mut().zip(k) {
+            *o = if k == class::NODATA { class::NODATA } else { *o };
         }
     }
 }

@@ -1,7 +1,9 @@
-//! The report's charts as inline SVG (plotters, SVG backend only). Text is left to the
-//! browser's sans-serif font; every chart has a caption in the page saying what it shows.
+//! The report's charts as inline SVG (plotters, SVG backend only). Their text is laid out
+//! with the shipped font and names its family ([`text::FAMILY`]), which the page embeds;
+//! every chart has a caption in the page saying what it shows.
 
 use super::palette::{self, Rgb};
+use super::text::{self, FAMILY};
 use super::{MapRecord, PatchInfo};
 use plotters::prelude::*;
 
@@ -15,6 +17,7 @@ fn rgb(c: Rgb) -> RGBColor {
 fn svg(
     draw: impl FnOnce(&DrawingArea<SVGBackend, plotters::coord::Shift>) -> Result<(), String>,
 ) -> String {
+    text::register_for_charts();
     let mut s = String::new();
     let res = {
         let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
@@ -58,7 +61,7 @@ pub fn records_chart(records: &[MapRecord], t: f64) -> Option<String> {
         c.configure_mesh()
             .x_desc("records, by suitability")
             .y_desc("suitability")
-            .label_style(("sans-serif", 15))
+            .label_style((FAMILY, 15))
             .light_line_style(WHITE)
             .draw()
             .map_err(|e| e.to_string())?;
@@ -95,7 +98,7 @@ pub fn records_chart(records: &[MapRecord], t: f64) -> Option<String> {
         .legend(|(x, y)| Cross::new((x + 8, y), 5, rgb(palette::DROPPED).stroke_width(2)));
         c.configure_series_labels()
             .position(SeriesLabelPosition::UpperLeft)
-            .label_font(("sans-serif", 14))
+            .label_font((FAMILY, 14))
             .background_style(WHITE.mix(0.85))
             .border_style(BLACK)
             .draw()
@@ -139,7 +142,7 @@ pub fn sensitivity_chart(rows: &[Sensitivity], chosen: Option<f64>) -> Option<St
         c.configure_mesh()
             .x_desc("tolerated omission E, %")
             .y_desc("area, km²")
-            .label_style(("sans-serif", 15))
+            .label_style((FAMILY, 15))
             .light_line_style(WHITE)
             .draw()
             .map_err(|e| e.to_string())?;
@@ -179,7 +182,7 @@ pub fn sensitivity_chart(rows: &[Sensitivity], chosen: Option<f64>) -> Option<St
         }
         c.configure_series_labels()
             .position(SeriesLabelPosition::UpperRight)
-            .label_font(("sans-serif", 14))
+            .label_font((FAMILY, 14))
             .background_style(WHITE.mix(0.85))
             .border_style(BLACK)
             .draw()
@@ -224,7 +227,7 @@ pub fn patch_chart(patches: &[PatchInfo]) -> Option<String> {
             .x_desc("patch area, km² (log scale)")
             .y_desc("patches")
             .x_label_formatter(&|v| super::fmt_num(*v, if *v < 1.0 { 3 } else { 0 }))
-            .label_style(("sans-serif", 15))
+            .label_style((FAMILY, 15))
             .light_line_style(WHITE)
             .draw()
             .map_err(|e| e.to_string())?;
@@ -251,7 +254,7 @@ pub fn patch_chart(patches: &[PatchInfo]) -> Option<String> {
         }
         c.configure_series_labels()
             .position(SeriesLabelPosition::UpperRight)
-            .label_font(("sans-serif", 14))
+            .label_font((FAMILY, 14))
             .background_style(WHITE.mix(0.85))
             .border_style(BLACK)
             .draw()
@@ -307,7 +310,7 @@ pub fn reach_chart(patches: &[PatchInfo]) -> Option<String> {
                     i.to_string()
                 }
             })
-            .label_style(("sans-serif", 15))
+            .label_style((FAMILY, 15))
             .light_line_style(WHITE)
             .draw()
             .map_err(|e| e.to_string())?;
@@ -331,7 +334,7 @@ pub fn reach_chart(patches: &[PatchInfo]) -> Option<String> {
         }
         c.configure_series_labels()
             .position(SeriesLabelPosition::UpperRight)
-            .label_font(("sans-serif", 14))
+            .label_font((FAMILY, 14))
             .background_style(WHITE.mix(0.85))
             .border_style(BLACK)
             .draw()

@@ -49,6 +49,10 @@ pub struct MapPng {
     pub panel: [usize; 4],
     /// PNG pixels per class-image pixel.
     pub scale: usize,
+    /// The scale bar: its length in km and in PNG pixels (None when it could not be measured).
+    pub scale_bar: Option<(f64, f64)>,
+    /// The graticule's step in degrees (None without a graticule).
+    pub graticule_step: Option<f64>,
 }
 
 fn paint(c: Rgb, alpha: u8) -> Paint<'static> {
@@ -153,6 +157,7 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
     let to_png = |x: f64, y: f64| (x0 as f32 + x as f32 * sf, y0 as f32 + y as f32 * sf);
 
     // Graticule: lines of constant lon and lat, sampled so projected grids curve right.
+    let mut graticule = None;
     let corners: Vec<(f64, f64)> = (0..=20)
         .flat_map(|i| {
             let t = i as f64 / 20.0;
@@ -175,6 +180,7 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
             .fold(f64::MIN, f64::max)
             .min(90.0);
         let step = graticule_step((lon_max - lon_min).max(lat_max - lat_min));
+        graticule = Some(step);
         let line_paint = paint(palette::GRATICULE, 150);
         let mut labels: Vec<(String, f32, f32, f32)> = Vec::new();
         for (is_lon, lo, hi, a, b) in [
@@ -345,10 +351,12 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
         text::draw(&mut pm, t, lx2 + 24.0, y + 12.0, 12.0, palette::INK, 0.0);
     }
     // Scale bar, true along the horizontal through the map's centre.
+    let mut scale_bar = None;
     if let Some(kmpp) = geo.km_per_px_at_centre(img.cols as f64, img.rows as f64) {
         let km_per_png_px = kmpp / s as f64;
         let len_km = round_length(km_per_png_px * 120.0);
         let len_px = (len_km / km_per_png_px) as f32;
+        scale_bar = Some((len_km, len_px as f64));
         let (bx, by) = (lx, ly + 98.0);
         let mut pb = PathBuilder::new();
         pb.move_to(bx, by - 5.0);
@@ -429,6 +437,8 @@ pub fn draw_map(input: &MapInput<'_>) -> Result<MapPng> {
         png,
         panel: [x0, y0, pw, ph],
         scale: s,
+        scale_bar,
+        graticule_step: graticule,
     })
 }
 

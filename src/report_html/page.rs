@@ -5,7 +5,7 @@
 use super::charts::{self, Sensitivity};
 use super::draw::MapPng;
 use super::image::ClassImage;
-use super::{fmt_num, palette, ReportData};
+use super::{fmt_num, palette, text, ReportData};
 use crate::Result;
 use base64::Engine as _;
 use serde_json::Value;
@@ -87,26 +87,22 @@ pub fn page(data: &ReportData, map: &MapPng, image: &ClassImage, title: &str) ->
         .pointer("/threshold/value")
         .and_then(Value::as_f64)
         .unwrap_or(f64::NAN);
-    let mut h = String::new();
-    h += "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n";
-    h += "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n";
-    h += &format!("<title>{}</title>\n", escape(title));
-    h += "<style>\nbody{font-family:sans-serif;max-width:980px;margin:1em auto;padding:0 1em;color:#000;line-height:1.4}\n\
-          h1{font-size:1.5em}h2{font-size:1.2em;margin-top:1.6em;border-bottom:1px solid #ccc}\n\
-          img,svg{max-width:100%;height:auto}\n.caution{background:#fff6e0;border-left:4px solid #E69F00;padding:.4em .8em}\n\
-          table.figures{border-collapse:collapse;width:100%}table.figures td,table.figures th{border-bottom:1px solid #ddd;padding:.25em .5em;text-align:left;vertical-align:top}\n\
-          table.figures th{background:#f2f2f2}table.figures td:first-child{width:34%}\n.num{font-variant-numeric:tabular-nums}\npre{white-space:pre-wrap;background:#f6f6f6;padding:.5em}\n.note{color:#555;font-size:.92em}\n</style>\n";
-    h += "</head>\n<body>\n";
+    // The body first: the embedded font holds only the characters of its text.
+    let mut h = String::from("<body>\n");
     h += &format!("<h1>{}</h1>\n", escape(title));
     h += "<p class=\"caution\">Model-based estimates: every area below inherits the errors of the suitability model, the records, the threshold and the accessible area M. E is chosen before looking at the results. Any threat assessment belongs to the responsible authority and its reviewers.</p>\n";
     // Map.
     let b64 = base64::engine::general_purpose::STANDARD.encode(&map.png);
     let w = image.window;
     h += "<h2>Map</h2>\n";
+    // Where the map's parts are, for checks from outside: the class panel, the window of the
+    // grid it shows, the scale bar (km, PNG pixels) and the graticule step (degrees).
+    let (bar_km, bar_px) = map.scale_bar.unwrap_or((f64::NAN, f64::NAN));
     h += &format!(
         "<img id=\"map\" src=\"data:image/png;base64,{b64}\" alt=\"map of the range classes, M and the records\" \
-         data-panel=\"{},{},{},{}\" data-scale=\"{}\" data-window=\"{},{},{},{},{}\">\n",
-        map.panel[0], map.panel[1], map.panel[2], map.panel[3], map.scale, w.col0, w.row0, w.cols, w.rows, w.factor
+         data-panel=\"{},{},{},{}\" data-scale=\"{}\" data-window=\"{},{},{},{},{}\" data-scalebar=\"{bar_km},{bar_px}\" data-graticule=\"{}\">\n",
+        map.panel[0], map.panel[1], map.panel[2], map.panel[3], map.scale, w.col0, w.row0, w.cols, w.rows, w.factor,
+        map.graticule_step.unwrap_or(f64::NAN)
     );
     h += &format!(
         "<p class=\"note\">Each map pixel shows blocks of {f} x {f} raster cells; a block shows the highest of: suitable inside M, suitable beyond M, below threshold, no data, so a patch of one cell stays visible. \
@@ -189,12 +185,27 @@ pub fn page(data: &ReportData, map: &MapPng, image: &ClassImage, title: &str) ->
         );
     }
     h += &format!(
-        "<p class=\"note\">areal <span id=\"version\">{}</span>. Map text in DejaVu Sans (Bitstream Vera licence, bundled with areal). Colours: {}.</p>\n",
+        "<p class=\"note\">areal <span id=\"version\">{}</span>. Text in DejaVu Sans (Bitstream Vera licence; shipped with areal, its glyphs for this page's text embedded in it). Colours: {}.</p>\n",
         escape(&version),
         escape(palette::SOURCE)
     );
     h += "</body>\n</html>\n";
-    Ok(h)
+    // The title's <title> copy shows in the browser's own font; its <h1> copy is in `h`.
+    let face = text::css_face(&text::page_chars(&h))?;
+    let mut head = String::new();
+    head += "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n";
+    head += "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n";
+    head += &format!("<title>{}</title>\n", escape(title));
+    head += "<style>\n";
+    head += &face;
+    head += &format!("\nbody{{font-family:{},sans-serif;", text::FAMILY);
+    head += "max-width:980px;margin:1em auto;padding:0 1em;color:#000;line-height:1.4}\n\
+          h1{font-size:1.5em}h2{font-size:1.2em;margin-top:1.6em;border-bottom:1px solid #ccc}\n\
+          img,svg{max-width:100%;height:auto}\n.caution{background:#fff6e0;border-left:4px solid #E69F00;padding:.4em .8em}\n\
+          table.figures{border-collapse:collapse;width:100%}table.figures td,table.figures th{border-bottom:1px solid #ddd;padding:.25em .5em;text-align:left;vertical-align:top}\n\
+          table.figures th{background:#f2f2f2}table.figures td:first-child{width:34%}\n.num{font-variant-numeric:tabular-nums}\npre{font-family:inherit;white-space:pre-wrap;background:#f6f6f6;padding:.5em}\n.note{color:#555;font-size:.92em}\n</style>\n";
+    head += "</head>\n";
+    Ok(head + &h)
 }
 
 /// The figures table.

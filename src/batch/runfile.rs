@@ -124,7 +124,11 @@ pub(crate) struct InputHashes(std::thread::JoinHandle<Result<BTreeMap<String, In
 
 impl InputHashes {
     pub(crate) fn start(suitability: &Path, records: &Path, opts: &RangeOptions) -> InputHashes {
-        let (s, r, o) = (suitability.to_path_buf(), records.to_path_buf(), opts.clone());
+        let (s, r, o) = (
+            suitability.to_path_buf(),
+            records.to_path_buf(),
+            opts.clone(),
+        );
         InputHashes(std::thread::spawn(move || inputs_of(&s, &r, &o)))
     }
 
@@ -135,7 +139,11 @@ impl InputHashes {
     }
 }
 
-fn write_hashed(dir: &Path, inputs: BTreeMap<String, InputFile>, opts: &RangeOptions) -> Result<()> {
+fn write_hashed(
+    dir: &Path,
+    inputs: BTreeMap<String, InputFile>,
+    opts: &RangeOptions,
+) -> Result<()> {
     let rf = RunFile {
         areal_version: env!("CARGO_PKG_VERSION").to_string(),
         cwd: cwd(),

@@ -43,6 +43,6 @@ pub(crate) fn write(
     std::fs::write(&png, &files.map_png).map_err(crate::Error::io(&png))?;
     crate::output::write_text(
         &dir.file("report.html"),
-        &insert_sections(&files.html, &sections),
+        &insert_sections(&files.html, &sections)?,
     )
 }

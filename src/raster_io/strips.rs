@@ -133,7 +133,11 @@ fn count_reached<T: Sample>(values: &[T], codes: &[u8], cands: &[T], out: &mut V
             }
         }
         for (o, &k) in o.iter_mut().zip(k) {
-            *o = if k == class::NODATA { class::NODATA } else { *o };
+            *o = if k == class::NODATA {
+                class::NODATA
+            } else {
+                *o
+            };
         }
     }
 }

@@ -10,7 +10,7 @@
 use super::draw::PANEL_MAX;
 use super::image::Window;
 use super::page::escape;
-use super::{fmt_num, palette};
+use super::{fmt_num, palette, text};
 use crate::change::CHANGE_STYLES;
 use crate::Result;
 use base64::Engine as _;
@@ -224,13 +224,26 @@ pub fn section(summary: &Value, key: &str, png: &[u8]) -> String {
     h
 }
 
-/// `page` with `sections` placed before its warnings (or at the end of the body).
-pub fn insert_sections(page: &str, sections: &str) -> String {
+/// `page` with `sections` placed before its warnings (or at the end of the body). The page
+/// embeds only the glyphs of its own text, so its font face is made again for the text with
+/// the sections.
+pub fn insert_sections(page: &str, sections: &str) -> Result<String> {
+    let body_at = page.find("</head>\n").map_or(0, |i| i + "</head>\n".len());
     let at = page
         .find("<h2>Warnings</h2>")
         .or_else(|| page.rfind("</body>"))
-        .unwrap_or(page.len());
-    format!("{}{}{}", &page[..at], sections, &page[at..])
+        .unwrap_or(page.len())
+        .max(body_at);
+    let (head, body) = page.split_at(body_at);
+    let new_body = format!(
+        "{}{}{}",
+        &body[..at - body_at],
+        sections,
+        &body[at - body_at..]
+    );
+    let old_face = text::css_face(&text::page_chars(body))?;
+    let new_face = text::css_face(&text::page_chars(&new_body))?;
+    Ok(head.replacen(&old_face, &new_face, 1) + &new_body)
 }
 
 #[cfg(test)]
@@ -255,5 +268,17 @@ mod tests {
         assert_eq!(px[2 * t.cols + 2999 / 4], 1);
         assert_eq!(change_colour(2), [186, 64, 47]);
         assert_eq!(change_colour(255), palette::NODATA);
+    }
+
+    #[test]
+    fn the_embedded_face_covers_the_inserted_text() {
+        let body = "<body>\n<p>abc</p>\n<h2>Warnings</h2>\n</body>\n</html>\n";
+        let face = text::css_face(&text::page_chars(body)).unwrap();
+        let page = format!("<html><head><style>{face}</style></head>\n{body}");
+        let out = insert_sections(&page, "<p>xyz 42</p>\n").unwrap();
+        let (_, new_body) = out.split_at(out.find("</head>\n").unwrap() + 8);
+        assert!(new_body.starts_with("<body>\n<p>abc</p>\n<p>xyz 42</p>\n<h2>Warnings</h2>"));
+        let want = text::css_face(&text::page_chars(new_body)).unwrap();
+        assert!(out.contains(&want) && !out.contains(&face));
     }
 }

@@ -38,6 +38,8 @@ mod tests;
 #[cfg(test)]
 mod tests_aoo;
 #[cfg(test)]
+mod tests_nearest;
+#[cfg(test)]
 mod tests_range;
 
 pub use aoo::ORIGIN_FRACTIONS;

@@ -79,6 +79,12 @@ impl Corners {
         self.start.len() - 1
     }
 
+    /// The (lat, lon) corners of patch index `p`.
+    #[cfg(test)]
+    pub(crate) fn of_patch(&self, p: usize) -> &[(f64, f64)] {
+        &self.pts[self.start[p]..self.start[p + 1]]
+    }
+
     /// A lower bound (metres) on the geodesic between corners `i` and `j`.
     fn lower(&self, i: usize, j: usize) -> f64 {
         ball_bound(self.pts[i], self.pts[j], &self.xyz[i], &self.xyz[j])

@@ -118,13 +118,10 @@ pub(crate) fn run_pass(
                     }
                     let y0 = i * STRIP_ROWS;
                     let rows = STRIP_ROWS.min(h - y0);
+                    let mut bins = Vec::new();
                     let out = reader
-                        .classify_rows(y0, rows, t, &mut bufs, &mut codes)
+                        .classify_and_bin(y0, rows, t, cands, &mut bufs, &mut codes, &mut bins)
                         .map(|binary| {
-                            let mut bins = Vec::new();
-                            if !cands.is_empty() {
-                                reader.bins(&bufs, &codes, cands, &mut bins);
-                            }
                             if let Some(f) = filler.as_mut() {
                                 apply_m_in_worker(f, y0, w, &mut codes);
                             }

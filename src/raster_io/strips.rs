@@ -65,6 +65,24 @@ impl StripReader {
         bufs: &mut StripBuffers,
         codes: &mut Vec<u8>,
     ) -> Result<bool> {
+        self.classify_and_bin(y0, rows, t, &[], bufs, codes, &mut Vec::new())
+    }
+
+    /// [`StripReader::classify_rows`], and for each cell how many of the ascending
+    /// thresholds `cands` its value reaches (`v >= t`, the comparison the pass makes; 255 for
+    /// nodata) into `bins` (left empty when there are no candidates). Both are made block by
+    /// block while the values are in cache.
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn classify_and_bin(
+        &self,
+        y0: usize,
+        rows: usize,
+        t: f64,
+        cands: &[f64],
+        bufs: &mut StripBuffers,
+        codes: &mut Vec<u8>,
+        bins: &mut Vec<u8>,
+    ) -> Result<bool> {
         let n = self.width * rows;
         let band = self
             .ds
@@ -72,6 +90,10 @@ impl StripReader {
             .map_err(Error::gdal(&self.path, "reading band 1"))?;
         let what = || format!("reading rows {y0}..{}", y0 + rows);
         codes.resize(n, 0);
+        bins.clear();
+        if !cands.is_empty() {
+            bins.resize(n, 0);
+        }
         let mut non_finite = 0u64;
         let binary = if self.as_f32 {
             bufs.f32s.resize(n, 0.0);
@@ -83,7 +105,14 @@ impl StripReader {
                 None,
             )
             .map_err(Error::gdal(&self.path, what()))?;
-            code_cells_f32(&bufs.f32s, codes, t, self.nodata, &mut non_finite)
+            code_cells_f32(
+                &bufs.f32s,
+                codes,
+                t,
+                self.nodata,
+                (cands, bins),
+                &mut non_finite,
+            )
         } else {
             bufs.f64s.resize(n, 0.0);
             band.read_into_slice::<f64>(
@@ -94,51 +123,61 @@ impl StripReader {
                 None,
             )
             .map_err(Error::gdal(&self.path, what()))?;
-            code_cells_f64(&bufs.f64s, codes, t, self.nodata, &mut non_finite)
+            code_cells_f64(
+                &bufs.f64s,
+                codes,
+                t,
+                self.nodata,
+                (cands, bins),
+                &mut non_finite,
+            )
         };
         self.non_finite.add_strip(y0, rows, non_finite);
         Ok(binary)
     }
 }
 
-impl StripReader {
-    /// For each cell of the strip last read into `bufs` by [`StripReader::classify_rows`]
-    /// (with its `codes`): how many of the ascending thresholds `cands` its value reaches
-    /// (`v >= t`, the comparison the pass makes), or 255 for nodata.
-    pub(crate) fn bins(&self, bufs: &StripBuffers, codes: &[u8], cands: &[f64], out: &mut Vec<u8>) {
-        if self.as_f32 {
-            let t: Vec<f32> = cands.iter().map(|&c| f32_threshold(c)).collect();
-            count_reached(&bufs.f32s, codes, &t, out);
-        } else {
-            count_reached(&bufs.f64s, codes, cands, out);
+/// Code the cells (see [`code_cells`]) and, when `bins` is not empty, count the candidates
+/// each reaches, in blocks small enough to stay in the first-level cache between the two.
+fn code_and_bin<T: Sample>(
+    values: &[T],
+    codes: &mut [u8],
+    t: T,
+    nd: T,
+    cands: &[T],
+    bins: &mut [u8],
+    non_finite: &mut u64,
+) -> bool {
+    const BLOCK: usize = 2048;
+    let mut binary = true;
+    for (i, (v, k)) in values
+        .chunks(BLOCK)
+        .zip(codes.chunks_mut(BLOCK))
+        .enumerate()
+    {
+        binary &= code_cells(v, k, t, nd, non_finite);
+        if !bins.is_empty() {
+            count_reached(v, k, cands, &mut bins[i * BLOCK..i * BLOCK + v.len()]);
         }
     }
+    binary
 }
 
-/// Per cell, how many of `cands` its value reaches (255 where `codes` says nodata). Blocks
-/// of cells small enough to stay in the first-level cache take one simple loop per
-/// candidate (these vectorise), then the nodata cells are marked.
-fn count_reached<T: Sample>(values: &[T], codes: &[u8], cands: &[T], out: &mut Vec<u8>) {
-    const BLOCK: usize = 2048;
-    out.clear();
-    out.resize(values.len(), 0);
-    for ((o, v), k) in out
-        .chunks_mut(BLOCK)
-        .zip(values.chunks(BLOCK))
-        .zip(codes.chunks(BLOCK))
-    {
-        for &c in cands {
-            for (o, &v) in o.iter_mut().zip(v) {
-                *o += (v >= c) as u8;
-            }
+/// Per cell, how many of `cands` its value reaches (255 where `codes` says nodata): one
+/// simple loop per candidate (these vectorise), then the nodata cells are marked.
+fn count_reached<T: Sample>(values: &[T], codes: &[u8], cands: &[T], out: &mut [u8]) {
+    out.fill(0);
+    for &c in cands {
+        for (o, &v) in out.iter_mut().zip(values) {
+            *o += (v >= c) as u8;
         }
-        for (o, &k) in o.iter_mut().zip(k) {
-            *o = if k == class::NODATA {
-                class::NODATA
-            } else {
-                *o
-            };
-        }
+    }
+    for (o, &k) in out.iter_mut().zip(codes) {
+        *o = if k == class::NODATA {
+            class::NODATA
+        } else {
+            *o
+        };
     }
 }
 
@@ -204,28 +243,40 @@ fn code_cells<T: Sample>(
     not_binary == 0
 }
 
-/// Code float32 cells; `t` is compared exactly as in float64 (see [`f32_threshold`]) and,
-/// as GDAL does for float32 bands, the nodata value is taken at float32 precision.
+/// Code float32 cells (and count the candidates they reach into `bins`, unless empty); `t`
+/// and the candidates are compared exactly as in float64 (see [`f32_threshold`]) and, as
+/// GDAL does for float32 bands, the nodata value is taken at float32 precision.
 fn code_cells_f32(
     values: &[f32],
     codes: &mut [u8],
     t: f64,
     nodata: Option<f64>,
+    (cands, bins): (&[f64], &mut [u8]),
     non_finite: &mut u64,
 ) -> bool {
     let nd = nodata.map(|v| v as f32).unwrap_or(f32::NAN);
-    code_cells(values, codes, f32_threshold(t), nd, non_finite)
+    let c32: Vec<f32> = cands.iter().map(|&c| f32_threshold(c)).collect();
+    code_and_bin(values, codes, f32_threshold(t), nd, &c32, bins, non_finite)
 }
 
-/// Code float64 cells.
+/// Code float64 cells (and count the candidates they reach into `bins`, unless empty).
 fn code_cells_f64(
     values: &[f64],
     codes: &mut [u8],
     t: f64,
     nodata: Option<f64>,
+    (cands, bins): (&[f64], &mut [u8]),
     non_finite: &mut u64,
 ) -> bool {
-    code_cells(values, codes, t, nodata.unwrap_or(f64::NAN), non_finite)
+    code_and_bin(
+        values,
+        codes,
+        t,
+        nodata.unwrap_or(f64::NAN),
+        cands,
+        bins,
+        non_finite,
+    )
 }
 
 #[cfg(test)]
@@ -261,14 +312,28 @@ mod tests {
         ];
         let mut k = [9u8; 8];
         let mut nf = 0;
-        let binary = code_cells_f32(&v, &mut k, 0.12f32 as f64, Some(-9999.0), &mut nf);
+        let binary = code_cells_f32(
+            &v,
+            &mut k,
+            0.12f32 as f64,
+            Some(-9999.0),
+            (&[], &mut []),
+            &mut nf,
+        );
         assert_eq!(k, [0, 0, 1, 1, 255, 255, 255, 255]);
         assert!(!binary);
         assert_eq!(nf, 3, "NaN, +inf and -inf");
         let v64: Vec<f64> = v.iter().map(|&x| x as f64).collect();
         let mut k64 = [9u8; 8];
         let mut nf64 = 0;
-        code_cells_f64(&v64, &mut k64, 0.12f32 as f64, Some(-9999.0), &mut nf64);
+        code_cells_f64(
+            &v64,
+            &mut k64,
+            0.12f32 as f64,
+            Some(-9999.0),
+            (&[], &mut []),
+            &mut nf64,
+        );
         assert_eq!(k64, k);
         assert_eq!(nf64, 3);
         let mut kb = [9u8; 4];
@@ -277,9 +342,50 @@ mod tests {
             &mut kb,
             0.5,
             Some(-9999.0),
+            (&[], &mut []),
             &mut nf,
         );
         assert!(kb_binary);
+    }
+
+    #[test]
+    fn bins_count_the_candidates_each_value_reaches() {
+        // Candidates 0.12 (not an f32 value) and 0.5 (one); `v >= c` as in float64, as the
+        // threshold itself is compared; nodata, NaN and inf marked 255. Long enough for
+        // several blocks.
+        let pattern = [0.1f32, 0.12, 0.12f32.next_up(), 0.5, 0.7, -9999.0, f32::NAN];
+        let v: Vec<f32> = pattern.iter().cycle().take(7 * 1000).copied().collect();
+        let want_one = |x: f32| -> u8 {
+            if x == -9999.0 || !x.is_finite() {
+                255
+            } else {
+                (x as f64 >= 0.12) as u8 + (x as f64 >= 0.5) as u8
+            }
+        };
+        let mut k = vec![0u8; v.len()];
+        let mut bins = vec![0u8; v.len()];
+        code_cells_f32(
+            &v,
+            &mut k,
+            0.3,
+            Some(-9999.0),
+            (&[0.12, 0.5], &mut bins),
+            &mut 0,
+        );
+        for (i, &x) in v.iter().enumerate() {
+            assert_eq!(bins[i], want_one(x), "cell {i} value {x}");
+        }
+        let v64: Vec<f64> = v.iter().map(|&x| x as f64).collect();
+        let mut bins64 = vec![0u8; v.len()];
+        code_cells_f64(
+            &v64,
+            &mut k,
+            0.3,
+            Some(-9999.0),
+            (&[0.12, 0.5], &mut bins64),
+            &mut 0,
+        );
+        assert_eq!(bins64, bins);
     }
 
     #[test]
@@ -287,7 +393,7 @@ mod tests {
         // A Float32 band with nodata "0.1": its cells hold 0.1f32 (0.100000001...), which
         // GDAL treats as nodata (the nodata value is cast to the band type; from memory).
         let mut k = [9u8; 2];
-        code_cells_f32(&[0.1, 0.9], &mut k, 0.5, Some(0.1), &mut 0);
+        code_cells_f32(&[0.1, 0.9], &mut k, 0.5, Some(0.1), (&[], &mut []), &mut 0);
         assert_eq!(k, [255, 1]);
     }
 }

@@ -60,7 +60,8 @@ def main():
     ap.add_argument("--sizes", default="S")
     ap.add_argument("--dispersal-km", default="50")
     ap.add_argument("--buffer-km", default="200")
-    ap.add_argument("--metrics", action="store_true", help="also run with the metrics on")
+    ap.add_argument("--metrics", action="store_true",
+                    help="also time the default run (metrics and report on)")
     ap.add_argument("--metrics-sizes", default=None,
                     help="with --metrics, only these sizes (e.g. S,M: on L the metrics take minutes)")
     ap.add_argument("--out", default=os.path.join(common.ROOT, "docs", "bench-change.md"))
@@ -95,7 +96,8 @@ def main():
                 print(f"{size} {mode}: stable {c['area_km2']['stable']:.0f} km2, lost {c['area_km2']['lost']:.0f}, "
                       f"gained within {c['area_km2']['gained_within_reach']:.0f}, beyond "
                       f"{c['area_km2']['gained_out_of_reach']:.0f}", file=sys.stderr)
-                label = f"areal change, D = {a.dispersal_km} km" + (", metrics" if metrics else ", --no-metrics")
+                label = f"areal change, D = {a.dispersal_km} km" + (
+                    ", default run (metrics, report)" if metrics else ", --no-metrics (report on)")
                 rows.append((size, mode, label, s, mb, s / floor_s, None, None))
     common.write_table(a.out, rows)
 

@@ -47,6 +47,7 @@ pub const OUTPUT_NAMES: &[&str] = &[
     "change.tif",
     "change.tif.aux.xml",
     "change.csv",
+    "change-map.png",
     "agreement.tif",
     "agreement.tif.aux.xml",
 ];

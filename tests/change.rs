@@ -49,7 +49,7 @@ fn check_against_reference(out: &Path, g: &RefGrid, case: &RefCase, eight: bool)
         .filter(|&i| {
             case.present[i] != ND
                 && case.present[i] as f64 >= case.t
-                && case.in_m.map_or(true, |m| m[i])
+                && case.in_m.is_none_or(|m| m[i])
         })
         .map(|i| g.area[i])
         .sum::<f64>()

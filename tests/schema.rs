@@ -89,6 +89,74 @@ fn summaries_with_a_wrong_type_fail_validation() {
 }
 
 #[test]
+fn change_summary_is_valid_and_its_contract_keys_are_checked() {
+    // The demo raster as present and future: every present-range cell is stable.
+    let t = tempfile::tempdir().unwrap();
+    let out = t.path().join("chg");
+    let s = |p: &std::path::Path| p.to_str().unwrap().to_string();
+    let o = run(&[
+        "change",
+        "--present",
+        &s(&demo("suitability.tif")),
+        "--future",
+        &s(&demo("suitability.tif")),
+        "--records",
+        &s(&demo("records.csv")),
+        "--omission",
+        "5",
+        "--dispersal-km",
+        "10",
+        "--out",
+        &s(&out),
+        "--quiet",
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    // json() validates against the committed schema.
+    let good = json(&out.join("summary.json"));
+    assert!(good["change"]["aoo_km2"]["future_range"]["full_dispersal"].is_f64());
+    let mutations: [(&str, serde_json::Value); 4] = [
+        ("/change/area_km2/stable", serde_json::json!("12.5")),
+        (
+            "/change/future_range_km2/limited_dispersal",
+            serde_json::json!(null),
+        ),
+        ("/change/patches/lost", serde_json::json!(-2)),
+        ("/change/aoo_km2/present_range", serde_json::json!([1.0])),
+    ];
+    for (ptr, bad) in mutations {
+        let mut v = good.clone();
+        *v.pointer_mut(ptr).unwrap_or_else(|| panic!("{ptr} exists")) = bad;
+        assert!(
+            !schema_errors(&v).is_empty(),
+            "{ptr} with a wrong type validated"
+        );
+    }
+    // Each contract key of issue 12 is required.
+    for (section, key) in [
+        ("/change", "threshold"),
+        ("/change/area_km2", "present_range"),
+        ("/change/area_km2", "gained_out_of_reach"),
+        ("/change/future_range_km2", "full_dispersal"),
+        ("/change/future_range_in_m_km2", "no_dispersal"),
+        ("/change/percent_change", "limited_dispersal"),
+        ("/change", "patches"),
+        ("/change", "dispersal_km"),
+        ("/change", "aoo_km2"),
+    ] {
+        let mut v = good.clone();
+        v.pointer_mut(section)
+            .unwrap()
+            .as_object_mut()
+            .unwrap()
+            .remove(key);
+        assert!(
+            !schema_errors(&v).is_empty(),
+            "{section} without {key} validated"
+        );
+    }
+}
+
+#[test]
 fn completions_and_man_page_come_from_the_options() {
     let bash = run(&["completions", "bash"]);
     assert!(bash.status.success());

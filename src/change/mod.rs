@@ -15,6 +15,7 @@ mod pass;
 mod present;
 mod reach;
 mod report;
+mod report_files;
 #[cfg(test)]
 mod tests;
 
@@ -69,7 +70,7 @@ pub struct ChangeResult {
 
 /// Our own palette: pale stone unsuitable, dark green stable, brick red lost, sky blue
 /// gained within reach, lilac gained beyond reach (nodata transparent).
-const CHANGE_STYLES: [ClassStyle; 5] = [
+pub const CHANGE_STYLES: [ClassStyle; 5] = [
     ClassStyle {
         value: 0,
         name: code::NAMES[0],
@@ -232,12 +233,15 @@ pub fn run_change(
         inputs.push(p);
     }
     let dir = crate::output::OutputDir::prepare(out, overwrite, &inputs)?;
+    let mut clock = crate::progress::StageClock::new();
 
     // 1. The present run, its class rows kept as runs on their way to classes.tif.
     let classes_path = dir.file("classes.tif");
     let mut writer = ClassWriter::create(&classes_path, &grid)?;
+    // The report's map needs the present nodata, which the model does not hold.
+    let mut nodata_tee = crate::report_html::runs::NodataTee::new(&mut writer, grid.width);
     let mut tee = present::TeeSink {
-        inner: &mut writer,
+        inner: &mut nodata_tee,
         runs: present::PresentRuns::new(grid.width, grid.height),
     };
     let mut range_opts = opts.range.clone();
@@ -246,12 +250,12 @@ pub fn run_change(
     }
     let (mut result, model) = compute_range(present_path, records, &range_opts, &mut tee)?;
     let present_runs = Arc::new(tee.runs);
+    let present_nodata = nodata_tee.runs;
     crate::styles::describe_classes(writer.dataset(), &classes_path, &result.summary)?;
     writer.close()?;
-    if opts.range.metrics.enabled {
-        crate::metrics::add_range_metrics(&mut result, &model, &opts.range.metrics, false)?;
-    }
+    clock.lap("change: present pass");
     let t = result.summary.threshold.value;
+    let whole = result.summary.accessible.whole_raster;
 
     // 2. The futures, in lockstep.
     let several = futures.len() > 1;
@@ -287,25 +291,35 @@ pub fn run_change(
         .dispersal_km
         .map(|d| reach::ReachSpec::new(&grid, present_runs.clone(), d))
         .transpose()?;
-    let mut occupancy = if opts.range.metrics.enabled {
-        let recs = aoo_records(&result, opts.range.metrics.keep_dropped);
-        if recs.is_empty() || present_runs.range_cells() > occupancy::MAX_AOO_CELLS {
-            None
-        } else {
-            Some(occupancy::Occupancy::new(
-                &grid,
-                &recs,
-                opts.range.metrics.aoo_cell_km,
-                futures.len(),
-            )?)
-        }
+    // The futures' ranges as runs, for their modelled AOO (with the metrics and a record used).
+    let aoo_recs = aoo_records(&result, opts.range.metrics.keep_dropped);
+    let mut future_runs = if opts.range.metrics.enabled && !aoo_recs.is_empty() {
+        Some(
+            (0..futures.len())
+                .map(|_| occupancy::FutureRuns::new(&grid))
+                .collect::<Result<Vec<_>>>()?,
+        )
     } else {
         None
     };
-    let totals = {
+    let mut thumbs = opts.range.report.then(|| {
+        (0..futures.len())
+            .map(|_| crate::report_html::change::ChangeThumb::new(grid.width, grid.height))
+            .collect::<Vec<_>>()
+    });
+    // The present run's metrics read only the model: they run on their own thread while the
+    // futures stream (the pass leaves a core partly idle on its consumer thread).
+    let (totals, metrics_done) = std::thread::scope(|scope| {
+        let metrics = opts.range.metrics.enabled.then(|| {
+            let (result, model) = (&mut result, &model);
+            scope.spawn(move || {
+                crate::metrics::add_range_metrics(result, model, &opts.range.metrics, false)
+                    .map(|_| ())
+            })
+        });
         let mut sinks: Vec<&mut dyn RowSink> =
             writers.iter_mut().map(|w| w as &mut dyn RowSink).collect();
-        pass::run_pass(
+        let totals = pass::run_pass(
             pass::PassInput {
                 grid: &grid,
                 present: &present_runs,
@@ -313,44 +327,56 @@ pub fn run_change(
                 t,
                 reach: reach.as_ref(),
                 model: &model,
-                whole: result.summary.accessible.whole_raster,
+                whole,
                 connectivity: opts.range.connectivity,
                 progress: &opts.range.progress,
             },
             &mut sinks,
             agreement.as_mut().map(|a| a as &mut dyn RowSink),
-            occupancy.as_mut(),
-        )?
-    };
+            future_runs.as_deref_mut(),
+            thumbs.as_deref_mut(),
+        );
+        let done = metrics.map(|h| h.join().unwrap_or_else(|p| std::panic::resume_unwind(p)));
+        (totals, done)
+    });
+    let totals = totals?;
+    metrics_done.transpose()?;
+    clock.lap("change: futures pass and present metrics");
     for w in writers {
         w.close_with_overviews()?;
     }
     if let Some(a) = agreement {
         a.close_with_overviews()?;
     }
+    clock.lap("change: change.tif overviews");
 
     // 3. Reports.
     let present_km2 = result.summary.area_km2.inside_accessible;
-    let aoo_note = if !opts.range.metrics.enabled {
-        None
-    } else if occupancy.as_ref().map_or(true, |o| o.overflow) {
-        Some(format!(
-            "modelled AOO of the present and future ranges left out: more than {} cells to count (or no record used); run on a coarser grid for it",
-            occupancy::MAX_AOO_CELLS
-        ))
-    } else {
-        None
-    };
-    let mut aoo_figs = occupancy.as_mut().filter(|o| !o.overflow).map(|o| {
-        let present = o.present.figures().min_km2();
+    let aoo_note = (opts.range.metrics.enabled && aoo_recs.is_empty()).then(|| {
+        "modelled AOO of the present and future ranges left out: no record is used, so the AOO grid has no centre".to_string()
+    });
+    let counted = future_runs
+        .map(|fr| {
+            occupancy::count(
+                &grid,
+                &aoo_recs,
+                opts.range.metrics.aoo_cell_km,
+                &present_runs,
+                &fr,
+            )
+        })
+        .transpose()?;
+    clock.lap("change: modelled AOO of the ranges");
+    let mut aoo_figs = counted.map(|o| {
+        let present = o.present.min_km2();
         let cell_km = o.cell_km;
         o.futures
-            .iter_mut()
+            .iter()
             .map(|[a, b, c]| {
                 let r = report::DispersalRules {
-                    no_dispersal: a.figures().min_km2(),
-                    limited_dispersal: b.figures().min_km2(),
-                    full_dispersal: c.figures().min_km2(),
+                    no_dispersal: a.min_km2(),
+                    limited_dispersal: b.min_km2(),
+                    full_dispersal: c.min_km2(),
                 };
                 ChangeAoo {
                     cell_km,
@@ -437,8 +463,25 @@ pub fn run_change(
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&summary).expect("summary serialises");
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
+    if let Some(thumbs) = &thumbs {
+        let written = serde_json::to_value(&summary).expect("summary serialises");
+        let maps: Vec<PathBuf> = change_paths
+            .iter()
+            .map(|p| p.with_file_name("change-map.png"))
+            .collect();
+        report_files::write(
+            &dir,
+            &result,
+            &model,
+            &present_nodata,
+            written,
+            thumbs,
+            &maps,
+        )?;
+    }
     drop(model); // removes its spill file before the folder is committed
     dir.commit()?;
+    clock.lap("change: reports and commit");
     Ok(ChangeResult {
         summary,
         present: result,

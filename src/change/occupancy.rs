@@ -1,109 +1,135 @@
-//! Modelled AOO of the present range and of each future range, counted on the AOO grid of
-//! the metrics (`metrics::aoo`: LAEA centred on the records used, 16 origins, minimum
-//! reported): a grid cell is occupied when the centre of at least one raster cell of the
-//! range falls in it. Every range cell is transformed once, whatever the number of ranges.
+//! Modelled AOO of the present range and of each future range under the three dispersal
+//! rules, counted by the metrics' run-based AOO (`metrics::aoo_runs::count_rows`: LAEA centred
+//! on the records used, quarter-cell bitmap, 16 origins, minimum reported): a grid cell is
+//! occupied when the centre of at least one raster cell of the range falls in it.
+//!
+//! The pass keeps each future's classes 1, 3 and 4 as runs per row ([`FutureRuns`]); the
+//! present range is already held as runs. After the pass each range is counted in turn, so
+//! memory follows the runs and one bitmap's touched tiles, not the cells.
 
-use crate::metrics::aoo::{self, AooCounter, AooGrid, RowProjector};
-use crate::{GridSpec, Result};
+use super::pass::code;
+use super::present::PresentRuns;
+use crate::metrics::aoo::{self, AooFigures, AooGrid};
+use crate::metrics::aoo_runs::{count_rows, RowRuns, RowVisit};
+use crate::{Error, GridSpec, Result};
+use std::ops::Range;
 
-/// Most cells added over all counters before the AOO is left out (memory: 8 bytes a cell).
-pub(crate) const MAX_AOO_CELLS: u64 = 30_000_000;
+/// Largest raster width whose columns fit the packed runs (2^30).
+const MAX_WIDTH: usize = 1 << 30;
 
-/// Counters for the present range and, per future, no, limited and full dispersal.
-pub(crate) struct Occupancy {
-    project: RowProjector,
-    pub(crate) cell_km: f64,
-    pub(crate) present: AooCounter,
-    /// Per future: [no dispersal, limited, full].
-    pub(crate) futures: Vec<[AooCounter; 3]>,
-    added: u64,
-    /// More than [`MAX_AOO_CELLS`] were added: the counters were dropped.
-    pub(crate) overflow: bool,
-    cols: Vec<u32>,
-    xy: Vec<(f64, f64)>,
-    /// Per cell of the row being added: bit 0 present, then 3 bits per future.
-    member: Vec<u64>,
+/// One future's cells of class 1 (stable), 3 and 4 (gains) as runs per row: `(start, end)`
+/// with the class index (0 stable, 1 within reach, 2 out of reach) in the top 2 bits of
+/// `end`.
+pub(crate) struct FutureRuns {
+    rows: Vec<Vec<(u32, u32)>>,
 }
 
-impl Occupancy {
-    /// Counters on the AOO grid centred on `records` ((lon, lat) degrees), for
-    /// `n_futures` futures (at most 20).
-    pub(crate) fn new(
-        grid: &GridSpec,
-        records: &[(f64, f64)],
-        cell_km: f64,
-        n_futures: usize,
-    ) -> Result<Occupancy> {
-        let (lon0, lat0) = aoo::centre_of(records);
-        let g = AooGrid::new(lon0, lat0, cell_km)?;
-        let project = g.spec().projector(grid)?;
-        let counter = || AooCounter::new(g.cell_m);
-        Ok(Occupancy {
-            project,
-            cell_km,
-            present: counter(),
-            futures: (0..n_futures)
-                .map(|_| [counter(), counter(), counter()])
-                .collect(),
-            added: 0,
-            overflow: false,
-            cols: Vec::new(),
-            xy: Vec::new(),
-            member: Vec::new(),
+impl FutureRuns {
+    pub(crate) fn new(grid: &GridSpec) -> Result<FutureRuns> {
+        if grid.width >= MAX_WIDTH {
+            return Err(Error::InvalidOption {
+                option: "--future",
+                reason: format!(
+                    "the raster is {} columns wide; the modelled AOO of the ranges handles fewer than {MAX_WIDTH}; use --no-metrics",
+                    grid.width
+                ),
+            });
+        }
+        Ok(FutureRuns {
+            rows: vec![Vec::new(); grid.height],
         })
     }
 
-    /// Add the cells of `row`: `present[c] == 1` marks the present range, `futures[f][c]`
-    /// the change class of future f (1 stable, 3 and 4 gains); `dispersal` tells whether
-    /// class 3 exists.
-    pub(crate) fn add_row(&mut self, row: usize, present: &[u8], futures: &[&[u8]]) -> Result<()> {
-        if self.overflow {
-            return Ok(());
-        }
-        if self.added > MAX_AOO_CELLS {
-            // Free the memory; the report says why the AOO is missing.
-            self.overflow = true;
-            self.present = AooCounter::new(1000.0);
-            self.futures.clear();
-            return Ok(());
-        }
-        self.member.clear();
-        self.cols.clear();
-        for c in 0..present.len() {
-            let mut m = (present[c] == 1) as u64;
-            for (f, cls) in futures.iter().enumerate() {
-                let k = cls[c];
-                let bits = match k {
-                    1 => 0b111,
-                    3 => 0b110,
-                    4 => 0b100,
-                    _ => 0,
-                };
-                m |= bits << (1 + 3 * f);
-            }
-            if m != 0 {
-                self.member.push(m);
-                self.cols.push(c as u32);
-            }
-        }
-        if self.cols.is_empty() {
-            return Ok(());
-        }
-        self.project.row(row, &self.cols, &mut self.xy)?;
-        for (&m, &(x, y)) in self.member.iter().zip(&self.xy) {
-            if m & 1 == 1 {
-                self.present.add(x, y);
-                self.added += 1;
-            }
-            for (f, cs) in self.futures.iter_mut().enumerate() {
-                for (k, counter) in cs.iter_mut().enumerate() {
-                    if (m >> (1 + 3 * f + k)) & 1 == 1 {
-                        counter.add(x, y);
-                        self.added += 1;
-                    }
+    /// Keep the runs of classes 1, 3 and 4 of change row `row`.
+    pub(crate) fn take_row(&mut self, row: usize, cls: &[u8]) {
+        let out = &mut self.rows[row];
+        out.clear();
+        let mut c = 0;
+        while c < cls.len() {
+            let k = cls[c];
+            let tag = match k {
+                code::STABLE => 0u32,
+                code::GAINED_WITHIN => 1,
+                code::GAINED_BEYOND => 2,
+                _ => {
+                    c += 1;
+                    continue;
                 }
+            };
+            let s = c;
+            while c < cls.len() && cls[c] == k {
+                c += 1;
+            }
+            out.push((s as u32, c as u32 | tag << 30));
+        }
+        out.shrink_to_fit();
+    }
+
+    /// The runs of row `row` whose class index is at most `rule` (0 no dispersal: stable;
+    /// 1 limited: stable and within reach; 2 full: every gain too).
+    fn runs(&self, row: usize, rule: u32, out: &mut Vec<(u32, u32)>) {
+        out.clear();
+        out.extend(
+            self.rows[row]
+                .iter()
+                .filter(|&&(_, e)| e >> 30 <= rule)
+                .map(|&(s, e)| (s, e & (MAX_WIDTH as u32 - 1))),
+        );
+    }
+}
+
+/// The modelled AOO of the present range and, per future, of its range under no, limited and
+/// full dispersal.
+pub(crate) struct RangeAoo {
+    pub(crate) cell_km: f64,
+    pub(crate) present: AooFigures,
+    pub(crate) futures: Vec<[AooFigures; 3]>,
+}
+
+/// Count every range on the AOO grid centred on `records` ((lon, lat) degrees).
+pub(crate) fn count(
+    grid: &GridSpec,
+    records: &[(f64, f64)],
+    cell_km: f64,
+    present: &PresentRuns,
+    futures: &[FutureRuns],
+) -> Result<RangeAoo> {
+    let (lon0, lat0) = aoo::centre_of(records);
+    let g = AooGrid::new(lon0, lat0, cell_km)?;
+    let present_rows = |band: Range<usize>, f: &mut RowVisit| -> Result<()> {
+        for r in band {
+            if !present.range[r].is_empty() {
+                f(r, &present.range[r])?;
             }
         }
         Ok(())
+    };
+    let mut clock = crate::progress::StageClock::new();
+    let present_fig = count_rows(grid, &g, &present_rows as &RowRuns)?;
+    clock.lap("change: AOO of the present range");
+    let mut out = Vec::with_capacity(futures.len());
+    for fr in futures {
+        let mut figs = Vec::with_capacity(3);
+        for rule in 0..3u32 {
+            let rows = |band: Range<usize>, f: &mut RowVisit| -> Result<()> {
+                let mut runs = Vec::new();
+                for r in band {
+                    fr.runs(r, rule, &mut runs);
+                    if !runs.is_empty() {
+                        f(r, &runs)?;
+                    }
+                }
+                Ok(())
+            };
+            figs.push(count_rows(grid, &g, &rows as &RowRuns)?);
+            clock.lap("change: AOO of a future range");
+        }
+        let [a, b, c]: [AooFigures; 3] = figs.try_into().expect("three rules");
+        out.push([a, b, c]);
     }
+    Ok(RangeAoo {
+        cell_km,
+        present: present_fig,
+        futures: out,
+    })
 }

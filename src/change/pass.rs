@@ -8,7 +8,7 @@
 //! strips in order, measures areas, feeds one labeller per future, counts agreement and
 //! writes the rows.
 
-use super::occupancy::Occupancy;
+use super::occupancy::FutureRuns;
 use super::present::PresentRuns;
 use super::reach::ReachSpec;
 use crate::area::{CellAreas, RowAreas};
@@ -152,12 +152,14 @@ struct WorkerShared<'a> {
 }
 
 /// Run the pass. `sinks[f]` receives future f's change rows, `agreement` the per-cell count of
-/// futures whose range (limited dispersal, or full without D) holds the cell.
+/// futures whose range (limited dispersal, or full without D) holds the cell, `future_runs[f]`
+/// future f's range as runs (for the modelled AOO), `thumbs[f]` its decimated map (report).
 pub(crate) fn run_pass(
     inp: PassInput<'_>,
     sinks: &mut [&mut dyn RowSink],
     mut agreement: Option<&mut dyn RowSink>,
-    mut occupancy: Option<&mut Occupancy>,
+    mut future_runs: Option<&mut [FutureRuns]>,
+    mut thumbs: Option<&mut [crate::report_html::change::ChangeThumb]>,
 ) -> Result<Vec<FutureTotals>> {
     let grid = inp.grid;
     let (w, h) = (grid.width, grid.height);
@@ -282,10 +284,15 @@ pub(crate) fn run_pass(
                             *a = class::NODATA;
                         }
                     }
-                    if let Some(o) = occupancy.as_deref_mut() {
-                        let rows_f: Vec<&[u8]> =
-                            strip.codes.iter().map(|c| &c[r * w..(r + 1) * w]).collect();
-                        o.add_row(row, &pres, &rows_f)?;
+                    if let Some(runs) = future_runs.as_deref_mut() {
+                        for (fr, c) in runs.iter_mut().zip(&strip.codes) {
+                            fr.take_row(row, &c[r * w..(r + 1) * w]);
+                        }
+                    }
+                }
+                if let Some(t) = thumbs.as_deref_mut() {
+                    for (th, c) in t.iter_mut().zip(&strip.codes) {
+                        th.add_rows(y0, c);
                     }
                 }
                 for (f, sink) in sinks.iter_mut().enumerate() {

@@ -73,6 +73,7 @@ impl PresentRuns {
     }
 
     /// Number of present-range cells.
+    #[cfg(test)]
     pub(crate) fn range_cells(&self) -> u64 {
         self.range
             .iter()

@@ -12,7 +12,7 @@ use crate::{GridSpec, Result};
 use serde::Serialize;
 
 /// Areas of the change classes, km2.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct ChangeAreas {
     /// The present range (class 1 of the present run), all of it.
     pub present_range: f64,
@@ -29,7 +29,7 @@ pub struct ChangeAreas {
 }
 
 /// The future range under the three dispersal rules, km2 (or percent).
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct DispersalRules<T> {
     /// Stable cells only.
     pub no_dispersal: T,
@@ -40,7 +40,7 @@ pub struct DispersalRules<T> {
 }
 
 /// Cells and patches per change class.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct PerClass<T> {
     /// Class 0.
     pub unsuitable: T,
@@ -55,7 +55,7 @@ pub struct PerClass<T> {
 }
 
 /// Connected patches per change class.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct PatchCounts {
     /// Class 1.
     pub stable: usize,
@@ -68,7 +68,7 @@ pub struct PatchCounts {
 }
 
 /// Modelled AOO of the present and future ranges.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct ChangeAoo {
     /// AOO grid cell width, km.
     pub cell_km: f64,
@@ -83,7 +83,7 @@ pub struct ChangeAoo {
 }
 
 /// The `change` section for one future raster.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, schemars::JsonSchema)]
 pub struct ChangeReport {
     /// The future raster.
     pub future: String,
@@ -109,7 +109,7 @@ pub struct ChangeReport {
     pub cells_nodata: u64,
     /// Connected patches per class (classes 1 to 4).
     pub patches: PatchCounts,
-    /// Modelled AOO (null with --no-metrics or when too many cells).
+    /// Modelled AOO (null with --no-metrics, or when no record is used).
     pub aoo_km2: Option<ChangeAoo>,
     /// How the classes are made, and what to keep in mind.
     pub notes: Vec<String>,

@@ -65,6 +65,9 @@ pub(crate) struct ChangeArgs {
     /// Skip the range metrics (EOO, AOO, patch distances, reach, modelled AOO of the ranges).
     #[arg(long)]
     pub no_metrics: bool,
+    /// Do not write report.html, map.png and change-map.png.
+    #[arg(long)]
+    pub no_report: bool,
 }
 
 impl ChangeArgs {
@@ -94,8 +97,7 @@ impl ChangeArgs {
                 vectors: None,
                 metrics: self.metrics.to_options(!self.no_metrics)?,
                 model: Default::default(),
-                // The report is drawn by `areal range`; change writes its own outputs.
-                report: false,
+                report: !self.no_report,
             },
             dispersal_km: self.dispersal_km,
         })

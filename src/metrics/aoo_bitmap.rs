@@ -3,14 +3,24 @@
 //!
 //! The extent comes from the boundary corners of the occupied patches (the image of a region
 //! is bounded by the image of its boundary; a margin of two quarter cells covers the bulge of
-//! the cell edges between corners). A centre that still falls outside makes the caller fall
-//! back to sorted keys, so the count never depends on the margin. Above [`MAX_BITS`] the
-//! bitmap is not used either.
+//! the cell edges between corners), or is the whole LAEA disk ([`QuarterBitmap::whole_disk`]).
+//! A centre that still falls outside makes the caller fall back to sorted keys, so the count
+//! never depends on the margin. Above [`MAX_BITS`] the bitmap is not used either.
+//!
+//! The bits live in tiles of [`TILE_ROWS`] quarter rows by [`TILE_WORDS`] words, allocated when
+//! a cell in them is first set: memory follows the occupied area, not the extent.
 
 use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::OnceLock;
 
-/// Largest bitmap used (256 MiB).
-pub(crate) const MAX_BITS: u64 = 1 << 31;
+/// Largest extent a bitmap may span: 2^35 bits (the whole LAEA disk of a 1 km grid is about
+/// 2^33.3). Only touched tiles are allocated; the extent costs 24 bytes a tile of 2^15 bits.
+pub(crate) const MAX_BITS: u64 = 1 << 35;
+
+/// Quarter rows of a tile.
+const TILE_ROWS: usize = 64;
+/// Words (64 quarter columns each) across a tile.
+const TILE_WORDS: usize = 8;
 
 pub(crate) struct QuarterBitmap {
     /// Quarter cell width, metres.
@@ -20,8 +30,10 @@ pub(crate) struct QuarterBitmap {
     b0: i64,
     cols: usize,
     rows: usize,
-    words: usize,
-    bits: Vec<AtomicU64>,
+    /// Tiles across.
+    tiles_x: usize,
+    /// Tiles, row-major; a tile holds `TILE_ROWS * TILE_WORDS` words.
+    tiles: Vec<OnceLock<Box<[AtomicU64]>>>,
 }
 
 impl QuarterBitmap {
@@ -39,74 +51,108 @@ impl QuarterBitmap {
         if (words as u64) * 64 * rows as u64 > MAX_BITS {
             return None;
         }
-        let bits = (0..words * rows).map(|_| AtomicU64::new(0)).collect();
+        let tiles_x = words.div_ceil(TILE_WORDS);
+        let tiles = (0..tiles_x * rows.div_ceil(TILE_ROWS))
+            .map(|_| OnceLock::new())
+            .collect();
         Some(QuarterBitmap {
             q,
             a0,
             b0,
             cols,
             rows,
-            words,
-            bits,
+            tiles_x,
+            tiles,
         })
+    }
+
+    /// A bitmap covering x in -hx..hx and y in -hy..hy (the half widths of the whole LAEA
+    /// disk, [`super::laea::disk_half_widths`]), with a margin of two quarter cells.
+    pub(crate) fn whole_disk(q: f64, (hx, hy): (f64, f64)) -> Option<QuarterBitmap> {
+        let (hx, hy) = (hx + 2.0 * q, hy + 2.0 * q);
+        QuarterBitmap::new(q, (-hx, hx), (-hy, hy))
     }
 
     /// Mark the quarter cell holding (x, y); false when it lies outside the bitmap.
     pub(crate) fn set(&self, x: f64, y: f64) -> bool {
+        if !(x.is_finite() && y.is_finite()) {
+            return false;
+        }
         let a = (x / self.q).floor() as i64 - self.a0;
         let b = (y / self.q).floor() as i64 - self.b0;
         if a < 0 || b < 0 || a as usize >= self.cols || b as usize >= self.rows {
             return false;
         }
         let (a, b) = (a as usize, b as usize);
-        self.bits[b * self.words + a / 64].fetch_or(1 << (a % 64), Ordering::Relaxed);
+        let w = a / 64;
+        let tile = self.tiles[(b / TILE_ROWS) * self.tiles_x + w / TILE_WORDS].get_or_init(|| {
+            (0..TILE_ROWS * TILE_WORDS)
+                .map(|_| AtomicU64::new(0))
+                .collect()
+        });
+        tile[(b % TILE_ROWS) * TILE_WORDS + w % TILE_WORDS]
+            .fetch_or(1 << (a % 64), Ordering::Relaxed);
         true
     }
 
     /// Occupied cells at each origin (x offset k, y offset l quarter cells: index 4k + l):
     /// a cell of origin (k, l) covers quarter cells a in 4X + k .. 4X + k + 3 and b likewise.
     pub(crate) fn per_origin(&self) -> Vec<usize> {
-        let words: Vec<u64> = self
-            .bits
-            .iter()
-            .map(|w| w.load(Ordering::Relaxed))
-            .collect();
         let mut out = vec![0usize; 16];
-        let mut or = vec![0u64; self.words];
+        // The allocated tiles of each tile row, by increasing column.
+        let touched: Vec<Vec<usize>> = self
+            .tiles
+            .chunks(self.tiles_x)
+            .map(|row| {
+                (0..row.len())
+                    .filter(|&tx| row[tx].get().is_some())
+                    .collect()
+            })
+            .collect();
+        let mut txs: Vec<usize> = Vec::new();
         for l in 0..4i64 {
             // Rows b with the same (b - l) div 4 form one grid row of origin (., l).
             let first = (self.b0 - l).div_euclid(4);
             let last = (self.b0 + self.rows as i64 - 1 - l).div_euclid(4);
             for yrow in first..=last {
-                or.iter_mut().for_each(|w| *w = 0);
-                let mut any = false;
-                for b in 4 * yrow + l..4 * yrow + l + 4 {
-                    let r = b - self.b0;
-                    if r < 0 || r >= self.rows as i64 {
-                        continue;
-                    }
-                    let row = &words[r as usize * self.words..(r as usize + 1) * self.words];
-                    for (o, &w) in or.iter_mut().zip(row) {
-                        *o |= w;
-                        any |= w != 0;
-                    }
+                let rs: Vec<usize> = (4 * yrow + l..4 * yrow + l + 4)
+                    .map(|b| b - self.b0)
+                    .filter(|&r| r >= 0 && r < self.rows as i64)
+                    .map(|r| r as usize)
+                    .collect();
+                // The tile columns any of the four quarter rows has, in order.
+                txs.clear();
+                for ty in [rs[0] / TILE_ROWS, rs[rs.len() - 1] / TILE_ROWS] {
+                    txs.extend_from_slice(&touched[ty]);
                 }
-                if !any {
-                    continue;
-                }
+                txs.sort_unstable();
+                txs.dedup();
                 // Distinct grid columns among the set quarter columns, for each x offset.
                 let mut last_col = [i64::MIN; 4];
-                for (wi, &w) in or.iter().enumerate() {
-                    let mut w = w;
-                    while w != 0 {
-                        let bit = w.trailing_zeros() as i64;
-                        w &= w - 1;
-                        let a = self.a0 + wi as i64 * 64 + bit;
-                        for k in 0..4i64 {
-                            let x = (a - k).div_euclid(4);
-                            if x != last_col[k as usize] {
-                                last_col[k as usize] = x;
-                                out[(4 * k + l) as usize] += 1;
+                for &tx in &txs {
+                    let mut or = [0u64; TILE_WORDS];
+                    for &r in &rs {
+                        let Some(tile) = self.tiles[(r / TILE_ROWS) * self.tiles_x + tx].get()
+                        else {
+                            continue;
+                        };
+                        let at = (r % TILE_ROWS) * TILE_WORDS;
+                        for (o, w) in or.iter_mut().zip(&tile[at..at + TILE_WORDS]) {
+                            *o |= w.load(Ordering::Relaxed);
+                        }
+                    }
+                    for (j, &w) in or.iter().enumerate() {
+                        let mut w = w;
+                        while w != 0 {
+                            let bit = w.trailing_zeros() as i64;
+                            w &= w - 1;
+                            let a = self.a0 + ((tx * TILE_WORDS + j) * 64) as i64 + bit;
+                            for k in 0..4i64 {
+                                let x = (a - k).div_euclid(4);
+                                if x != last_col[k as usize] {
+                                    last_col[k as usize] = x;
+                                    out[(4 * k + l) as usize] += 1;
+                                }
                             }
                         }
                     }

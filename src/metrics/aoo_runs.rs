@@ -1,9 +1,12 @@
-//! The modelled AOO from the model's runs: the centre of every cell of the selected patches,
-//! taken to the AOO grid's equal-area CRS and counted there.
+//! The modelled AOO from rows of runs: the centre of every cell of the runs, taken to the AOO
+//! grid's equal-area CRS and counted there. [`count_runs`] reads the selected patches of a
+//! [`RangeModel`]; [`count_rows`] any range given as column runs per row (`areal change`'s
+//! present and future ranges).
 //!
-//! The rows are split into bands that run in parallel (rayon), each with its own transform
-//! and counter; the counters' quarter cells are merged at the end, so the result does not
-//! depend on the number of threads.
+//! The rows are split into bands that run in parallel (rayon), each with its own transform.
+//! Centres are marked row by row in one shared bitmap of quarter cells; when one falls outside
+//! it, each band sorts its quarter cells instead and the counters are merged at the end, so
+//! the result does not depend on the number of threads.
 //!
 //! On a lon/lat grid every cell of a row has the same latitude, so the LAEA forward
 //! projection (Snyder 1987, USGS PP 1395, eqs. 24-2, 24-3, 24-10 to 24-14; ellipsoidal) needs
@@ -15,11 +18,23 @@
 use super::aoo::{AooCounter, AooFigures, AooGrid};
 use super::aoo_bitmap::QuarterBitmap;
 use crate::model::{RangeModel, Run};
-use crate::Result;
+use crate::{GridSpec, Result};
 use rayon::prelude::*;
+use std::ops::Range;
 
 /// Rows per parallel band.
 const BAND_ROWS: usize = 512;
+
+/// A range as column runs per row: `for_band(rows, f)` calls `f(row, runs)` for the rows in
+/// `rows`, in order, with half-open column runs `start..end` sorted by column (rows without
+/// runs may be left out). Called from several threads at once, one band each.
+pub(crate) type RowRuns<'a> = dyn Fn(Range<usize>, &mut RowVisit) -> Result<()> + Sync + 'a;
+
+/// What [`RowRuns`] calls for each row: `(row, runs)`.
+pub(crate) type RowVisit<'a> = dyn FnMut(usize, &[(u32, u32)]) -> Result<()> + 'a;
+
+/// What a band does with the projected centres of each row.
+type CentreRow<'a, S> = dyn Fn(&mut S, &[(f64, f64)]) + Sync + 'a;
 
 /// The AOO figures of the centres of the cells of the patches `keep` selects (by id), whose
 /// boundary corners are `extent_pts` (WGS84 lon/lat, for the bitmap's extent).
@@ -29,9 +44,57 @@ pub(crate) fn count_runs(
     keep: &(dyn Fn(u32) -> bool + Sync),
     extent_pts: &[(f64, f64)],
 ) -> Result<AooFigures> {
-    let q = aoo.cell_m / 4.0;
-    if let Some(bitmap) = extent_bitmap(aoo, extent_pts, q)? {
-        if for_centres(model, aoo, keep, &|x, y| bitmap.set(x, y))? {
+    let rows = |band: Range<usize>, f: &mut RowVisit| {
+        let mut kept = Vec::new();
+        model.for_rows(band, &mut |row, runs: &[Run]| {
+            kept.clear();
+            kept.extend(
+                runs.iter()
+                    .filter(|r| keep(r.patch))
+                    .map(|r| (r.start, r.end)),
+            );
+            if kept.is_empty() {
+                return Ok(());
+            }
+            f(row, &kept)
+        })
+    };
+    let bitmap = extent_bitmap(aoo, extent_pts, aoo.cell_m / 4.0)?;
+    count_with(model.grid(), aoo, &rows, bitmap)
+}
+
+/// The AOO figures of the centres of the cells of `rows` on `grid`, marked in a bitmap over
+/// the whole LAEA disk (only the tiles the range touches take memory; no extent needed).
+pub(crate) fn count_rows(grid: &GridSpec, aoo: &AooGrid, rows: &RowRuns) -> Result<AooFigures> {
+    let bitmap = QuarterBitmap::whole_disk(
+        aoo.cell_m / 4.0,
+        super::laea::disk_half_widths(aoo.spec().centre.1),
+    );
+    count_with(grid, aoo, rows, bitmap)
+}
+
+/// Count in `bitmap` when every centre falls in it; else by sorted quarter cells per band.
+fn count_with(
+    grid: &GridSpec,
+    aoo: &AooGrid,
+    rows: &RowRuns,
+    bitmap: Option<QuarterBitmap>,
+) -> Result<AooFigures> {
+    if let Some(bitmap) = bitmap {
+        let all_in = std::sync::atomic::AtomicBool::new(true);
+        for_band_centres(
+            grid,
+            aoo,
+            rows,
+            &|| (),
+            &|_, pts| {
+                if !pts.iter().all(|&(x, y)| bitmap.set(x, y)) {
+                    all_in.store(false, std::sync::atomic::Ordering::Relaxed);
+                }
+            },
+            &|_| (),
+        )?;
+        if all_in.into_inner() {
             let counter = AooCounter::new(aoo.cell_m);
             return Ok(counter.figures_of(bitmap.per_origin()));
         }
@@ -39,13 +102,18 @@ pub(crate) fn count_runs(
     // The sorted quarter cells, per band, merged.
     let counters = std::sync::Mutex::new(Vec::new());
     let cell_m = aoo.cell_m;
-    for_band_centres(model, aoo, keep, &|band_pts: &[(f64, f64)]| {
-        let mut c = AooCounter::new(cell_m);
-        for &(x, y) in band_pts {
-            c.add(x, y);
-        }
-        counters.lock().expect("no thread panicked").push(c);
-    })?;
+    for_band_centres(
+        grid,
+        aoo,
+        rows,
+        &|| AooCounter::new(cell_m),
+        &|c, pts| {
+            for &(x, y) in pts {
+                c.add(x, y);
+            }
+        },
+        &|c| counters.lock().expect("no thread panicked").push(c),
+    )?;
     let mut all = AooCounter::new(aoo.cell_m);
     for c in counters.into_inner().expect("no thread panicked") {
         all.merge(c);
@@ -75,53 +143,39 @@ fn extent_bitmap(aoo: &AooGrid, pts: &[(f64, f64)], q: f64) -> Result<Option<Qua
     Ok(QuarterBitmap::new(q, (x0 - m, x1 + m), (y0 - m, y1 + m)))
 }
 
-/// Call `mark(x, y)` for every selected cell centre, bands in parallel; false as soon as a
-/// call returns false.
-fn for_centres(
-    model: &RangeModel,
+/// Per row band (in parallel): `start()` a state, `row(state, centres)` for the projected
+/// centres of each row's cells, then `done(state)`.
+fn for_band_centres<S>(
+    grid: &GridSpec,
     aoo: &AooGrid,
-    keep: &(dyn Fn(u32) -> bool + Sync),
-    mark: &(dyn Fn(f64, f64) -> bool + Sync),
-) -> Result<bool> {
-    let all_in = std::sync::atomic::AtomicBool::new(true);
-    for_band_centres(model, aoo, keep, &|pts: &[(f64, f64)]| {
-        if !pts.iter().all(|&(x, y)| mark(x, y)) {
-            all_in.store(false, std::sync::atomic::Ordering::Relaxed);
-        }
-    })?;
-    Ok(all_in.into_inner())
-}
-
-/// Call `f` with the projected centres of the selected cells of each row band (in parallel).
-fn for_band_centres(
-    model: &RangeModel,
-    aoo: &AooGrid,
-    keep: &(dyn Fn(u32) -> bool + Sync),
-    f: &(dyn Fn(&[(f64, f64)]) + Sync),
+    rows: &RowRuns,
+    start: &(dyn Fn() -> S + Sync),
+    row_fn: &CentreRow<'_, S>,
+    done: &(dyn Fn(S) + Sync),
 ) -> Result<()> {
-    let grid = model.grid();
     let h = grid.height;
-    let bands: Vec<std::ops::Range<usize>> = (0..h)
+    let bands: Vec<Range<usize>> = (0..h)
         .step_by(BAND_ROWS)
         .map(|r| r..(r + BAND_ROWS).min(h))
         .collect();
     let spec = aoo.spec();
     bands.into_par_iter().try_for_each(|band| -> Result<()> {
         let mut project = spec.projector(grid)?;
-        let (mut cols, mut pts, mut all) = (Vec::new(), Vec::new(), Vec::new());
-        model.for_rows(band, &mut |row, runs: &[Run]| {
+        let (mut cols, mut pts) = (Vec::new(), Vec::new());
+        let mut state = start();
+        rows(band, &mut |row, runs: &[(u32, u32)]| {
             cols.clear();
-            for r in runs.iter().filter(|r| keep(r.patch)) {
-                cols.extend(r.start..r.end);
+            for &(a, b) in runs {
+                cols.extend(a..b);
             }
             if cols.is_empty() {
                 return Ok(());
             }
             project.row(row, &cols, &mut pts)?;
-            all.extend_from_slice(&pts);
+            row_fn(&mut state, &pts);
             Ok(())
         })?;
-        f(&all);
+        done(state);
         Ok(())
     })
 }

@@ -86,6 +86,20 @@ impl Laea {
     }
 }
 
+/// Half widths (x, y), metres, of the region an oblique ellipsoidal LAEA on WGS84 centred at
+/// latitude `lat0` (degrees) maps the ellipsoid into: |x| <= 2 Rq D and |y| <= 2 Rq / D, since
+/// x / D and y D are the spherical LAEA of radius Rq on the authalic sphere, whose image is the
+/// disk of radius 2 Rq (Snyder 1987, eqs. 24-10 to 24-14). D = 1 at the poles.
+pub(crate) fn disk_half_widths(lat0: f64) -> (f64, f64) {
+    let l = Laea::new(0.0, lat0, [0.0; 6]);
+    let d = if l.d.is_finite() && l.d > 0.0 {
+        l.d
+    } else {
+        1.0
+    };
+    (2.0 * l.rq * d, 2.0 * l.rq / d)
+}
+
 impl RowProjector {
     pub(crate) fn new(aoo: &AooSpec, grid: &GridSpec) -> Result<RowProjector> {
         let (lon0, lat0) = aoo.centre;

@@ -22,7 +22,7 @@
 
 pub(crate) mod aoo;
 mod aoo_bitmap;
-mod aoo_runs;
+pub(crate) mod aoo_runs;
 pub mod criterion_b;
 mod eoo;
 mod extent;

@@ -71,3 +71,32 @@ fn bitmap_counts_equal_sorted_counts() {
     assert_eq!(bitmap.per_origin(), sorted.per_origin());
     assert!(!bitmap.set(1e6, 0.0), "outside the extent");
 }
+
+#[test]
+fn whole_disk_bitmap_counts_equal_sorted_counts() {
+    // Points over most of the LAEA disk, across many lazily allocated tiles, and a cluster
+    // that shares cells: the tiled bitmap must count as the sorted quarter cells do. The disk
+    // is about 2 x 6,371,007 m across each way (the WGS84 authalic radius, from memory).
+    let (hx, hy) = super::laea::disk_half_widths(-35.0);
+    assert!((hx - 2.0 * 6_371_007.2).abs() < 30_000.0 && (hy - 2.0 * 6_371_007.2).abs() < 30_000.0);
+    let bitmap = QuarterBitmap::whole_disk(500.0, (hx, hy)).unwrap();
+    let mut sorted = AooCounter::new(2000.0);
+    let mut s = 42u64;
+    let mut rnd = || {
+        s = s
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        (s >> 11) as f64 / (1u64 << 53) as f64
+    };
+    for i in 0..50_000 {
+        let (x, y) = if i % 2 == 0 {
+            ((rnd() - 0.5) * 1.8 * hx, (rnd() - 0.5) * 1.8 * hy)
+        } else {
+            (rnd() * 20_000.0 - 10_000.0, rnd() * 9_000.0)
+        };
+        assert!(bitmap.set(x, y));
+        sorted.add(x, y);
+    }
+    assert_eq!(bitmap.per_origin(), sorted.per_origin());
+    assert!(!bitmap.set(f64::NAN, 0.0), "a point that did not project");
+}

@@ -313,10 +313,54 @@ fn csv_bool<S: serde::Serializer>(v: &Option<bool>, s: S) -> std::result::Result
     }
 }
 
-/// The JSON Schema (draft 2020-12) of `summary.json`, generated from [`Summary`]; the
-/// committed copy is docs/summary.schema.json (`areal schema` prints it).
+/// The JSON Schema (draft 2020-12) of `summary.json`, generated from [`Summary`] and the
+/// sections `areal change` adds ([`crate::change::ChangeReport`]: `change`, `changes`,
+/// `agreement`; absent from an `areal range` run); the committed copy is
+/// docs/summary.schema.json (`areal schema` prints it).
 pub fn summary_schema() -> String {
-    let schema = schemars::schema_for!(Summary);
+    let mut gen = schemars::SchemaGenerator::default();
+    let change = gen.subschema_for::<Option<crate::change::ChangeReport>>();
+    let changes = gen.subschema_for::<Vec<crate::change::ChangeReport>>();
+    let mut schema = gen.root_schema_for::<Summary>();
+    // Every key of the change section is always written (null where it does not apply): all
+    // are required, nullable ones included.
+    if let Some(defs) = schema.get_mut("$defs").and_then(|d| d.as_object_mut()) {
+        for (name, def) in defs.iter_mut() {
+            let ours = ["Change", "DispersalRules", "PerClass", "PatchCounts"];
+            if !ours.iter().any(|p| name.starts_with(p)) {
+                continue;
+            }
+            let keys: Vec<serde_json::Value> = def
+                .get("properties")
+                .and_then(|p| p.as_object())
+                .map(|p| p.keys().map(|k| k.as_str().into()).collect())
+                .unwrap_or_default();
+            if let Some(d) = def.as_object_mut() {
+                d.insert("required".into(), keys.into());
+            }
+        }
+    }
+    let props = schema
+        .ensure_object()
+        .get_mut("properties")
+        .and_then(|p| p.as_object_mut())
+        .expect("Summary has properties");
+    let described = |mut s: schemars::Schema, text: &str| {
+        s.insert("description".into(), text.into());
+        s
+    };
+    props.insert(
+        "change".into(),
+        described(change, "`areal change` with one future: the change from the present range to that future's (null with several futures; see `changes`). Absent from `areal range`.").into(),
+    );
+    props.insert(
+        "changes".into(),
+        described(changes, "`areal change` with several futures: one change section per future, in the order given.").into(),
+    );
+    props.insert(
+        "agreement".into(),
+        serde_json::json!({"type": "string", "description": "`areal change` with several futures: what agreement.tif holds."}),
+    );
     serde_json::to_string_pretty(&schema).expect("the schema serialises") + "\n"
 }
 

@@ -6,6 +6,7 @@
 //! class priority ([`image::ClassImage`]); M is sampled at the map's pixels. `areal report DIR`
 //! ([`folder::run_report`]) rebuilds the same inputs from a finished run folder.
 
+pub mod change;
 pub mod charts;
 pub mod draw;
 pub mod folder;

@@ -81,7 +81,7 @@ pub fn classes(c: &RefCase) -> Vec<u8> {
         .filter(|&i| {
             is_data(c.present[i], c.nodata)
                 && c.present[i] as f64 >= c.t
-                && c.in_m.map_or(true, |m| m[i])
+                && c.in_m.is_none_or(|m| m[i])
         })
         .collect();
     let geod = Geodesic::wgs84();
@@ -168,7 +168,7 @@ pub fn patches(k: &[u8], w: usize, h: usize, wrap: bool, eight: bool) -> Vec<(u8
 /// Sum of cell areas of class `k`, km2 (optionally only in M).
 pub fn area_km2(cls: &[u8], g: &RefGrid, k: u8, in_m: Option<&[bool]>) -> f64 {
     (0..cls.len())
-        .filter(|&i| cls[i] == k && in_m.map_or(true, |m| m[i]))
+        .filter(|&i| cls[i] == k && in_m.is_none_or(|m| m[i]))
         .map(|i| g.area[i])
         .sum::<f64>()
         / 1e6

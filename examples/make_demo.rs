@@ -67,7 +67,6 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let mut band = ds.rasterband(1)?;
     band.set_no_data_value(Some(NODATA as f64))?;
     band.write((0, 0), (W, H), &mut Buffer::new((W, H), values.clone()))?;
-    drop(band);
     ds.close()?;
 
     // Records: weighted draws from high suitability in the western basin.

@@ -4,7 +4,7 @@ mod common;
 use common::*;
 use std::path::Path;
 
-fn demo_args<'a>(out: &'a str) -> Vec<String> {
+fn demo_args(out: &str) -> Vec<String> {
     vec![
         "range".into(),
         "--suitability".into(),

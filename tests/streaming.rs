@@ -289,7 +289,7 @@ fn spiral_across_strips() {
             c += dc;
             on[r as usize * n + c as usize] = true;
         }
-        if leg >= 2 && leg % 2 == 0 {
+        if leg >= 2 && leg.is_multiple_of(2) {
             len -= 2;
         }
         leg += 1;
@@ -315,9 +315,9 @@ fn comb_and_antimeridian_on_a_global_grid() {
     // top and join only in row 300, and a band crossing 180 degrees.
     let t = tempfile::tempdir().unwrap();
     let comb = |r: usize, c: usize| {
-        (r < 300 && c % 10 == 0 && c < 200)
+        (r < 300 && c.is_multiple_of(10) && c < 200)
             || (r == 300 && c < 200)
-            || ((310..320).contains(&r) && (c < 5 || c > 714))
+            || ((310..320).contains(&r) && !(5..=714).contains(&c))
     };
     let v: Vec<f32> = (0..720 * 360)
         .map(|i| if comb(i / 720, i % 720) { 0.9 } else { 0.1 })

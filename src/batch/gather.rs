@@ -92,7 +92,7 @@ pub fn gather(out: &Path) -> Result<GatherReport> {
             Some(Status::Failed { message, seconds }) => {
                 failed += 1;
                 row.extend(["failed".to_string(), message]);
-                row.extend(std::iter::repeat(String::new()).take(9));
+                row.extend(std::iter::repeat_n(String::new(), 9));
                 row.extend([seconds, String::new(), String::new()]);
             }
             s if run_file.is_file() => {
@@ -130,7 +130,7 @@ pub fn gather(out: &Path) -> Result<GatherReport> {
             _ => {
                 skipped += 1;
                 row.extend(["skipped".to_string(), String::new()]);
-                row.extend(std::iter::repeat(String::new()).take(12));
+                row.extend(std::iter::repeat_n(String::new(), 12));
             }
         }
         rows.push(row);

@@ -169,7 +169,7 @@ pub fn read(path: &Path, defaults: &Settings) -> Result<Manifest> {
         // A cell giving one threshold rule replaces the default of the other.
         for (a, b) in [("omission", "threshold"), ("threshold", "omission")] {
             let cell = col(a).is_some_and(|i| !row[i].is_empty());
-            if cell && col(b).map_or(true, |i| row[i].is_empty()) {
+            if cell && col(b).is_none_or(|i| row[i].is_empty()) {
                 s.remove(b);
             }
         }

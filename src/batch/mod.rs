@@ -335,7 +335,7 @@ pub fn run_batch(
     let mine: Vec<&Species> = manifest
         .species
         .iter()
-        .filter(|s| opts.shard.map_or(true, |sh| s.index % sh.count == sh.index))
+        .filter(|s| opts.shard.is_none_or(|sh| s.index % sh.count == sh.index))
         .collect();
     if let Some(p) = progress {
         p.start(mine.len());

@@ -156,11 +156,10 @@ pub fn to_range_options(
         }
     });
     let simplify_m = r.num("simplify_m")?;
-    let vectors = (r.flag("vectors")? || vector_crs.is_some() || simplify_m.is_some()).then(|| {
+    let vectors = (r.flag("vectors")? || vector_crs.is_some() || simplify_m.is_some()).then_some({
         VectorOptions {
             equal_area: vector_crs,
             simplify_m,
-            ..Default::default()
         }
     });
     let metrics = MetricsOptions {

@@ -244,7 +244,6 @@ impl VectorArgs {
                 }
             }),
             simplify_m: self.simplify_m,
-            ..Default::default()
         }
     }
 }

@@ -53,7 +53,7 @@ impl Corners {
         let n = model.patches().len();
         let mut label = Vec::with_capacity(ll.len());
         for p in 0..n {
-            label.extend(std::iter::repeat(p as u32).take(bc.start[p + 1] - bc.start[p]));
+            label.extend(std::iter::repeat_n(p as u32, bc.start[p + 1] - bc.start[p]));
         }
         let pts: Vec<(f64, f64)> = ll.iter().map(|&(lon, lat)| (lat, lon)).collect();
         let xyz = pts.iter().map(|&(la, lo)| ecef(la, lo)).collect();

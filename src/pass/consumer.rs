@@ -126,13 +126,13 @@ impl Consumer {
                 .map(|(&k, &m)| (m as u32) & (k != class::NODATA) as u32)
                 .sum::<u32>() as u64
         };
-        for k in 0..4 {
-            self.cells[k] += counts[k];
+        for (total, n) in self.cells.iter_mut().zip(counts) {
+            *total += n;
         }
         match row_areas {
             RowAreas::Uniform(a) => {
-                for k in 0..3 {
-                    self.area_m2[k].add(counts[k] as f64 * a);
+                for (sum, n) in self.area_m2.iter_mut().zip(counts) {
+                    sum.add(n as f64 * a);
                 }
                 self.accessible_m2.add(m_cells as f64 * a);
             }
@@ -158,8 +158,8 @@ impl Consumer {
                         m += a;
                     }
                 }
-                for k in 0..3 {
-                    self.area_m2[k].add(sums[k]);
+                for (sum, s) in self.area_m2.iter_mut().zip(sums) {
+                    sum.add(s);
                 }
                 self.accessible_m2.add(m);
             }

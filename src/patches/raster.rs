@@ -42,7 +42,7 @@ pub fn label_grid(
         return (Vec::new(), Vec::new());
     }
     assert!(
-        width > 0 && classes.len() % width == 0,
+        width > 0 && classes.len().is_multiple_of(width),
         "label_grid: {} cells do not make rows of {width}",
         classes.len()
     );

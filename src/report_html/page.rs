@@ -320,7 +320,7 @@ fn figures(s: &Value) -> String {
             ("/metrics", "records"),
             ("/metrics/modelled", "occupied modelled range"),
         ] {
-            if s.pointer(base).map_or(true, Value::is_null) {
+            if s.pointer(base).is_none_or(Value::is_null) {
                 continue;
             }
             t.head(&format!("EOO and AOO of the {what}"));

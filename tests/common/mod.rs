@@ -35,7 +35,6 @@ pub fn write_raster(
     }
     band.write((0, 0), (w, h), &mut Buffer::new((w, h), values.to_vec()))
         .unwrap();
-    drop(band);
     ds.close().unwrap();
 }
 

@@ -2,6 +2,7 @@
 
 use super::*;
 use gdal::vector::{Feature, Geometry, LayerAccess, LayerOptions, OGRwkbGeometryType};
+use gdal::spatial_ref::{AxisMappingStrategy, SpatialRef};
 use gdal::DriverManager;
 use geo::Contains;
 use geo_types::{Coord, Point};

@@ -77,18 +77,23 @@ pub(crate) fn search_bound(s_m: f64) -> f64 {
 /// A lower bound (metres) on the geodesic between the points at (lat, lon) `a` and `b` (ECEF
 /// `xa`, `xb`, metres).
 ///
-/// Every principal radius of curvature of WGS84 is at least ρ = a(1 - e²), so by Blaschke's
-/// rolling-ball theorem the ball of radius ρ touching the ellipsoid from inside (centre
-/// `t - ρ n` for the touching point t with normal n) lies inside it. Projecting onto a convex
-/// set never lengthens a curve, and the geodesic projects to a curve on that ball's sphere
-/// joining the projections of `a` and `b`, so the geodesic is at least the great-circle arc
-/// between them: ρ times the angle they make at the centre. The ball may touch the ellipsoid
-/// anywhere; touching it between the two points keeps the bound tightest. It is far tighter
-/// than the chord at long range (about 10 m short at 1,000 km, where the chord is 1 km short).
-/// A relative 1e-9 and 1 µm are taken off for rounding.
+/// A ball inside the ellipsoid touching it at a point t: projecting onto a convex set never
+/// lengthens a curve, and the geodesic projects to a curve on the ball's sphere joining the
+/// projections of `a` and `b`, so the geodesic is at least the great-circle arc between them,
+/// r times the angle they make at the centre. The ball touches at the point of mean latitude
+/// φ and longitude, and is the largest that does: radius r = (1 - e²) N(φ), centre on the
+/// equatorial plane where the normal at t meets it (at e² N(φ) cos φ from the axis). That ball
+/// lies inside the ellipsoid because its centre's nearest surface points are t and its mirror
+/// image at -φ, at distance r: in the meridian plane of the centre, the squared distance to
+/// the surface point of reduced latitude β is (a² - b²) cos² β - 2 a x0 cos β + x0² + b², least
+/// at cos β = x0 / (a e²), where it equals b²(1 - x0² / (a² e²)) = r² (the medial axis of
+/// the ellipse; any other meridian plane is farther). At the equator r = a(1 - e²), the
+/// smallest radius of curvature of WGS84 (Blaschke's rolling ball), at the poles r = b.
+/// The bound is about 10 m short at 1,000 km, where the chord is 1 km short. A relative 1e-9
+/// and 1 µm are taken off for rounding.
 pub(crate) fn ball_bound(a: (f64, f64), b: (f64, f64), xa: &[f64; 3], xb: &[f64; 3]) -> f64 {
-    let rho = m_min();
-    // The ball touches the ellipsoid at the point of mean latitude and longitude.
+    let ell = Ellipsoid::WGS84;
+    let e2 = ell.e2();
     let lat = 0.5 * (a.0 + b.0);
     let mut dl = b.1 - a.1;
     if dl > 180.0 {
@@ -97,9 +102,11 @@ pub(crate) fn ball_bound(a: (f64, f64), b: (f64, f64), xa: &[f64; 3], xb: &[f64;
         dl += 360.0;
     }
     let lon = a.1 + 0.5 * dl;
-    let t = ecef(lat, lon);
     let n = unit(lat, lon);
-    let c = [t[0] - rho * n[0], t[1] - rho * n[1], t[2] - rho * n[2]];
+    let sp = n[2];
+    let r = (1.0 - e2) * ell.a / (1.0 - e2 * sp * sp).sqrt();
+    let t = ecef(lat, lon);
+    let c = [t[0] - r * n[0], t[1] - r * n[1], t[2] - r * n[2]];
     let u = [xa[0] - c[0], xa[1] - c[1], xa[2] - c[2]];
     let v = [xb[0] - c[0], xb[1] - c[1], xb[2] - c[2]];
     let dot = u[0] * v[0] + u[1] * v[1] + u[2] * v[2];
@@ -111,7 +118,7 @@ pub(crate) fn ball_bound(a: (f64, f64), b: (f64, f64), xa: &[f64; 3], xb: &[f64;
     let sin = (cross[0] * cross[0] + cross[1] * cross[1] + cross[2] * cross[2]).sqrt();
     // atan2 keeps the angle accurate when it is small (acos would not).
     let angle = sin.atan2(dot);
-    angle * rho * (1.0 - 1e-9) - 1e-6
+    angle * r * (1.0 - 1e-9) - 1e-6
 }
 
 /// The longest geodesic whose chord is `d_m` metres (Schur's comparison theorem with the

@@ -83,6 +83,7 @@ pub(crate) fn run_pass(
     // Strip buffers go round between the workers and the consumer: fresh pages cost
     // more to touch than the work done on them.
     let pool: Mutex<Vec<Vec<u8>>> = Mutex::new(Vec::new());
+    let bins_pool: Mutex<Vec<Vec<u8>>> = Mutex::new(Vec::new());
     // A record buffer on a lon/lat grid is the costly M: the workers apply it themselves.
     let filler = input.access.row_filler();
     let prefilled = filler.is_some();
@@ -94,6 +95,7 @@ pub(crate) fn run_pass(
             let tx = tx.clone();
             let next = &next;
             let pool = &pool;
+            let bins_pool = &bins_pool;
             let spec = raster.reader_spec();
             let mut filler = filler.clone();
             scope.spawn(move || {
@@ -118,7 +120,12 @@ pub(crate) fn run_pass(
                     }
                     let y0 = i * STRIP_ROWS;
                     let rows = STRIP_ROWS.min(h - y0);
-                    let mut bins = Vec::new();
+                    let mut bins = bins_pool
+                        .lock()
+                        .map(|mut p| p.pop())
+                        .ok()
+                        .flatten()
+                        .unwrap_or_default();
                     let out = reader
                         .classify_and_bin(y0, rows, t, cands, &mut bufs, &mut codes, &mut bins)
                         .map(|binary| {
@@ -167,6 +174,9 @@ pub(crate) fn run_pass(
                 let spent = sink.write_rows(y0, classes)?;
                 if let Ok(mut p) = pool.lock() {
                     p.push(spent);
+                }
+                if let Ok(mut p) = bins_pool.lock() {
+                    p.push(strip.bins);
                 }
                 input.progress.advance(STRIP_ROWS.min(h - y0) as u64);
                 expect += 1;

@@ -157,7 +157,12 @@ fn code_and_bin<T: Sample>(
     {
         binary &= code_cells(v, k, t, nd, non_finite);
         if !bins.is_empty() {
-            count_reached(v, k, cands, &mut bins[i * BLOCK..i * BLOCK + v.len()]);
+            let out = &mut bins[i * BLOCK..i * BLOCK + v.len()];
+            if k.iter().all(|&c| c == class::NODATA) {
+                out.fill(class::NODATA); // sea on a global grid: nothing to count
+            } else {
+                count_reached(v, k, cands, out);
+            }
         }
     }
     binary

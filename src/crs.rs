@@ -1,6 +1,7 @@
 //! The one place that builds GDAL spatial references and transforms: WGS84, the grid's CRS, a
-//! CRS the user types, a projected CRS's geographic base, the axis order, and the transform from
-//! grid coordinates to WGS84 lon/lat.
+//! CRS the user types, a CRS from WKT or from a PROJ string the program builds, a projected
+//! CRS's geographic base, the axis order, and the transform from grid coordinates to WGS84
+//! lon/lat.
 //!
 //! Every `SpatialRef` here has the traditional GIS axis order (x = longitude or easting), so
 //! no caller has to think about EPSG:4326's official latitude-first order.
@@ -42,6 +43,27 @@ pub(crate) fn from_definition(text: &str, what: &str) -> Result<SpatialRef> {
     Ok(traditional(srs))
 }
 
+/// A CRS from a PROJ string built by the program (such as the AOO grid's LAEA), x first.
+/// `what` names the CRS in errors.
+pub(crate) fn from_proj4(text: &str, what: &str) -> Result<SpatialRef> {
+    Ok(traditional(
+        SpatialRef::from_proj4(text).map_err(crs_err(what))?,
+    ))
+}
+
+/// A CRS from WKT (a raster's own CRS), x first. GDAL's error is returned as it is, so the
+/// caller names the file the WKT came from (an input or an output) in its own error.
+pub(crate) fn from_wkt(wkt: &str) -> std::result::Result<SpatialRef, gdal::errors::GdalError> {
+    SpatialRef::from_wkt(wkt).map(traditional)
+}
+
+/// Whether two CRSs share the same geographic CRS (datum, prime meridian, angular unit), as
+/// GDAL's `OSRIsSameGeogCS` decides.
+pub(crate) fn same_geographic_cs(a: &SpatialRef, b: &SpatialRef) -> bool {
+    // SAFETY: two live handles, read only.
+    unsafe { gdal_sys::OSRIsSameGeogCS(a.to_c_hsrs(), b.to_c_hsrs()) == 1 }
+}
+
 /// WGS84 lon/lat (EPSG:4326), x = longitude.
 pub(crate) fn wgs84() -> Result<SpatialRef> {
     Ok(traditional(
@@ -63,12 +85,10 @@ pub(crate) fn grid_srs(grid: &GridSpec) -> Result<SpatialRef> {
         }
         return wgs84();
     }
-    Ok(traditional(SpatialRef::from_wkt(&grid.crs_wkt).map_err(
-        |e| Error::Crs {
-            what: "raster CRS".into(),
-            reason: format!("GDAL cannot read the CRS WKT: {e}"),
-        },
-    )?))
+    from_wkt(&grid.crs_wkt).map_err(|e| Error::Crs {
+        what: "raster CRS".into(),
+        reason: format!("GDAL cannot read the CRS WKT: {e}"),
+    })
 }
 
 /// The geographic CRS a projected `srs` is based on (its datum, lon/lat), x = longitude.
@@ -158,5 +178,62 @@ impl LonLat {
                 Ok((xs[0], ys[0]))
             }
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The EPSG worked example for Lambert Azimuthal Equal Area (EPSG Guidance Note 7-2,
+    /// method 9820, ETRS89 / LAEA Europe, from memory): 50°N 5°E -> E 3962799.45 m,
+    /// N 2999718.85 m. EPSG:3035 and EPSG:4258 both put the northing / latitude first, so the
+    /// numbers only come out with x = longitude / easting on both sides.
+    const EXAMPLE_EN: (f64, f64) = (3_962_799.45, 2_999_718.85);
+
+    fn example(src: &SpatialRef, dst: &SpatialRef) -> (f64, f64) {
+        let ct = transform(src, dst, "test").unwrap();
+        let (mut xs, mut ys) = ([5.0], [50.0]);
+        transform_points(&ct, &mut xs, &mut ys, "test").unwrap();
+        (xs[0], ys[0])
+    }
+
+    fn wkt_of(epsg: u32) -> String {
+        SpatialRef::from_epsg(epsg).unwrap().to_wkt().unwrap()
+    }
+
+    #[test]
+    fn from_wkt_puts_easting_first() {
+        let src = from_wkt(&wkt_of(4258)).unwrap();
+        let dst = from_wkt(&wkt_of(3035)).unwrap();
+        let (e, n) = example(&src, &dst);
+        assert!((e - EXAMPLE_EN.0).abs() < 0.01, "{e}");
+        assert!((n - EXAMPLE_EN.1).abs() < 0.01, "{n}");
+        assert!(from_wkt("not a CRS").is_err());
+    }
+
+    #[test]
+    fn from_proj4_puts_easting_first_and_names_the_crs_in_errors() {
+        let src = from_wkt(&wkt_of(4258)).unwrap();
+        let dst = from_proj4(
+            "+proj=laea +lat_0=52 +lon_0=10 +x_0=4321000 +y_0=3210000 +ellps=GRS80 +units=m +no_defs",
+            "test grid",
+        )
+        .unwrap();
+        let (e, n) = example(&src, &dst);
+        assert!((e - EXAMPLE_EN.0).abs() < 0.01, "{e}");
+        assert!((n - EXAMPLE_EN.1).abs() < 0.01, "{n}");
+        let err = from_proj4("+proj=nonsense", "AOO grid CRS").unwrap_err();
+        assert!(err.to_string().starts_with("AOO grid CRS: "), "{err}");
+    }
+
+    #[test]
+    fn same_geographic_cs_follows_the_datum() {
+        // EPSG registry: EPSG:3857 is based on WGS 84, EPSG:3035 on ETRS89.
+        let wgs = wgs84().unwrap();
+        let merc = from_wkt(&wkt_of(3857)).unwrap();
+        let laea = from_wkt(&wkt_of(3035)).unwrap();
+        assert!(same_geographic_cs(&merc, &wgs));
+        assert!(!same_geographic_cs(&laea, &wgs));
     }
 }

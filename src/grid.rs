@@ -4,14 +4,35 @@
 //! has its centre at pixel coordinates (col + 0.5, row + 0.5). Rotated or sheared
 //! geotransforms are refused when the grid is built.
 
-/// Longitude in degrees into [-180, 180): the one longitude normaliser (180 becomes -180;
-/// callers that must keep the eastern seam say so where they use it).
+/// Longitude in degrees into [-180, 180): the longitude normaliser for cells, grid edges and
+/// geometry (180 becomes -180, so a column at 180 lands on the first column of a
+/// 360-degree grid). Every value goes through the arithmetic, so one already in range may
+/// move by an ulp or so (0.1 gives 0.09999999999999432). Its sibling for records is
+/// [`normalise_lon_closed`].
 pub fn normalise_lon(lon: f64) -> f64 {
     let l = (lon + 180.0).rem_euclid(360.0) - 180.0;
     if l >= 180.0 {
         l - 360.0
     } else {
         l
+    }
+}
+
+/// Longitude in degrees into [-180, 180], for record coordinates written back to the user
+/// (records.csv, the records layers): a longitude already in [-180, 180] is returned bit for
+/// bit, so a record at 180 stays 180 and 0.1 stays 0.1; others wrap by whole turns, and one
+/// that lands on the seam from the east (540) keeps 180.
+pub(crate) fn normalise_lon_closed(lon: f64) -> f64 {
+    if (-180.0..=180.0).contains(&lon) {
+        lon
+    } else {
+        let w = (lon + 180.0).rem_euclid(360.0) - 180.0;
+        // rem_euclid maps 180 to -180; keep a value that was exactly on the seam positive.
+        if w == -180.0 && lon > 0.0 {
+            180.0
+        } else {
+            w
+        }
     }
 }
 
@@ -183,6 +204,25 @@ mod tests {
         assert_eq!(g.cell_of(180.0, 0.5), Some((89, 0)));
         let regional = GridSpec::lonlat(10, 10, 0.0, 10.0, 1.0);
         assert!(!regional.wraps_antimeridian());
+    }
+
+    #[test]
+    fn the_two_longitude_conventions() {
+        // Common practice, no source: longitudes differing by 360 degrees are the same
+        // meridian; the interval ends follow each function's stated convention.
+        assert_eq!(normalise_lon(180.0), -180.0);
+        assert_eq!(normalise_lon(-180.0), -180.0);
+        assert_eq!(normalise_lon(190.0), -170.0);
+        assert_eq!(normalise_lon(540.0), -180.0);
+        assert_ne!(normalise_lon(0.1), 0.1);
+        assert_eq!(normalise_lon_closed(180.0), 180.0);
+        assert_eq!(normalise_lon_closed(-180.0), -180.0);
+        assert_eq!(normalise_lon_closed(190.0), -170.0);
+        assert_eq!(normalise_lon_closed(-190.0), 170.0);
+        assert_eq!(normalise_lon_closed(540.0), 180.0);
+        assert_eq!(normalise_lon_closed(-540.0), -180.0);
+        assert_eq!(normalise_lon_closed(0.1), 0.1);
+        assert_eq!(normalise_lon_closed(179.99999999999997), 179.99999999999997);
     }
 
     #[test]

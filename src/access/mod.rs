@@ -21,8 +21,8 @@ mod tests;
 #[cfg(test)]
 mod tests_geo;
 
-use crate::{Error, GridSpec, Result};
-use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
+use crate::{crs, Error, GridSpec, Result};
+use gdal::spatial_ref::CoordTransform;
 use std::path::PathBuf;
 
 use buffer::PointBuffer;
@@ -184,16 +184,11 @@ impl AccessMask {
             Some(d) => Some(Self::build_hull(&recs, d, &mut parts, &mut warnings)?),
         };
         let to_lonlat = if !grid.geographic && (buffer.is_some() || hull.is_some()) {
-            let src = polygon::grid_srs(grid)?;
-            let mut wgs84 = SpatialRef::from_epsg(4326).map_err(|e| Error::Crs {
-                what: "EPSG:4326".into(),
-                reason: e.to_string(),
-            })?;
-            wgs84.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-            Some(CoordTransform::new(&src, &wgs84).map_err(|e| Error::Crs {
-                what: "raster CRS".into(),
-                reason: format!("no transformation to WGS84 lon/lat for the buffers: {e}"),
-            })?)
+            Some(crs::transform(
+                &crs::grid_srs(grid)?,
+                &crs::wgs84()?,
+                "raster CRS to WGS84 lon/lat for the buffers",
+            )?)
         } else {
             None
         };
@@ -201,11 +196,8 @@ impl AccessMask {
             && !grid.crs_wkt.trim().is_empty()
             && (buffer.is_some() || hull.is_some())
         {
-            if let Ok(srs) = SpatialRef::from_wkt(&grid.crs_wkt) {
-                let wgs84 = SpatialRef::from_epsg(4326).ok();
-                let same = wgs84.is_some_and(|w| unsafe {
-                    gdal_sys::OSRIsSameGeogCS(srs.to_c_hsrs(), w.to_c_hsrs()) == 1
-                });
+            if let Ok(srs) = crs::from_wkt(&grid.crs_wkt) {
+                let same = crs::wgs84().is_ok_and(|w| crs::same_geographic_cs(&srs, &w));
                 if !same {
                     warnings.push(
                         "the raster's geographic CRS is not WGS84; its lon/lat are used as WGS84 for the buffers (datum shifts are ignored)".into(),

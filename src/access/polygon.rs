@@ -18,7 +18,7 @@
 use std::path::Path;
 
 use gdal::cpl::CslStringList;
-use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
+use gdal::spatial_ref::SpatialRef;
 use gdal::vector::{
     geometry_type_flatten, geometry_type_to_name, Geometry, LayerAccess, OGRwkbGeometryType,
 };
@@ -26,27 +26,8 @@ use gdal::{Dataset, DatasetOptions, GdalOpenFlags};
 use geo::Intersects;
 use geo_types::{Coord, MultiPolygon, Polygon, Rect};
 
+use crate::crs::{grid_srs, traditional, transform};
 use crate::{Error, GridSpec, Result};
-
-/// The SRS of the grid (WGS84 when the grid is geographic without WKT), traditional order.
-pub(crate) fn grid_srs(grid: &GridSpec) -> Result<SpatialRef> {
-    let crs_err = |reason: String| Error::Crs {
-        what: "raster CRS".into(),
-        reason,
-    };
-    let mut srs = if grid.crs_wkt.trim().is_empty() {
-        if !grid.geographic {
-            return Err(crs_err(
-                "the raster has no CRS; assign one to the raster and run again".into(),
-            ));
-        }
-        SpatialRef::from_epsg(4326).map_err(|e| crs_err(e.to_string()))?
-    } else {
-        SpatialRef::from_wkt(&grid.crs_wkt).map_err(|e| crs_err(e.to_string()))?
-    };
-    srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
-    Ok(srs)
-}
 
 /// Polygons read from a file, in the raster CRS.
 pub(crate) struct PolygonSource {
@@ -86,23 +67,22 @@ pub(crate) fn read_polygons(path: &Path, grid: &GridSpec) -> Result<PolygonSourc
             path.display()
         ));
     }
-    let Some(mut src) = layer.spatial_ref() else {
+    let Some(src) = layer.spatial_ref().map(traditional) else {
         return Err(bad(format!(
             "layer '{lname}' has no CRS; assign one (e.g. ogr2ogr -a_srs EPSG:4326 OUT IN) and run again"
         )));
     };
-    src.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
     let dst = grid_srs(grid)?;
-    let transform = if src == dst {
+    let to_grid = if src == dst {
         None
     } else {
-        let ct = CoordTransform::new(&src, &dst).map_err(|e| Error::Crs {
-            what: format!("{} (layer '{lname}')", path.display()),
-            reason: format!("no transformation to the raster CRS: {e}"),
-        })?;
-        Some(ct)
+        Some(transform(
+            &src,
+            &dst,
+            &format!("{} (layer '{lname}') to the raster CRS", path.display()),
+        )?)
     };
-    let seg_len = match &transform {
+    let seg_len = match &to_grid {
         Some(_) => densify_length(grid, &dst, &src),
         None => None,
     };
@@ -144,7 +124,7 @@ pub(crate) fn read_polygons(path: &Path, grid: &GridSpec) -> Result<PolygonSourc
                 path.display()
             ));
         }
-        if let Some(ct) = &transform {
+        if let Some(ct) = &to_grid {
             if let Some(len) = seg_len {
                 unsafe { gdal_sys::OGR_G_Segmentize(g.c_geometry(), len) };
             }
@@ -270,7 +250,7 @@ fn collect_polygons(g: geo_types::Geometry<f64>, out: &mut Vec<Polygon<f64>>) {
 
 /// About one raster cell, expressed in the layer's CRS units (for densifying edges).
 fn densify_length(grid: &GridSpec, dst: &SpatialRef, src: &SpatialRef) -> Option<f64> {
-    let back = CoordTransform::new(dst, src).ok()?;
+    let back = transform(dst, src, "raster CRS to the layer CRS").ok()?;
     let (xa, xb) = (grid.col_edges_x(0).0, grid.col_edges_x(grid.width - 1).1);
     let (ya, yb) = (grid.row_edges_y(0).0, grid.row_edges_y(grid.height - 1).1);
     let b = back

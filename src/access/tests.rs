@@ -1,6 +1,7 @@
 //! Tests of M: polygon files, options and composition. Geodesic parts: tests_geo.rs.
 
 use super::*;
+use gdal::spatial_ref::{AxisMappingStrategy, SpatialRef};
 use gdal::vector::{Feature, Geometry, LayerAccess, LayerOptions, OGRwkbGeometryType};
 use gdal::DriverManager;
 use geo::Contains;

@@ -4,6 +4,7 @@
 
 use super::tests::rows;
 use super::*;
+use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
 use geographiclib_rs::{DirectGeodesic, Geodesic, InverseGeodesic};
 
 fn dist(lat1: f64, lon1: f64, lat2: f64, lon2: f64) -> f64 {

@@ -14,14 +14,14 @@
 //!   geodesic polygon on the CRS's ellipsoid.
 
 mod corners;
-mod crs;
 mod ellipsoid;
+mod projection;
 
 pub use ellipsoid::{authalic_q, lonlat_cell_area_m2, lonlat_cell_area_m2_on, Ellipsoid};
 
 use crate::{GridSpec, Result};
-use crs::crs_err;
 use gdal::spatial_ref::SpatialRef;
+use projection::crs_err;
 
 /// How cell areas are obtained.
 #[derive(Debug, Clone, PartialEq)]
@@ -144,8 +144,8 @@ impl CellAreas {
             Some(s) if !s.is_geographic() => s,
             other => return Self::geographic(grid, other.as_ref()),
         };
-        let ell = crs::ellipsoid_of(&srs)?;
-        let method = crs::projection_method(&srs)?;
+        let ell = projection::ellipsoid_of(&srs)?;
+        let method = projection::projection_method(&srs)?;
         let crs_name = srs.name().unwrap_or_else(|| "unnamed projected CRS".into());
         let unit_m = srs.linear_units();
         if !(unit_m.is_finite() && unit_m > 0.0) {
@@ -153,7 +153,7 @@ impl CellAreas {
                 "the CRS \"{crs_name}\" has no usable linear unit"
             )));
         }
-        let (method, engine) = if crs::is_equal_area(&method, &ell) && !force_corners {
+        let (method, engine) = if projection::is_equal_area(&method, &ell) && !force_corners {
             let area = grid.dx() * grid.dy() * unit_m * unit_m;
             (
                 AreaMethod::EqualAreaProjection {
@@ -190,7 +190,7 @@ impl CellAreas {
                     rad.to_degrees()
                 };
                 (
-                    crs::ellipsoid_of(s)?,
+                    projection::ellipsoid_of(s)?,
                     s.name().unwrap_or_else(|| "unnamed geographic CRS".into()),
                     deg,
                 )

@@ -16,8 +16,7 @@
 //! the order ox, then oy, increasing, when several tie).
 
 pub(crate) use super::laea::RowProjector;
-pub(crate) use crate::crs::{traditional, wgs84};
-use crate::{Error, GridSpec, Result};
+use crate::{GridSpec, Result};
 use gdal::spatial_ref::{CoordTransform, SpatialRef};
 
 /// The AOO grid's CRS as plain data, shareable between threads.
@@ -50,13 +49,6 @@ pub(crate) struct AooGrid {
     centre: (f64, f64),
 }
 
-fn crs_err(what: &str) -> impl Fn(gdal::errors::GdalError) -> Error + '_ {
-    move |e| Error::Crs {
-        what: what.into(),
-        reason: e.to_string(),
-    }
-}
-
 /// The centre of `points` ((lon, lat) degrees): normalised mean of their unit normals as
 /// (lon, lat), rounded to 0.01 degrees; the first point when the mean vanishes.
 pub(crate) fn centre_of(points: &[(f64, f64)]) -> (f64, f64) {
@@ -86,7 +78,7 @@ impl AooGrid {
         let proj = format!(
             "+proj=laea +lat_0={lat0:.2} +lon_0={lon0:.2} +x_0=0 +y_0=0 +datum=WGS84 +units=m +no_defs"
         );
-        let srs = traditional(SpatialRef::from_proj4(&proj).map_err(crs_err("AOO grid CRS"))?);
+        let srs = crate::crs::from_proj4(&proj, "AOO grid CRS")?;
         Ok(AooGrid {
             proj,
             cell_m: cell_km * 1000.0,
@@ -105,7 +97,7 @@ impl AooGrid {
 
     /// A transform from `src` (any CRS, traditional axis order) to the grid's CRS.
     pub(crate) fn transform_from(&self, src: &SpatialRef) -> Result<CoordTransform> {
-        CoordTransform::new(src, &self.srs).map_err(crs_err("AOO grid CRS"))
+        crate::crs::transform(src, &self.srs, "AOO grid CRS")
     }
 }
 

@@ -88,7 +88,7 @@ pub(super) fn record_part(
     }
     let (lon0, lat0) = aoo::centre_of(&used);
     let grid = AooGrid::new(lon0, lat0, opts.aoo_cell_km)?;
-    let ct = grid.transform_from(&aoo::wgs84()?)?;
+    let ct = grid.transform_from(&crate::crs::wgs84()?)?;
     let (mut xs, mut ys): (Vec<f64>, Vec<f64>) = used.iter().copied().unzip();
     crate::crs::transform_points(&ct, &mut xs, &mut ys, "records to the AOO grid CRS")?;
     let mut counter = AooCounter::new(grid.cell_m);

@@ -116,14 +116,7 @@ impl RowProjector {
         Ok(RowProjector::Proj {
             ct: crate::crs::transform(
                 &src,
-                &crate::crs::traditional(
-                    gdal::spatial_ref::SpatialRef::from_proj4(&aoo.proj).map_err(|e| {
-                        crate::Error::Crs {
-                            what: "AOO grid CRS".into(),
-                            reason: e.to_string(),
-                        }
-                    })?,
-                ),
+                &crate::crs::from_proj4(&aoo.proj, "AOO grid CRS")?,
                 "AOO grid CRS",
             )?,
             gt: grid.geo_transform,

@@ -239,11 +239,11 @@ fn aoo_grid_origin_minimisation_with_a_known_answer() {
     // share one cell (4 km2), the first origin that does ([DER]). Records are placed with
     // PROJ's inverse LAEA (through GDAL), the outside reference for the projection.
     use gdal::spatial_ref::{CoordTransform, SpatialRef};
-    let laea = aoo::traditional(
+    let laea = crate::crs::traditional(
         SpatialRef::from_proj4("+proj=laea +lat_0=45 +lon_0=10 +datum=WGS84 +units=m +no_defs")
             .unwrap(),
     );
-    let ct = CoordTransform::new(&laea, &aoo::wgs84().unwrap()).unwrap();
+    let ct = CoordTransform::new(&laea, &crate::crs::wgs84().unwrap()).unwrap();
     let mut xs = [-100.0, 100.0, 100.0, -100.0];
     let mut ys = [-100.0, -100.0, 100.0, 100.0];
     ct.transform_coords(&mut xs, &mut ys, &mut []).unwrap();

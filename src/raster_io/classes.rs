@@ -82,8 +82,7 @@ impl ClassWriter {
             .map_err(err("creating the class raster"))?;
         ds.set_geo_transform(&grid.geo_transform)
             .map_err(err("setting the geotransform"))?;
-        let srs = gdal::spatial_ref::SpatialRef::from_wkt(&grid.crs_wkt)
-            .map_err(err("parsing the CRS"))?;
+        let srs = crate::crs::from_wkt(&grid.crs_wkt).map_err(err("parsing the CRS"))?;
         ds.set_spatial_ref(&srs).map_err(err("setting the CRS"))?;
         {
             let mut band = ds.rasterband(1).map_err(err("opening band 1"))?;

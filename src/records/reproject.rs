@@ -7,27 +7,13 @@
 //! a batch call fail as a whole.
 
 use crate::crs::{from_definition, transform, wgs84};
+use crate::grid::normalise_lon_closed;
 use crate::Result;
 use gdal::spatial_ref::{CoordTransform, SpatialRef};
 
 /// True for a geographic CRS whose angular unit is the degree.
 pub(crate) fn is_geographic_degrees(srs: &SpatialRef) -> bool {
     srs.is_geographic() && (srs.angular_units() - std::f64::consts::PI / 180.0).abs() < 1e-12
-}
-
-/// Wrap a longitude in degrees into [-180, 180].
-pub(crate) fn wrap_lon(lon: f64) -> f64 {
-    if (-180.0..=180.0).contains(&lon) {
-        lon
-    } else {
-        let w = (lon + 180.0).rem_euclid(360.0) - 180.0;
-        // rem_euclid maps 180 to -180; keep a value that was exactly on the seam positive.
-        if w == -180.0 && lon > 0.0 {
-            180.0
-        } else {
-            w
-        }
-    }
 }
 
 /// The two transforms every record goes through.
@@ -67,7 +53,7 @@ impl Reprojector {
         if !(-90.0..=90.0).contains(&lat) {
             return None;
         }
-        Some((rx, ry, wrap_lon(lon), lat))
+        Some((rx, ry, normalise_lon_closed(lon), lat))
     }
 }
 

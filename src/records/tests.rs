@@ -329,14 +329,3 @@ fn missing_file_and_bad_crs() {
         "{e}"
     );
 }
-
-#[test]
-fn wrap_lon_stays_in_range() {
-    // Common practice, no source: longitudes differing by 360 degrees are the same meridian.
-    use super::reproject::wrap_lon;
-    assert_eq!(wrap_lon(180.0), 180.0);
-    assert_eq!(wrap_lon(-180.0), -180.0);
-    assert_eq!(wrap_lon(190.0), -170.0);
-    assert_eq!(wrap_lon(-190.0), 170.0);
-    assert_eq!(wrap_lon(540.0), 180.0);
-}

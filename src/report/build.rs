@@ -11,7 +11,6 @@ use crate::patches::{Connectivity, Patch};
 use crate::raster_io::{class, SuitabilityRaster};
 use crate::threshold::{Threshold, ThresholdSpec};
 use crate::{GridSpec, RangeOptions, RangeResult};
-use gdal::spatial_ref::SpatialRef;
 
 /// What the summary and tables are made from.
 pub(crate) struct BuildInput<'a> {
@@ -91,7 +90,7 @@ pub(crate) fn build_result(b: BuildInput<'_>) -> Result<RangeResult> {
         warnings.push("no accessible area given (--accessible, --buffer-km, --hull-buffer-km): the whole raster counts as M".into());
     }
     let t = b.model.totals();
-    let srs = SpatialRef::from_wkt(&grid.crs_wkt)
+    let srs = crate::crs::from_wkt(&grid.crs_wkt)
         .map_err(Error::gdal(b.suitability, "reading the CRS"))?;
     let mut summary = Summary {
         areal_version: env!("CARGO_PKG_VERSION").into(),

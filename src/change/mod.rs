@@ -138,7 +138,7 @@ fn check_same_grid(present: &Path, p: &GridSpec, future: &Path, f: &GridSpec) ->
         )));
     }
     let srs = |g: &GridSpec, path: &Path| {
-        SpatialRef::from_wkt(&g.crs_wkt).map_err(Error::gdal(path, "reading the CRS"))
+        crate::crs::from_wkt(&g.crs_wkt).map_err(Error::gdal(path, "reading the CRS"))
     };
     let (sp, sf) = (srs(p, present)?, srs(f, future)?);
     if sp != sf {

@@ -18,7 +18,7 @@
 
 use super::present::PresentRuns;
 use crate::access::buffer::{m_max, m_min, PointBuffer};
-use crate::{Error, GridSpec, Result};
+use crate::{GridSpec, Result};
 use gdal::spatial_ref::CoordTransform;
 use geographiclib_rs::{Geodesic, InverseGeodesic};
 use std::collections::HashMap;
@@ -80,12 +80,11 @@ fn lonlat_transform(grid: &GridSpec) -> Result<Option<CoordTransform>> {
     }
     let src = crate::crs::grid_srs(grid)?;
     let dst = crate::crs::wgs84()?;
-    Ok(Some(CoordTransform::new(&src, &dst).map_err(|e| {
-        Error::Crs {
-            what: "raster CRS".into(),
-            reason: format!("no transformation to WGS84 lon/lat for --dispersal-km: {e}"),
-        }
-    })?))
+    Ok(Some(crate::crs::transform(
+        &src,
+        &dst,
+        "raster CRS to WGS84 lon/lat for --dispersal-km",
+    )?))
 }
 
 impl ReachSpec {

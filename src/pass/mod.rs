@@ -108,24 +108,14 @@ pub(crate) fn run_pass(
                 };
                 let mut bufs = StripBuffers::default();
                 loop {
-                    let mut codes = pool
-                        .lock()
-                        .map(|mut p| p.pop())
-                        .ok()
-                        .flatten()
-                        .unwrap_or_default();
+                    let mut codes = take(pool);
                     let i = next.fetch_add(1, Ordering::Relaxed);
                     if i >= n_strips {
                         return;
                     }
                     let y0 = i * STRIP_ROWS;
                     let rows = STRIP_ROWS.min(h - y0);
-                    let mut bins = bins_pool
-                        .lock()
-                        .map(|mut p| p.pop())
-                        .ok()
-                        .flatten()
-                        .unwrap_or_default();
+                    let mut bins = take(bins_pool);
                     let out = reader
                         .classify_and_bin(y0, rows, t, cands, &mut bufs, &mut codes, &mut bins)
                         .map(|binary| {
@@ -172,12 +162,8 @@ pub(crate) fn run_pass(
                     raster,
                 )?;
                 let spent = sink.write_rows(y0, classes)?;
-                if let Ok(mut p) = pool.lock() {
-                    p.push(spent);
-                }
-                if let Ok(mut p) = bins_pool.lock() {
-                    p.push(strip.bins);
-                }
+                give(&pool, spent);
+                give(&bins_pool, strip.bins);
                 input.progress.advance(STRIP_ROWS.min(h - y0) as u64);
                 expect += 1;
             }
@@ -191,6 +177,18 @@ pub(crate) fn run_pass(
         input.progress.finish();
         consumer.finish(grid)
     })
+}
+
+/// A buffer from `pool` (a new one when it is empty).
+fn take(pool: &Mutex<Vec<Vec<u8>>>) -> Vec<u8> {
+    pool.lock().ok().and_then(|mut p| p.pop()).unwrap_or_default()
+}
+
+/// A buffer back to `pool` for the next strip.
+fn give(pool: &Mutex<Vec<Vec<u8>>>, buf: Vec<u8>) {
+    if let Ok(mut p) = pool.lock() {
+        p.push(buf);
+    }
 }
 
 /// Worker threads for decoding: the machine's cores (at least 1), or `AREAL_THREADS`.

@@ -14,6 +14,7 @@ bench-data/ and are reused when present. The peer runs under an address-space li
 (--peer-limit-gb, default 20) so that it fails cleanly instead of exhausting the machine.
 """
 import argparse
+import csv
 import json
 import os
 import platform
@@ -79,6 +80,7 @@ def main():
     env = dict(os.environ)
     env.setdefault("GDAL_CACHEMAX", "32")
     load0 = os.getloadavg()
+    checks = []
     for size in a.sizes.split(","):
         prefix = ensure_inputs(size)
         tif, occ, m = prefix + ".tif", prefix + ".occ.csv", prefix + ".m.geojson"
@@ -105,6 +107,8 @@ def main():
                     sys.exit(f"areal failed on {size} {mode}: {tail}")
                 runs[mode].append((s, mb))
                 summaries[mode] = json.loads(stdout)
+                if mode.startswith("vectors"):
+                    checks.append(f"{size}: " + vector_layer_check(out))
         floor_s = min(f[0] for f in floor)
         rows.append((size, "-", "GDAL decode floor (2 threads)", floor_s, max(f[1] for f in floor), 1.0, None, None))
         for mode in modes:
@@ -136,6 +140,8 @@ def main():
                 rows.append((size, mode, label, ps, pmb, ps / floor_s, None, None))
     note = (f"Fastest of {a.rounds} round(s) per row (floor and runs alternate within a round); "
             f"load average {load0[0]:.1f} before, {os.getloadavg()[0]:.1f} after.")
+    if checks:
+        note += " Vector layers against patches.csv (ogr2ogr): " + "; ".join(sorted(set(checks))) + "."
     write_table(a.out, rows, note)
 
 
@@ -193,6 +199,26 @@ def report_cost(a):
         f.write(header + text)
     os.replace(a.out + ".tmp", a.out)
     print(header + text)
+
+
+def vector_layer_check(out):
+    """The `patches` layer of range.gpkg against patches.csv: same ids, cells, areas."""
+    dump = out + "-patches-layer.csv"
+    if os.path.exists(dump):
+        os.remove(dump)
+    subprocess.run(["ogr2ogr", "-f", "CSV", dump, os.path.join(out, "range.gpkg"), "patches"], check=True)
+    with open(os.path.join(out, "patches.csv")) as f:
+        table = {r["patch_id"]: r for r in csv.DictReader(f)}
+    with open(dump) as f:
+        layer = [r for r in csv.DictReader(f)]
+    ids = {r["patch_id"] for r in layer}
+    both = [r for r in layer if r["patch_id"] in table]
+    cells_off = sum(int(r["cells"]) != int(table[r["patch_id"]]["cells"]) for r in both)
+    rel = max((abs(float(r["area_km2"]) - float(table[r["patch_id"]]["area_km2"]))
+               / float(table[r["patch_id"]]["area_km2"]) for r in both), default=0.0)
+    same = "equal" if ids == set(table) else "DIFFER"
+    return (f"{len(layer)} polygons, ids {same}, {cells_off} cell counts differ, "
+            f"largest relative area difference {rel:.1e}")
 
 
 def write_table(path, rows, note=""):

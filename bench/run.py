@@ -66,7 +66,8 @@ def main():
     ap.add_argument("--sizes", default="S")
     ap.add_argument("--modes", default="polygon,buffer")
     ap.add_argument("--buffer-km", default="200")
-    ap.add_argument("--out", default=os.path.join(ROOT, "docs", "bench-results.md"))
+    ap.add_argument("--out", default=None,
+                    help="table file (default docs/bench-results.md, or docs/bench-report-cost.md with --report-cost)")
     ap.add_argument("--peer-limit-gb", type=float, default=20.0)
     ap.add_argument("--no-peer", action="store_true")
     ap.add_argument("--rounds", type=int, default=1, help="rounds of the main table (fastest kept)")
@@ -74,6 +75,8 @@ def main():
                     help="only measure what report.html, map.png and the classes.tif overviews add to a run")
     ap.add_argument("--repeat", type=int, default=3, help="rounds with --report-cost (median and fastest shown)")
     a = ap.parse_args()
+    if a.out is None:
+        a.out = os.path.join(ROOT, "docs", "bench-report-cost.md" if a.report_cost else "bench-results.md")
     if a.report_cost:
         return report_cost(a)
     rows = []

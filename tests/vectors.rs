@@ -1,9 +1,9 @@
 //! End to end: `areal range --vectors` and `areal polygons`, read back through GDAL.
 //!
 //! Outside checks: geodesic polygon areas from GeographicLib (geographiclib-rs, Karney 2013)
-//! against the cell-area sums of patches.csv (closed form, CHECKS.md section 2); GEOS validity
+//! against the cell-area sums of patches.csv (closed form, Snyder 1987 eq. 3-12); GEOS validity
 //! through GDAL; RFC 7946 winding (section 3.1.6) and antimeridian cutting (section 3.1.9)
-//! checked on the GeoJSON text itself; EPSG:6933 is equal-area on WGS84 (CHECKS.md section 6).
+//! checked on the GeoJSON text itself; EPSG:6933 is equal-area on WGS84 (EPSG registry).
 
 mod common;
 mod vectors_common;

@@ -29,7 +29,7 @@ fn regional_equal_area_is_laea_centred_on_the_data() {
     for (f, row) in lay[1].features.iter().zip(&prows) {
         let want: f64 = row[col(&ph, "area_km2")].parse().unwrap();
         // Vertices at every cell corner, straight between them in LAEA: the chord error is
-        // ~1e-5 on 100 km edges (CHECKS.md section 6, n = 1 row), far less on 0.25 degree cells.
+        // ~1e-5 on 100 km edges (GeographicLib with PROJ), far less on 0.25 degree cells.
         assert!(rel(planar_km2(&f.polygons), want) < 1e-4, "{}", row[0]);
         assert!(f.valid);
     }
@@ -89,7 +89,7 @@ fn global_patch_across_the_antimeridian() {
             );
         }
         assert_eq!(crossing, 1, "west {west}: one patch crosses 180");
-        // Global extent: the equal-area file is EPSG:6933 (CHECKS.md section 6), whose cells
+        // Global extent: the equal-area file is EPSG:6933 (EPSG registry: CEA), whose cells
         // are exact rectangles, so the planar area of each patch is its true area.
         let lay = read_gpkg(&out.join("range-equal-area.gpkg"));
         for (f, row) in lay[1].features.iter().zip(&prows) {
@@ -111,7 +111,7 @@ fn global_patch_across_the_antimeridian() {
 #[test]
 fn projected_grid_lonlat_outputs_keep_the_true_areas() {
     // EPSG:3035 (ETRS89-LAEA Europe, natural origin 52 N 10 E at x 4 321 000, y 3 210 000:
-    // CHECKS.md section 6), 1 km cells around the origin.
+    // EPSG registry), 1 km cells around the origin.
     let t = tempfile::tempdir().unwrap();
     let (w, h) = (30usize, 20usize);
     let mut v = vec![0.1f32; w * h];
@@ -162,8 +162,8 @@ fn projected_grid_lonlat_outputs_keep_the_true_areas() {
         for p in &polys {
             check_winding(p, "patches");
         }
-        // Vertices every 1 km along the LAEA edges, geodesic between them: CHECKS.md section 6
-        // gives +3.5e-9 for 1 km segments on a LAEA square; 9 decimals move 1 km edges by
+        // Vertices every 1 km along the LAEA edges, geodesic between them: GeographicLib
+        // with PROJ gives +3.5e-9 for 1 km segments on a LAEA square; 9 decimals move 1 km edges by
         // < 0.06 mm, below 1e-7 relative.
         let want: f64 = row[col(&ph, "area_km2")].parse().unwrap();
         let got = area_km2_geodesic(&polys);

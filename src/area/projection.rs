@@ -33,7 +33,8 @@ const ELLIPSOIDAL_EQUAL_AREA: &[(&str, Option<i64>)] = &[
 /// Methods that are equal-area only on a sphere: the EPSG "(Spherical)" variants (9834, 1027) and
 /// the projections PROJ implements on a sphere only (Mollweide: PROJ lists it as "PCyl., Sph.";
 /// on an ellipsoid it maps geodetic latitude onto a sphere of radius a, which is not
-/// equal-area: CHECKS.md §6). Eckert IV and VI are spherical-only in PROJ as well (from memory).
+/// equal-area: computed with PROJ via pyproj). Eckert IV and VI are spherical-only in PROJ as
+/// well (from memory).
 const SPHERICAL_EQUAL_AREA: &[(&str, Option<i64>)] = &[
     ("lambert cylindrical equal area (spherical)", Some(9834)),
     ("lambert azimuthal equal area (spherical)", Some(1027)),

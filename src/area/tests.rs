@@ -1,5 +1,6 @@
-//! Tests of the area module. Check values come from /work/shared/CHECKS.md (with the sources it
-//! names) or are computed here with GeographicLib (geographiclib-rs, Karney 2013).
+//! Tests of the area module. Check values are published (NIMA TR8350.2; Humerfelt 2000), computed
+//! with GeographicLib, PROJ (pyproj) or scipy outside the project, or computed here with
+//! GeographicLib (geographiclib-rs, Karney 2013); each test names its source.
 
 use super::*;
 use crate::Error;
@@ -27,7 +28,7 @@ fn fsum(values: impl IntoIterator<Item = f64>) -> f64 {
 
 /// Reference area of the lon/lat cell [lat1, lat2] x [0, dlon] from GeographicLib: a geodesic
 /// polygon with each parallel edge split into n and 2n segments, Richardson-extrapolated
-/// (error ∝ 1/n², CHECKS.md §2 route GL-dens).
+/// (error ∝ 1/n², common practice, no source).
 fn gl_cell_area(geod: &Geodesic, lat1: f64, lat2: f64, dlon: f64, n: usize) -> f64 {
     let poly = |n: usize| {
         let mut pa = PolygonArea::new(geod, Winding::CounterClockwise);
@@ -98,7 +99,7 @@ fn all_rows(ca: &mut CellAreas, w: usize, h: usize) -> Vec<f64> {
 #[test]
 fn wgs84_constants_match_checks() {
     let e = Ellipsoid::WGS84;
-    // CHECKS.md §1 [REF]/[PUB✓] (NIMA TR8350.2; Humerfelt 2000).
+    // Computed with GeographicLib; published in NIMA TR8350.2 and Humerfelt 2000.
     assert!((e.e2() - 0.0066943799901413165).abs() < 1e-15);
     assert!((e.b() - 6_356_752.314245179).abs() < 1e-9);
     assert!(rel(e.q_p(), 1.9955310875028367) < 1e-14);
@@ -110,7 +111,7 @@ fn wgs84_constants_match_checks() {
 
 #[test]
 fn authalic_q_matches_checks() {
-    // CHECKS.md §2 "values" row [REF].
+    // q(φ) of Snyder 1987 eq. 3-12, evaluated in Python outside the project.
     for (deg, q) in [
         (1.0, 0.03467119392384121),
         (45.0, 1.4078903877254445),
@@ -146,8 +147,8 @@ fn sphere_limit_is_the_spherical_zone() {
 
 // ---------------------------------------------------------------- lon/lat cells
 
-/// CHECKS.md §2 closed-form values [REF] (independently confirmed there by quadrature, CEA and
-/// densified GeographicLib).
+/// Snyder 1987 eq. 3-12 closed form, computed outside the project and confirmed by scipy `quad`,
+/// PROJ's EPSG:6933 and densified GeographicLib polygons.
 const CELLS: &[(f64, f64, f64, f64)] = &[
     (0.0, 1.0, 1.0, 12_308_463_893.975),
     (45.0, 46.0, 1.0, 8_686_494_956.670),
@@ -180,7 +181,7 @@ fn cell_areas_match_densified_geographiclib() {
     for &(s, n, d, _) in CELLS {
         let want = gl_cell_area(&geod, s, n, d, 1000);
         let got = lonlat_cell_area_m2(s, n, d);
-        // CHECKS.md §2: GL-dens agrees with the closed form to <= 8e-11; brief asks 1e-9.
+        // Densified GeographicLib agrees with the closed form to <= 8e-11; we ask 1e-9.
         assert!(
             rel(got, want) < 1e-9,
             "cell {s}..{n} x {d}: {got} vs GL {want}"
@@ -190,8 +191,9 @@ fn cell_areas_match_densified_geographiclib() {
 
 #[test]
 fn wrong_answer_detectors_are_not_matched() {
-    // CHECKS.md §2 "wrong-answer detectors" [REF]: each approximation differs from the exact
-    // value by the amount given there, so a correct implementation is that far from it.
+    // Wrong-answer detectors (computed in Python against the Snyder 1987 closed form): each
+    // approximation differs from the exact value by the amount below, so a correct
+    // implementation is that far from it.
     let rq = Ellipsoid::WGS84.authalic_radius();
     let a = Ellipsoid::WGS84.a;
     for (s, n, d, sph_diff, cosmid_diff) in [
@@ -225,7 +227,7 @@ fn global_one_degree_grid_sums_to_the_ellipsoid() {
     let mut ca = CellAreas::new(&g).unwrap();
     assert_eq!(ca.method(), &AreaMethod::EllipsoidAuthalic);
     let total = fsum(all_rows(&mut ca, 360, 180));
-    // CHECKS.md §1: 510 065 621.724 km² (Humerfelt 2000 [PUB✓]); [REF] 510 065 621 724 088.5 m².
+    // 510 065 621.724 km² (Humerfelt 2000); GeographicLib area0 gives 510 065 621 724 088.5 m².
     assert!(rel(total, 510_065_621_724_088.5) < 1e-12, "{total}");
     assert!(rel(total, 510_065_621.724e6) < 1e-9);
     assert!(ca.describe().contains("Snyder 1987"));
@@ -233,7 +235,8 @@ fn global_one_degree_grid_sums_to_the_ellipsoid() {
 
 #[test]
 fn geographic_grid_from_wkt_uses_the_crs_ellipsoid() {
-    // A lonlat grid without WKT and the same grid with EPSG:4326's WKT agree (CHECKS.md §2 value).
+    // A lonlat grid without WKT and the same grid with EPSG:4326's WKT agree
+    // (Snyder 1987 closed form).
     let mut g = GridSpec::lonlat(4, 2, 0.0, 46.0, 1.0);
     let mut bare = CellAreas::new(&g).unwrap();
     g.crs_wkt = wkt_of("EPSG:4326");
@@ -241,7 +244,7 @@ fn geographic_grid_from_wkt_uses_the_crs_ellipsoid() {
     for ca in [&mut bare, &mut wkt] {
         assert!(rel(ca.row(0).unwrap().get(3), 8_686_494_956.670) < 1e-11);
     }
-    // ETRS89 (EPSG:4258) is on GRS 1980, 1/f = 298.257222101 (CHECKS.md §1 [PUB-mem]).
+    // ETRS89 (EPSG:4258) is on GRS 1980, 1/f = 298.257222101 (from memory).
     g.crs_wkt = wkt_of("EPSG:4258");
     let grs = CellAreas::new(&g).unwrap();
     assert!(rel(1.0 / grs.ellipsoid().f, 298.257_222_101) < 1e-12);
@@ -274,10 +277,11 @@ const LAEA_45_10: &str =
 
 #[test]
 fn method_detection_for_known_crss() {
-    // CHECKS.md §6: 6933 CEA, 3035 LAEA, 8857 Equal Earth, LAEA strings are ellipsoidal
-    // equal-area in PROJ; ESRI:54009 Mollweide is spherical-only (not equal-area on WGS 84);
-    // EPSG:3857 is conformal. Spherical figures: CEA R=6371228 (EASE-Grid v1, CHECKS.md §6) and
-    // Mollweide on a sphere are equal-area on that sphere (PROJ's spherical formulas, from memory).
+    // EPSG registry and PROJ docs: 6933 CEA, 3035 LAEA, 8857 Equal Earth (PROJ PR #1101), LAEA
+    // strings are ellipsoidal equal-area in PROJ; ESRI:54009 Mollweide is spherical-only (not
+    // equal-area on WGS 84); EPSG:3857 is conformal. Spherical figures: CEA R=6371228 (EASE-Grid
+    // v1, EPSG:3410) and Mollweide on a sphere are equal-area on that sphere (PROJ's spherical
+    // formulas, from memory).
     let equal_area = [
         ("EPSG:6933", "Lambert Cylindrical Equal Area"),
         ("EPSG:3035", "Lambert Azimuthal Equal Area"),
@@ -331,7 +335,7 @@ fn method_detection_for_known_crss() {
         assert!(ca.describe().contains("not equal-area"));
     }
     // Near the origin of ESRI:54009 (equator) Mollweide's projected/true is 1.006738
-    // (CHECKS.md §6 [REF], 1° cell at 0°), so the corner areas must not be nominal.
+    // (computed with PROJ via pyproj, 1° cell at 0°), so the corner areas must not be nominal.
     let g = projected_grid("ESRI:54009", 2, 2, 0.0, 1e5, 1000.0);
     let mut ca = CellAreas::new(&g).unwrap();
     let ratio = 1e6 / ca.row(0).unwrap().get(0);
@@ -340,20 +344,20 @@ fn method_detection_for_known_crss() {
 
 #[test]
 fn laea_square_is_uniform_and_corners_agree() {
-    // 100 km square in LAEA(45N, 10E) as 10 x 10 cells of 10 km (CHECKS.md §6).
+    // 100 km square in LAEA(45N, 10E) as 10 x 10 cells of 10 km (PROJ +proj=laea).
     let g = projected_grid(LAEA_45_10, 10, 10, -50_000.0, 50_000.0, 10_000.0);
     let mut ea = CellAreas::new(&g).unwrap();
     assert_eq!(ea.row(4).unwrap(), RowAreas::Uniform(1e8));
     assert!(ea.describe().contains("Lambert Azimuthal Equal Area"));
     // The corner method on the same grid must give the planar areas back, since LAEA is
-    // equal-area on WGS 84 (CHECKS.md §6 [REF]: 10 000.000 005 km² for the square with 1000
-    // points per edge, 10 000.003 077 km² with 10).
+    // equal-area on WGS 84 (GeographicLib with PROJ: 10 000.000 005 km² for the square with
+    // 1000 points per edge, 10 000.003 077 km² with 10).
     let mut co = CellAreas::new_projected_corners(&g).unwrap();
     let cells = all_rows(&mut co, 10, 10);
     let worst = cells.iter().map(|a| rel(*a, 1e8)).fold(0.0, f64::max);
     assert!(worst < 3e-8, "worst cell {worst}");
     let total = fsum(cells);
-    // 50 segments per side of the square: CHECKS.md's 3.07e-5/n² gives 1.2e-8.
+    // 50 segments per side of the square: the GeographicLib error 3.07e-5/n² gives 1.2e-8.
     assert!(rel(total, 1e10) < 2e-8, "{total}");
     // The same grid with its CRS as WKT1 (GDAL's default export) is detected the same way.
     let mut g1 = g.clone();
@@ -366,7 +370,7 @@ fn laea_square_is_uniform_and_corners_agree() {
 
 #[test]
 fn laea_corners_transform_to_the_checks_lonlat() {
-    // CHECKS.md §6 [REF]: corners of the 100 km square in LAEA(45N, 10E).
+    // PROJ (pyproj) output: corners of the 100 km square in LAEA(45N, 10E).
     let g = projected_grid(LAEA_45_10, 1, 1, -50_000.0, 50_000.0, 100_000.0);
     let srs = SpatialRef::from_wkt(&g.crs_wkt).unwrap();
     let c = corners::Corners::new(&g, &srs, &Ellipsoid::WGS84).unwrap();
@@ -397,7 +401,7 @@ fn merc_lat(y: f64) -> f64 {
 #[test]
 fn web_mercator_cells_match_geographiclib() {
     // Web Mercator cell edges are parallels and meridians, so a cell is a lon/lat cell whose
-    // area GeographicLib gives (densified parallels, CHECKS.md §2 route GL-dens).
+    // area GeographicLib gives (densified parallels, Richardson-extrapolated).
     let geod = Geodesic::wgs84();
     let (_, y45) = forward("EPSG:3857", 0.0, 45.0);
     for cell in [1_000.0, 10_000.0, 100_000.0] {
@@ -422,9 +426,9 @@ fn web_mercator_cells_match_geographiclib() {
 
 #[test]
 fn cylindrical_equal_area_corners_match_q() {
-    // EPSG:6933 (CEA on WGS 84, CHECKS.md §6): cells are lon/lat cells and equal-area, so the
-    // corner method must give both the nominal area and the closed form (CHECKS.md §2: the CEA
-    // route agrees with the closed form to 1e-14).
+    // EPSG:6933 (CEA on WGS 84, EPSG registry): cells are lon/lat cells and equal-area, so the
+    // corner method must give both the nominal area and the closed form (computed with PROJ
+    // via pyproj: EPSG:6933 agrees with the Snyder 1987 closed form to 1e-14).
     let (_, y60) = forward("EPSG:6933", 0.0, 60.0);
     let g = projected_grid("EPSG:6933", 2, 2, 0.0, y60, 25_000.0);
     assert!(matches!(
@@ -440,9 +444,9 @@ fn cylindrical_equal_area_corners_match_q() {
 
 #[test]
 fn mollweide_on_wgs84_is_measured_not_trusted() {
-    // CHECKS.md §6 [REF]: for a 1° cell at 45–46°N, ESRI:54009 projected/true = 0.999894. A block
-    // of 5 km cells around 45.5°N (±0.05°) sees the same ratio to ~1e-5 (the ratio changes by
-    // about 2.2e-4 per degree between 45° and 60°, same table).
+    // Computed with PROJ via pyproj: for a 1° cell at 45–46°N, ESRI:54009 projected/true =
+    // 0.999894. A block of 5 km cells around 45.5°N (±0.05°) sees the same ratio to ~1e-5 (the
+    // ratio changes by about 2.2e-4 per degree between 45° and 60°, same computation).
     let (_, y_mid) = forward("ESRI:54009", 0.0, 45.5);
     let cell = 5_000.0;
     let g = projected_grid("ESRI:54009", 2, 2, 0.0, y_mid + cell, cell);

@@ -7,9 +7,9 @@
 //! responsible authority to review ([`CRITERION_B_CAUTION`]).
 //!
 //! Source of the numbers: IUCN (2001; 2nd ed. 2012) *IUCN Red List Categories and Criteria:
-//! Version 3.1*, criterion B1 (EOO) and B2 (AOO). Provenance as recorded in the project's
-//! check table (CHECKS.md §4): CR and EN values confirmed against a stored copy; the VU values
-//! (20,000 km2 and 2,000 km2) are quoted from memory, consistent with a secondary text.
+//! Version 3.1*, criterion B1 (EOO) and B2 (AOO). CR and EN values confirmed against a stored
+//! copy of that publication; the VU values (20,000 km2 and 2,000 km2) are quoted from memory,
+//! consistent with a secondary text.
 
 use serde::Serialize;
 

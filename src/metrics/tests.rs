@@ -24,7 +24,7 @@ fn used(points: &[(f64, f64)]) -> Vec<MetricRecord> {
 
 // The thresholds as published: IUCN (2001; 2nd ed. 2012) Red List Categories and Criteria,
 // version 3.1, criterion B1 (EOO) and B2 (AOO). CR and EN confirmed against a stored copy,
-// VU quoted from memory (CHECKS.md §4: [PUB✓] / [PUB-mem]).
+// VU quoted from memory.
 #[test]
 fn criterion_b_thresholds_are_the_published_ones() {
     let eoo: Vec<(&str, f64)> = EOO_THRESHOLDS
@@ -54,7 +54,7 @@ fn criterion_b_thresholds_are_the_published_ones() {
 }
 
 // The thresholds are strict "less than" (IUCN Red List Categories and Criteria v3.1, B1 and
-// B2 read "estimated to be less than"; CHECKS.md §4 [PUB✓]).
+// B2 read "estimated to be less than"; wording confirmed against a stored copy).
 #[test]
 fn criterion_b_comparison_is_strict_and_worded_as_below_a_threshold() {
     assert_eq!(
@@ -95,7 +95,7 @@ fn criterion_b_comparison_is_strict_and_worded_as_below_a_threshold() {
 
 #[test]
 fn km2_formatting() {
-    // Hand-worked ([DER]).
+    // Worked by hand.
     assert_eq!(fmt_km2(12_713.025_3), "12,713");
     assert_eq!(fmt_km2(232.0), "232");
     assert_eq!(fmt_km2(0.04), "0.0");
@@ -105,8 +105,8 @@ fn km2_formatting() {
 
 // --- EOO ------------------------------------------------------------------------------
 
-// 4-vertex geodesic polygons, GeographicLib PolygonArea values from CHECKS.md §2 ([REF],
-// GeographicLib-Python 2.1), column "GL-4 (geodesic edges)".
+// 4-vertex geodesic polygons, GeographicLib PolygonArea values (computed with
+// GeographicLib-Python 2.1; Karney 2013).
 const GL4_EQUATOR_1DEG_KM2: f64 = 12_308.778_361;
 const GL4_45N_1DEG_KM2: f64 = 8_686.379_302;
 const GL4_89N_POLE_KM2: f64 = 108.861_155_869;
@@ -145,7 +145,7 @@ fn eoo_of_a_square_with_inner_points_is_the_geodesic_square() {
 #[test]
 fn eoo_across_the_antimeridian() {
     // The same 1-degree square as at lon 0..1, moved to 179.5E..179.5W: area does not depend
-    // on longitude (CHECKS.md §2 [REF] value). A raw lon/lat hull would span 359 degrees.
+    // on longitude (GeographicLib value above). A raw lon/lat hull would span 359 degrees.
     let pts = [
         (179.5, 0.0),
         (-179.5, 0.0),
@@ -162,7 +162,7 @@ fn eoo_across_the_antimeridian() {
 
 #[test]
 fn eoo_touching_and_around_a_pole() {
-    // 89N..90N by 1 degree: the two pole corners are one point (CHECKS.md §2 GL-4, [REF]).
+    // 89N..90N by 1 degree: the two pole corners are one point (GeographicLib-Python 2.1).
     let h = hull_area(&[(0.0, 89.0), (1.0, 89.0), (1.0, 90.0), (0.0, 90.0)]);
     assert_eq!(h.distinct_points, 3);
     assert!(rel(h.area_km2.unwrap(), GL4_89N_POLE_KM2) < 1e-9, "{h:?}");
@@ -177,14 +177,15 @@ fn eoo_touching_and_around_a_pole() {
     let direct = geodesic_polygon_area_km2(&ring);
     assert!(rel(h.area_km2.unwrap(), direct) < 1e-12);
     // And it is a little less than the cap north of 85N on WGS84, π a² (q_p - q(85°)) =
-    // 979,155.2 km2 (Snyder 1987 eq. 3-12, CHECKS.md §2 formula), and more than 95 % of it
-    // (an inscribed 12-gon keeps (12/2π)·sin(2π/12) = 95.5 % of a small circle's area) ([DER]).
+    // 979,155.2 km2 (Snyder 1987 eq. 3-12), and more than 95 % of it
+    // (an inscribed 12-gon keeps (12/2π)·sin(2π/12) = 95.5 % of a small circle's area; derived
+    // by hand).
     assert!((0.95 * 979_155.2..979_155.2).contains(&direct), "{direct}");
 }
 
 #[test]
 fn eoo_degenerate_sets() {
-    // [DER]: fewer than 3 distinct points, or points on one great circle, have no area.
+    // Derived by hand: fewer than 3 distinct points, or points on one great circle, have no area.
     let two = hull_area(&[(10.0, 45.0), (10.0, 45.0), (10.1, 45.0)]);
     assert_eq!((two.area_km2, two.distinct_points), (Some(0.0), 2));
     assert!(two.note.unwrap().contains("fewer than 3"));
@@ -207,7 +208,7 @@ fn eoo_degenerate_sets() {
 
 #[test]
 fn aoo_counts_hand_placed_points_in_known_cells() {
-    // Projected metres, 2 km cells, origin (0, 0): cells worked by hand ([DER]).
+    // Projected metres, 2 km cells, origin (0, 0): cells worked by hand.
     let mut c = AooCounter::new(2000.0);
     for (x, y) in [
         (300.0, 300.0),     // cell (0, 0)
@@ -236,7 +237,7 @@ fn aoo_counts_hand_placed_points_in_known_cells() {
 fn aoo_grid_origin_minimisation_with_a_known_answer() {
     // Four records 200 m apart round the LAEA centre (45N, 10E): at origin (0, 0) the grid
     // lines x = 0 and y = 0 split them into 4 cells (16 km2); at origin (0.5 km, 0.5 km) they
-    // share one cell (4 km2), the first origin that does ([DER]). Records are placed with
+    // share one cell (4 km2), the first origin that does (by hand). Records are placed with
     // PROJ's inverse LAEA (through GDAL), the outside reference for the projection.
     use gdal::spatial_ref::{CoordTransform, SpatialRef};
     let laea = crate::crs::traditional(
@@ -259,8 +260,8 @@ fn aoo_grid_origin_minimisation_with_a_known_answer() {
         "{}",
         m.aoo_grid.crs
     );
-    // The hull (200 m square, 0.04 km2) is smaller than AOO: EOO := AOO (Guidelines §4.9,
-    // from memory; CHECKS.md §4 [PUB-mem]).
+    // The hull (200 m square, 0.04 km2) is smaller than AOO: EOO := AOO (Guidelines for
+    // Using the IUCN Red List Categories and Criteria §4.9; wording found in a secondary copy).
     let hull = m.records.eoo_hull_km2.unwrap();
     assert!(rel(hull, 0.04) < 1e-3, "{hull}");
     assert!(m.records.eoo_set_to_aoo);
@@ -276,7 +277,8 @@ fn aoo_grid_origin_minimisation_with_a_known_answer() {
 
 #[test]
 fn single_record_and_dropped_records() {
-    // One record: hull area 0, EOO := AOO = one 2 km cell (CHECKS.md §4 [DER] row).
+    // One record: hull area 0, EOO := AOO = one 2 km cell (derived by hand from
+    // Guidelines §4.9).
     let m = records_metrics(
         Path::new("r.csv"),
         &used(&[(5.0, 5.0)]),
@@ -343,7 +345,7 @@ fn bad_metric_options_name_the_option() {
 
 #[test]
 fn patch_structure_worked_example() {
-    // [DER] by hand: areas 1, 2, 3, 10; Σa = 16, Σa² = 114, weighted mean 7.125;
+    // Derived by hand: areas 1, 2, 3, 10; Σa = 16, Σa² = 114, weighted mean 7.125;
     // below 2.5 km2: the 1 and the 2, share 3/16.
     let s = patch_structure(&[1.0, 2.0, 3.0, 10.0], Some(2.5));
     assert_eq!((s.patches, s.total_km2, s.largest_km2), (4, 16.0, 10.0));

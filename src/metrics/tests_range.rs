@@ -45,7 +45,7 @@ fn cells_per_patch(classes: &[u8], width: usize, conn: Connectivity, wrap: bool)
     cells
 }
 
-// The CHECKS.md §7 6×6 grid ([DER], checked there with scipy.ndimage.label [REF]):
+// A 6×6 grid constructed by hand, labels checked with scipy.ndimage.label (scipy 1.17.1):
 // 8-connectivity sizes [3, 2, 7, 1], 4-connectivity [3, 1, 1, 1, 1, 3, 1, 1, 1], scan order.
 #[rustfmt::skip]
 const SIX: [u8; 36] = [
@@ -67,7 +67,7 @@ fn scan_numbers_patches_like_the_published_grid() {
         cells_per_patch(&SIX, 6, Connectivity::Four, false),
         [3, 1, 1, 1, 1, 3, 1, 1, 1]
     );
-    // Wrapping joins column 0 and column 5 ([DER]): with 8 neighbours, (0,5)-(0,0) joins
+    // Wrapping joins column 0 and column 5 (by hand): with 8 neighbours, (0,5)-(0,0) joins
     // the first two patches and (5,5)-(5,0) the last two: 2 patches of 5 and 8 cells.
     assert_eq!(cells_per_patch(&SIX, 6, Connectivity::Eight, true), [5, 8]);
 }
@@ -75,7 +75,7 @@ fn scan_numbers_patches_like_the_published_grid() {
 #[test]
 fn boundary_corners_are_the_rim_of_a_block() {
     // A 4×4 block in a 6×6 grid: its boundary corners are the 16 grid points on the rim of
-    // the block; the 9 corners inside it are not boundary corners ([DER]).
+    // the block; the 9 corners inside it are not boundary corners (by hand).
     let mut g = [0u8; 36];
     for r in 1..5 {
         for c in 1..5 {
@@ -177,7 +177,7 @@ fn edge_to_edge_distances_between_patches() {
 #[test]
 fn stepping_stone_reach_with_known_gaps() {
     // Gaps (cells of 0.01 degree at the equator, about 1.11 km): A-B 2, B-C 5, C-D 2, D-E 10
-    // ([DER] by construction; distances from GeographicLib as above).
+    // (by construction; distances from GeographicLib as above).
     let g2 = gap_km(2, 2);
     let g5 = gap_km(6, 5);
     // Just above 2 cells: A reaches B only.
@@ -208,7 +208,7 @@ fn modelled_figures_of_the_occupied_patch() {
     let md = m.modelled.unwrap();
     assert_eq!(md.occupied_patches, 1);
     // A is 2 cells whose centres are 0.01 degree (1.11 km) apart: 1 grid cell at some of the
-    // 16 origins, 2 at others ([DER]).
+    // 16 origins, 2 at others (by hand).
     assert_eq!((md.figures.aoo_min_km2, md.figures.aoo_max_km2), (4.0, 8.0));
     // Modelled hull: A's rectangle lon 0..0.02, lat -0.005..0.005; its area from
     // GeographicLib PolygonArea of the 4 corners (geographiclib-rs).

@@ -249,7 +249,7 @@ impl Acc {
 mod tests {
     use super::*;
 
-    // Arc unions, worked by hand on a 10-column circle ([DER], hand-checked; no outside source).
+    // Arc unions, worked by hand on a 10-column circle (hand-checked; no outside source).
     #[test]
     fn arc_union_on_a_circle() {
         let a = |start, len| ColArc { start, len };

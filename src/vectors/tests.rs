@@ -98,7 +98,7 @@ fn earlier_tables_are_read_into_the_layer_schema() {
 
 #[test]
 fn equal_area_choice() {
-    // Global extent: EPSG:6933 (CHECKS.md section 6: Lambert cylindrical equal-area, ellipsoidal).
+    // Global extent: EPSG:6933 (EPSG registry WKT: Lambert cylindrical equal-area, ellipsoidal).
     let g = wgs84_grid(360, 180, -180.0, 90.0, 1.0);
     let t = choose(&VectorCrs::Auto, &g).unwrap();
     assert!(t.label.starts_with("EPSG:6933"));
@@ -112,8 +112,8 @@ fn equal_area_choice() {
         "{p4}"
     );
     assert_eq!(t.centre_lon, 12.0);
-    // A given equal-area CRS keeps its central meridian (EPSG:3035: lon_0 = 10, CHECKS.md
-    // section 6); Web Mercator is refused.
+    // A given equal-area CRS keeps its central meridian (EPSG:3035: lon_0 = 10, EPSG
+    // registry); Web Mercator is refused.
     let t = choose(&VectorCrs::Given("EPSG:3035".into()), &g).unwrap();
     assert_eq!(t.centre_lon, 10.0);
     let e = choose(&VectorCrs::Given("EPSG:3857".into()), &g)

@@ -3,7 +3,7 @@
 
 use super::*;
 
-// Antimeridian rule ([DER], hand-worked on an 8-column grid).
+// Antimeridian rule (worked by hand on an 8-column grid).
 #[test]
 fn patch_across_the_antimeridian() {
     let (g, w) = grid(
@@ -40,7 +40,7 @@ fn patch_across_the_antimeridian() {
     }
 }
 
-// The circular centroid just west of column 0 stays in [0, width) ([DER]).
+// The circular centroid just west of column 0 stays in [0, width) (by hand).
 #[test]
 fn circular_centroid_west_of_column_zero() {
     let (g, w) = grid(
@@ -69,7 +69,7 @@ fn circular_centroid_west_of_column_zero() {
     );
 }
 
-// Eight joins diagonally across the antimeridian, Four does not ([DER]).
+// Eight joins diagonally across the antimeridian, Four does not (by hand).
 #[test]
 fn diagonal_across_the_antimeridian() {
     let (g, w) = grid(
@@ -115,7 +115,7 @@ fn diagonal_across_the_antimeridian() {
     );
 }
 
-// A band round the whole globe: full circle, undefined circular mean ([DER]).
+// A band round the whole globe: full circle, undefined circular mean (by hand).
 #[test]
 fn full_circle_band() {
     let (g, w) = grid(

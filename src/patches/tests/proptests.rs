@@ -1,6 +1,6 @@
 //! Random grids against a plain breadth-first flood fill written here, independently of the
 //! labeller (common practice, no source: the flood fill is the textbook definition of a
-//! connected component; ids in scan order of first cells as in CHECKS.md §7).
+//! connected component; ids in scan order of first cells, as scipy.ndimage.label numbers them).
 
 use super::*;
 use proptest::prelude::*;

@@ -181,7 +181,10 @@ pub(crate) fn run_pass(
 
 /// A buffer from `pool` (a new one when it is empty).
 fn take(pool: &Mutex<Vec<Vec<u8>>>) -> Vec<u8> {
-    pool.lock().ok().and_then(|mut p| p.pop()).unwrap_or_default()
+    pool.lock()
+        .ok()
+        .and_then(|mut p| p.pop())
+        .unwrap_or_default()
 }
 
 /// A buffer back to `pool` for the next strip.

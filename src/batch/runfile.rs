@@ -113,11 +113,6 @@ fn cwd() -> String {
         .unwrap_or_default()
 }
 
-/// Write the run file of a finished run into its (temporary) folder `dir`.
-pub fn write(dir: &Path, suitability: &Path, records: &Path, opts: &RangeOptions) -> Result<()> {
-    write_hashed(dir, inputs_of(suitability, records, opts)?, opts)
-}
-
 /// The inputs' hashes, computed on a thread of their own while the run works (reading a
 /// global raster through SHA-256 takes a second or more).
 pub(crate) struct InputHashes(std::thread::JoinHandle<Result<BTreeMap<String, InputFile>>>);
@@ -132,30 +127,23 @@ impl InputHashes {
         InputHashes(std::thread::spawn(move || inputs_of(&s, &r, &o)))
     }
 
-    /// Write the run file of `dir` with these input hashes.
+    /// Write the run file of a finished run into its (temporary) folder `dir`, with these
+    /// input hashes and the hashes of the outputs in `dir`.
     pub(crate) fn write(self, dir: &Path, opts: &RangeOptions) -> Result<()> {
         let inputs = self.0.join().expect("hashing the inputs does not panic")?;
-        write_hashed(dir, inputs, opts)
+        let rf = RunFile {
+            areal_version: env!("CARGO_PKG_VERSION").to_string(),
+            cwd: cwd(),
+            options: settings::from_range_options(opts),
+            inputs,
+            outputs: hash_outputs(dir)?,
+        };
+        let text = format!(
+            "# areal run file: `areal rerun` runs it again, `areal verify` checks the folder against it.\n{}",
+            toml::to_string(&rf).expect("run file serialises")
+        );
+        crate::output::write_text(&dir.join(RUN_FILE), &text)
     }
-}
-
-fn write_hashed(
-    dir: &Path,
-    inputs: BTreeMap<String, InputFile>,
-    opts: &RangeOptions,
-) -> Result<()> {
-    let rf = RunFile {
-        areal_version: env!("CARGO_PKG_VERSION").to_string(),
-        cwd: cwd(),
-        options: settings::from_range_options(opts),
-        inputs,
-        outputs: hash_outputs(dir)?,
-    };
-    let text = format!(
-        "# areal run file: `areal rerun` runs it again, `areal verify` checks the folder against it.\n{}",
-        toml::to_string(&rf).expect("run file serialises")
-    );
-    crate::output::write_text(&dir.join(RUN_FILE), &text)
 }
 
 /// Read a run file.

@@ -102,11 +102,12 @@ pub(crate) fn ball_bound(a: (f64, f64), b: (f64, f64), xa: &[f64; 3], xb: &[f64;
         dl += 360.0;
     }
     let lon = a.1 + 0.5 * dl;
+    // The touching point is t = N (n_x, n_y, (1 - e²) n_z) for the unit normal n, so the
+    // centre t - r n = e² N (n_x, n_y, 0) follows from n alone.
     let n = unit(lat, lon);
-    let sp = n[2];
-    let r = (1.0 - e2) * ell.a / (1.0 - e2 * sp * sp).sqrt();
-    let t = ecef(lat, lon);
-    let c = [t[0] - r * n[0], t[1] - r * n[1], t[2] - r * n[2]];
+    let big_n = ell.a / (1.0 - e2 * n[2] * n[2]).sqrt();
+    let r = (1.0 - e2) * big_n;
+    let c = [e2 * big_n * n[0], e2 * big_n * n[1], 0.0];
     let u = [xa[0] - c[0], xa[1] - c[1], xa[2] - c[2]];
     let v = [xb[0] - c[0], xb[1] - c[1], xb[2] - c[2]];
     let dot = u[0] * v[0] + u[1] * v[1] + u[2] * v[2];

@@ -271,7 +271,7 @@ fn change_tif_is_tiled_compressed_styled_with_overviews() {
     assert_eq!(
         ds.metadata_item("COMPRESSION", "IMAGE_STRUCTURE")
             .as_deref(),
-        Some("DEFLATE")
+        Some("ZSTD")
     );
     assert_eq!(
         band.overview_count().unwrap(),

@@ -145,7 +145,7 @@ fn classes_tif_is_gis_ready() {
     assert_eq!(band.block_size(), (256, 256), "tiled");
     assert!(band.color_table().is_some());
     let md = ds.metadata_item("COMPRESSION", "IMAGE_STRUCTURE");
-    assert_eq!(md.as_deref(), Some("DEFLATE"));
+    assert_eq!(md.as_deref(), Some("ZSTD"));
     // Category names (GDALGetRasterCategoryNames).
     let names = unsafe { gdal_sys::GDALGetRasterCategoryNames(band.c_rasterband()) };
     assert!(!names.is_null());

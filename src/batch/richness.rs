@@ -5,7 +5,7 @@
 //! rows (about 16 M cells) every species' strip is read and added to one uint16 count strip,
 //! which is then written. Memory is one count strip and one class strip, whatever the number
 //! of species; time is one read of every species' classes.tif. uint16, tiled 256 x 256,
-//! DEFLATE, internal overviews (nearest neighbour), nodata 65535 on cells that are nodata in
+//! Zstandard, internal overviews (nearest neighbour), nodata 65535 on cells that are nodata in
 //! every species.
 
 use crate::raster_io::class;
@@ -39,13 +39,7 @@ pub fn write_richness(out: &Path, grid: &GridSpec, classes: &[PathBuf]) -> Resul
         });
     }
     let err = |op: &'static str| Error::gdal(out.to_path_buf(), op);
-    let opts = RasterCreationOptions::from_iter([
-        "TILED=YES",
-        "BLOCKXSIZE=256",
-        "BLOCKYSIZE=256",
-        "COMPRESS=DEFLATE",
-        "BIGTIFF=IF_SAFER",
-    ]);
+    let opts = RasterCreationOptions::from_iter(crate::raster_io::TILED_GEOTIFF);
     let mut ds = DriverManager::get_driver_by_name("GTiff")
         .map_err(err("finding the GTiff driver"))?
         .create_with_band_type_with_options::<u16, _>(out, grid.width, grid.height, 1, &opts)

@@ -23,6 +23,23 @@ pub mod class {
     ];
 }
 
+/// GeoTIFF creation options of every count or class raster areal writes (`classes.tif`,
+/// `change.tif`, `richness.tif`): tiled 256 x 256, Zstandard level 1, BigTIFF when needed.
+///
+/// Zstandard rather than DEFLATE: on a global 30" class raster it costs about a third of
+/// DEFLATE's CPU time (1.3 against 3.6 CPU-s for 933 M cells, `gdal_translate` of the same
+/// file) and the file is smaller (2.1 against 2.7 MB). GDAL reads it from version 2.3 on
+/// (QGIS, R terra and sf, rasterio); software without Zstandard support can be given a
+/// DEFLATE copy with `gdal_translate -co COMPRESS=DEFLATE -co TILED=YES in.tif out.tif`.
+pub(crate) const TILED_GEOTIFF: [&str; 6] = [
+    "TILED=YES",
+    "BLOCKXSIZE=256",
+    "BLOCKYSIZE=256",
+    "COMPRESS=ZSTD",
+    "ZSTD_LEVEL=1",
+    "BIGTIFF=IF_SAFER",
+];
+
 /// Writes `classes.tif` strip by strip.
 pub struct ClassWriter {
     path: PathBuf,
@@ -35,7 +52,7 @@ pub struct ClassWriter {
 }
 
 impl ClassWriter {
-    /// Create the GeoTIFF (tiled 256 x 256, DEFLATE, BIGTIFF if needed) on `grid`.
+    /// Create the GeoTIFF ([`TILED_GEOTIFF`]) on `grid`.
     /// With internal overviews folded from the rows by the range classes' rule
     /// (`class_overviews`).
     pub fn create(path: &Path, grid: &GridSpec) -> Result<Self> {
@@ -64,17 +81,10 @@ impl ClassWriter {
     ) -> Result<Self> {
         let err = |op: &str| output_error(path, op.to_string());
         // GDAL compresses the tiles on its own threads (in file order, so the bytes do not
-        // depend on timing): the pass's consumer hands rows over without waiting on DEFLATE.
+        // depend on timing): the pass's consumer hands rows over without waiting on them.
         let threads = format!("NUM_THREADS={}", crate::pass::decode_threads());
-        let opts = RasterCreationOptions::from_iter([
-            "TILED=YES",
-            "BLOCKXSIZE=256",
-            "BLOCKYSIZE=256",
-            "COMPRESS=DEFLATE",
-            "PREDICTOR=1",
-            "BIGTIFF=IF_SAFER",
-            threads.as_str(),
-        ]);
+        let opts =
+            RasterCreationOptions::from_iter(TILED_GEOTIFF.into_iter().chain([threads.as_str()]));
         let driver =
             DriverManager::get_driver_by_name("GTiff").map_err(err("finding the GTiff driver"))?;
         let mut ds = driver

@@ -7,12 +7,13 @@
 //! non-finite cells met while reading are counted for a warning, and a nodata value that
 //! cannot occur in an integer band (a fraction, or out of the type's range) is warned of.
 //!
-//! `classes.tif` is written as a tiled, DEFLATE-compressed uint8 GeoTIFF on the input
+//! `classes.tif` is written as a tiled, Zstandard-compressed uint8 GeoTIFF on the input
 //! grid with a colour table and category names.
 
 mod classes;
 mod strips;
 
+pub(crate) use classes::TILED_GEOTIFF;
 pub use classes::{class, ClassWriter};
 pub use strips::{ReaderSpec, StripBuffers, StripReader};
 

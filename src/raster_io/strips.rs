@@ -95,45 +95,79 @@ impl StripReader {
             bins.resize(n, 0);
         }
         let mut non_finite = 0u64;
-        let binary = if self.as_f32 {
-            bufs.f32s.resize(n, 0.0);
-            band.read_into_slice::<f32>(
-                (0, y0 as isize),
-                (self.width, rows),
-                (self.width, rows),
-                &mut bufs.f32s,
-                None,
-            )
-            .map_err(Error::gdal(&self.path, what()))?;
-            code_cells_f32(
-                &bufs.f32s,
-                codes,
-                t,
-                self.nodata,
-                (cands, bins),
-                &mut non_finite,
-            )
-        } else {
-            bufs.f64s.resize(n, 0.0);
-            band.read_into_slice::<f64>(
-                (0, y0 as isize),
-                (self.width, rows),
-                (self.width, rows),
-                &mut bufs.f64s,
-                None,
-            )
-            .map_err(Error::gdal(&self.path, what()))?;
-            code_cells_f64(
-                &bufs.f64s,
-                codes,
-                t,
-                self.nodata,
-                (cands, bins),
-                &mut non_finite,
-            )
-        };
+        let mut binary = true;
+        // Column windows a few tiles wide: each window is coded while GDAL's copy of it is
+        // still in cache (a whole 256-row strip of a global 30" grid is 44 MB of float32,
+        // read back from memory). A striped file is read whole-width: its blocks are rows,
+        // and a narrower window would decode each block again.
+        let cw = window_width(self.width, band.block_size().0);
+        for x0 in (0..self.width).step_by(cw) {
+            let ww = cw.min(self.width - x0);
+            let win = ww * rows;
+            if self.as_f32 {
+                bufs.f32s.resize(win, 0.0);
+                band.read_into_slice::<f32>(
+                    (x0 as isize, y0 as isize),
+                    (ww, rows),
+                    (ww, rows),
+                    &mut bufs.f32s,
+                    None,
+                )
+                .map_err(Error::gdal(&self.path, what()))?;
+                for r in 0..rows {
+                    let at = r * self.width + x0;
+                    binary &= code_cells_f32(
+                        &bufs.f32s[r * ww..(r + 1) * ww],
+                        &mut codes[at..at + ww],
+                        t,
+                        self.nodata,
+                        (cands, bin_slice(bins, at, ww)),
+                        &mut non_finite,
+                    );
+                }
+            } else {
+                bufs.f64s.resize(win, 0.0);
+                band.read_into_slice::<f64>(
+                    (x0 as isize, y0 as isize),
+                    (ww, rows),
+                    (ww, rows),
+                    &mut bufs.f64s,
+                    None,
+                )
+                .map_err(Error::gdal(&self.path, what()))?;
+                for r in 0..rows {
+                    let at = r * self.width + x0;
+                    binary &= code_cells_f64(
+                        &bufs.f64s[r * ww..(r + 1) * ww],
+                        &mut codes[at..at + ww],
+                        t,
+                        self.nodata,
+                        (cands, bin_slice(bins, at, ww)),
+                        &mut non_finite,
+                    );
+                }
+            }
+        }
         self.non_finite.add_strip(y0, rows, non_finite);
         Ok(binary)
+    }
+}
+
+/// Columns per read window: the raster's width when its blocks span it (a striped file),
+/// else whole blocks adding up to at least 1,024 columns (1 MB of float32 in a 256-row strip).
+fn window_width(width: usize, block_width: usize) -> usize {
+    if block_width == 0 || block_width >= width {
+        return width;
+    }
+    (block_width * 1024usize.div_ceil(block_width)).min(width)
+}
+
+/// `bins[at..at + n]`, or an empty slice when there are no bins.
+fn bin_slice(bins: &mut [u8], at: usize, n: usize) -> &mut [u8] {
+    if bins.is_empty() {
+        bins
+    } else {
+        &mut bins[at..at + n]
     }
 }
 

@@ -114,17 +114,22 @@ impl Consumer {
         raster: &SuitabilityRaster,
     ) -> Result<()> {
         let w = self.width;
-        // u32 sums widen less than u64 counts in the vector loops (a row has < 2^32 cells).
-        let count = |v: u8| cls.iter().map(|&k| (k == v) as u32).sum::<u32>() as u64;
-        let (n0, n1, nd) = (count(0), count(1), count(class::NODATA));
+        let (n0, n1, nd) = (
+            count_eq(cls, 0),
+            count_eq(cls, 1),
+            count_eq(cls, class::NODATA),
+        );
         let counts = [n0, n1, w as u64 - n0 - n1 - nd, nd];
         let m_cells = if whole {
             w as u64 - nd
         } else {
-            cls.iter()
-                .zip(&self.in_m)
-                .map(|(&k, &m)| (m as u32) & (k != class::NODATA) as u32)
-                .sum::<u32>() as u64
+            // Cells in M, less the nodata ones among them.
+            let in_m = self
+                .in_m
+                .chunks(255)
+                .map(|c| c.iter().fold(0u8, |n, &m| n + m as u8) as u64)
+                .sum::<u64>();
+            in_m - count_eq_in(cls, &self.in_m, class::NODATA)
         };
         for (total, n) in self.cells.iter_mut().zip(counts) {
             *total += n;
@@ -171,24 +176,16 @@ impl Consumer {
     fn measure_bins(&mut self, bins: &[u8], row_areas: &RowAreas, whole: bool) {
         let n = self.candidates + 1;
         match row_areas {
-            RowAreas::Uniform(a) if n < 8 => {
-                let (all, inside) = count_bins_packed(bins, &self.in_m, whole);
-                for b in 0..n {
-                    self.bin_area[b].add(all[b] as f64 * a);
-                    self.bin_area_m[b].add(inside[b] as f64 * a);
-                }
-            }
             RowAreas::Uniform(a) => {
-                let (mut all, mut inside) = (vec![0u64; n], vec![0u64; n]);
-                for (&b, &m) in bins.iter().zip(&self.in_m) {
-                    if b != class::NODATA {
-                        all[b as usize] += 1;
-                        inside[b as usize] += (whole || m) as u64;
-                    }
-                }
                 for b in 0..n {
-                    self.bin_area[b].add(all[b] as f64 * a);
-                    self.bin_area_m[b].add(inside[b] as f64 * a);
+                    let all = count_eq(bins, b as u8);
+                    let inside = if whole {
+                        all
+                    } else {
+                        count_eq_in(bins, &self.in_m, b as u8)
+                    };
+                    self.bin_area[b].add(all as f64 * a);
+                    self.bin_area_m[b].add(inside as f64 * a);
                 }
             }
             RowAreas::PerCell(v) => {
@@ -241,34 +238,31 @@ impl Consumer {
     }
 }
 
-/// Cells per bin (0..=6; nodata and anything above go to lane 7, left out), all and inside
-/// M, counted in the eight byte lanes of a u64 (one add per cell, no stores), emptied into
-/// wide totals every 255 cells before a lane can overflow.
-fn count_bins_packed(bins: &[u8], in_m: &[bool], whole: bool) -> ([u64; 8], [u64; 8]) {
-    let (mut all, mut inside) = ([0u64; 8], [0u64; 8]);
-    let unpack = |packed: u64, into: &mut [u64; 8]| {
-        for (lane, t) in into.iter_mut().enumerate() {
-            *t += (packed >> (8 * lane)) & 0xff;
-        }
-    };
-    for (b, m) in bins.chunks(255).zip(in_m.chunks(255)) {
-        let (mut pa, mut pi) = (0u64, 0u64);
-        for (&b, &m) in b.iter().zip(m) {
-            let bit = 1u64 << (8 * b.min(7) as u32);
-            pa += bit;
-            pi += bit * (whole | m) as u64;
-        }
-        unpack(pa, &mut all);
-        unpack(pi, &mut inside);
-    }
-    (all, inside)
+/// Cells equal to `b`: byte counters over runs of 255 cells (a compare and a byte add per
+/// cell, which the compiler vectorises), widened once per run.
+fn count_eq(bins: &[u8], b: u8) -> u64 {
+    bins.chunks(255)
+        .map(|c| c.iter().fold(0u8, |n, &x| n + (x == b) as u8) as u64)
+        .sum()
+}
+
+/// Cells equal to `b` whose `in_m` is set, counted as in [`count_eq`].
+fn count_eq_in(bins: &[u8], in_m: &[bool], b: u8) -> u64 {
+    bins.chunks(255)
+        .zip(in_m.chunks(255))
+        .map(|(c, m)| {
+            c.iter()
+                .zip(m)
+                .fold(0u8, |n, (&x, &m)| n + ((x == b) & m) as u8) as u64
+        })
+        .sum()
 }
 
 #[cfg(test)]
 mod tests {
     // Against a plain per-cell count (no outside source: two ways of counting the same cells).
     #[test]
-    fn packed_bin_counts_equal_a_plain_count() {
+    fn bin_counts_equal_a_plain_count() {
         let mut s = 7u64;
         let bins: Vec<u8> = (0..10_007)
             .map(|_| {
@@ -277,18 +271,16 @@ mod tests {
             })
             .collect();
         let in_m: Vec<bool> = (0..bins.len()).map(|i| i % 3 != 0).collect();
-        for whole in [false, true] {
-            let (all, inside) = super::count_bins_packed(&bins, &in_m, whole);
-            for b in 0..7u8 {
-                let plain = bins.iter().filter(|&&k| k == b).count() as u64;
-                let plain_in = bins
-                    .iter()
-                    .zip(&in_m)
-                    .filter(|&(&k, &m)| k == b && (whole || m))
-                    .count() as u64;
-                assert_eq!(all[b as usize], plain);
-                assert_eq!(inside[b as usize], plain_in);
-            }
+        for b in [0u8, 1, 2, 3, 4, 5, 6, 255] {
+            let plain = bins.iter().filter(|&&k| k == b).count() as u64;
+            let plain_in = bins
+                .iter()
+                .zip(&in_m)
+                .filter(|&(&k, &m)| k == b && m)
+                .count() as u64;
+            assert!(plain > 1000, "every value occurs");
+            assert_eq!(super::count_eq(&bins, b), plain);
+            assert_eq!(super::count_eq_in(&bins, &in_m, b), plain_in);
         }
     }
 }

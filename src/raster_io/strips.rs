@@ -89,11 +89,9 @@ impl StripReader {
             .rasterband(1)
             .map_err(Error::gdal(&self.path, "reading band 1"))?;
         let what = || format!("reading rows {y0}..{}", y0 + rows);
+        // Every cell of both is written below; a pooled buffer keeps its old bytes until then.
         codes.resize(n, 0);
-        bins.clear();
-        if !cands.is_empty() {
-            bins.resize(n, 0);
-        }
+        bins.resize(if cands.is_empty() { 0 } else { n }, 0);
         let mut non_finite = 0u64;
         let mut binary = true;
         // Column windows a few tiles wide: each window is coded while GDAL's copy of it is
@@ -205,8 +203,13 @@ fn code_and_bin<T: Sample>(
 /// Per cell, how many of `cands` its value reaches (255 where `codes` says nodata): one
 /// simple loop per candidate (these vectorise), then the nodata cells are marked.
 fn count_reached<T: Sample>(values: &[T], codes: &[u8], cands: &[T], out: &mut [u8]) {
-    out.fill(0);
-    for &c in cands {
+    let Some((&first, rest)) = cands.split_first() else {
+        return;
+    };
+    for (o, &v) in out.iter_mut().zip(values) {
+        *o = (v >= first) as u8;
+    }
+    for &c in rest {
         for (o, &v) in out.iter_mut().zip(values) {
             *o += (v >= c) as u8;
         }

@@ -35,6 +35,7 @@ mod raster_io;
 mod report;
 mod review;
 mod run;
+mod scan;
 mod threshold;
 
 pub use error::{Error, Result, Stage};

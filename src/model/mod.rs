@@ -214,17 +214,12 @@ impl ModelBuilder {
             }))?;
         match m {
             RowM::Unknown => self.track_m = false,
-            RowM::Whole => push_true_runs(
-                &mut self.m_runs,
-                classes.iter().map(|&k| k != class::NODATA),
-            ),
-            RowM::Cells(in_m) => push_true_runs(
-                &mut self.m_runs,
-                classes
-                    .iter()
-                    .zip(in_m)
-                    .map(|(&k, &m)| m & (k != class::NODATA)),
-            ),
+            RowM::Whole => push_true_runs(&mut self.m_runs, classes.len(), |c, want| {
+                crate::scan::run_end(classes, c, |k| (k != class::NODATA) == want)
+            }),
+            RowM::Cells(in_m) => push_true_runs(&mut self.m_runs, classes.len(), |c, want| {
+                crate::scan::run_end2(classes, in_m, c, |k, m| (m & (k != class::NODATA)) == want)
+            }),
         }
         self.m_start.push(self.m_runs.len() as u64);
         Ok(())
@@ -256,24 +251,17 @@ impl ModelBuilder {
     }
 }
 
-/// Append the runs of `true` values in `cells`.
-fn push_true_runs(out: &mut Vec<(u32, u32)>, cells: impl Iterator<Item = bool>) {
-    let mut open: Option<u32> = None;
-    let mut n = 0u32;
-    for (c, v) in cells.enumerate() {
-        let c = c as u32;
-        match (v, open) {
-            (true, None) => open = Some(c),
-            (false, Some(s)) => {
-                out.push((s, c));
-                open = None;
-            }
-            _ => {}
+/// Append the runs of M cells of a row of `n` cells; `run_end(c, v)` is where the run from
+/// `c` whose cells are (`v` true) or are not in M ends.
+fn push_true_runs(out: &mut Vec<(u32, u32)>, n: usize, run_end: impl Fn(usize, bool) -> usize) {
+    let mut c = 0;
+    while c < n {
+        let start = run_end(c, false);
+        if start >= n {
+            break;
         }
-        n = c + 1;
-    }
-    if let Some(s) = open {
-        out.push((s, n));
+        c = run_end(start, true);
+        out.push((start as u32, c as u32));
     }
 }
 

@@ -86,10 +86,12 @@ fn runs_carry_the_ids_of_the_label_raster() {
 
 #[test]
 fn true_runs_of_a_row() {
+    // Derived by hand: cells in M (data and m) at 0-1, 3 and 6.
+    let classes = [0u8, 1, 255, 2, 0, 255, 1];
+    let in_m = [true, true, true, true, false, true, true];
     let mut out = Vec::new();
-    push_true_runs(
-        &mut out,
-        [true, true, false, true, false, false, true].into_iter(),
-    );
+    push_true_runs(&mut out, classes.len(), |c, want| {
+        crate::scan::run_end2(&classes, &in_m, c, |k, m| (m & (k != 255)) == want)
+    });
     assert_eq!(out, [(0, 2), (3, 4), (6, 7)]);
 }

@@ -251,9 +251,7 @@ impl PatchLabeler {
         while c < classes.len() {
             let class = classes[c];
             let start = c;
-            while c < classes.len() && classes[c] == class {
-                c += 1;
-            }
+            c = crate::scan::run_end(classes, c, |k| k == class);
             if is_patch_class(class) {
                 self.cur.push(Run {
                     start,

@@ -78,9 +78,7 @@ impl ClassRuns {
                 continue;
             }
             let start = c;
-            while c < n && classes[c] == k {
-                c += 1;
-            }
+            c = crate::scan::run_end(classes, c, |v| v == k);
             let code = if k == class::INSIDE || k == class::OUTSIDE {
                 if self.nodata_only {
                     continue;
@@ -105,31 +103,17 @@ impl ClassRuns {
         self.row_start.push(self.runs.len());
     }
 
-    /// The nodata runs of a row (codes above 2), skipping 32 cells at a time (the checks
-    /// are branch-free so they vectorise: this runs on every cell of the pass).
+    /// The nodata runs of a row (codes above 2); this runs on every cell of the pass, so it
+    /// scans 32 cells at a time ([`crate::scan::run_end`]).
     fn push_nodata_row(&mut self, classes: &[u8]) {
-        const B: usize = 32;
         let n = classes.len();
-        let none =
-            |s: &[u8], nodata: bool| s.iter().fold(0u8, |a, &v| a | ((v > 2) == nodata) as u8) == 0;
         let mut c = 0;
         while c < n {
-            while c + B <= n && none(&classes[c..c + B], true) {
-                c += B;
-            }
-            while c < n && classes[c] <= 2 {
-                c += 1;
-            }
-            if c >= n {
+            let start = crate::scan::run_end(classes, c, |v| v <= 2);
+            if start >= n {
                 break;
             }
-            let start = c;
-            while c + B <= n && none(&classes[c..c + B], false) {
-                c += B;
-            }
-            while c < n && classes[c] > 2 {
-                c += 1;
-            }
+            c = crate::scan::run_end(classes, start, |v| v > 2);
             self.runs.push(Run {
                 start: start as u32,
                 end: c as u32,

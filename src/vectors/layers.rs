@@ -5,14 +5,14 @@
 //! GeoPackage. The geometries of one CRS are made, written and dropped before the next.
 
 use super::equal_area::{choose, Target};
-use super::geojson::write_geojson;
+use super::geojson::{coordinates, coordinates_union, write_geojson};
 use super::inputs::{Kind, SummaryFacts, Table, Value};
 use super::lonlat::{densify, ToLonLat};
 use super::parallels::lonlat_polygon;
 use super::polygonize::polygons_of;
 use super::source::{trace, RunSource};
 use super::trace::PixelPolygon;
-use super::write::{write_gpkg, Geom, LayerData};
+use super::write::{wkb, wkb_union, write_gpkg, Geom, LayerData};
 use super::{VectorOptions, VectorReport};
 use crate::crs::{grid_srs, transform, wgs84};
 use crate::raster_io::class;
@@ -21,6 +21,8 @@ use gdal::spatial_ref::CoordTransform;
 use gdal::vector::ToGdal;
 use geo::orient::{Direction, Orient};
 use geo_types::{Coord, LineString, MultiPolygon, Polygon};
+use rayon::prelude::*;
+use std::borrow::Cow;
 use std::path::Path;
 
 /// Metres in one degree of latitude at most (at the poles, WGS84): a tolerance of t m is
@@ -117,46 +119,48 @@ pub(crate) fn build_and_write(
         }
         None => Vec::new(),
     };
-    let layers_of = |s: &Shapes| {
-        s.layers(
-            &range_table,
-            t,
-            &unreach_table,
-            &class2,
-            &access_table,
-            tables.records.as_ref(),
-        )
+    let lt = LayerTables {
+        range: &range_table,
+        patches: t,
+        unreachable: &unreach_table,
+        class2: &class2,
+        accessible: &access_table,
+        records: tables.records.as_ref(),
     };
-
-    let mut written = Vec::new();
-    {
-        let native = Shapes::native(&shapes, &class1, &accessible, &record_lonlat, &grid)?;
-        write_gpkg(
-            &out_dir.join("range.gpkg"),
-            &grid_srs(&grid)?,
-            &layers_of(&native),
-        )?;
-        written.push("range.gpkg".to_string());
-    }
-    clock.lap("vectors: range.gpkg");
+    // range.gpkg on a second thread while this one writes the GeoJSON files: the two share
+    // nothing but the traced polygons, and each is a single stream of writes.
+    let (gpkg, json) = std::thread::scope(|s| {
+        let gpkg = s.spawn(|| -> Result<()> {
+            let native = Shapes::native(&shapes, &accessible, &record_lonlat, &grid)?;
+            let enc = native.encode(&class1, wkb, wkb_union);
+            drop(native);
+            write_gpkg(
+                &out_dir.join("range.gpkg"),
+                &grid_srs(&grid)?,
+                &enc.layers(&lt),
+            )
+        });
+        let json = (|| -> Result<Vec<String>> {
+            let ll = Shapes::lonlat(&shapes, &accessible, &record_lonlat, &to_ll, 0.0, ctx)?;
+            let enc = ll.encode(&class1, coordinates, coordinates_union);
+            drop(ll);
+            let mut names = Vec::new();
+            for l in enc.layers(&lt) {
+                let name = format!("{}.geojson", l.name);
+                write_geojson(&out_dir.join(&name), &l)?;
+                names.push(name);
+            }
+            Ok(names)
+        })();
+        let gpkg = gpkg.join().unwrap_or_else(|p| std::panic::resume_unwind(p));
+        (gpkg, json)
+    });
+    gpkg?;
+    let json = json?;
+    let mut written = vec!["range.gpkg".to_string()];
+    written.extend(json);
+    clock.lap("vectors: range.gpkg and GeoJSON");
     let w84 = wgs84()?;
-    {
-        let ll = Shapes::lonlat(
-            &shapes,
-            &class1,
-            &accessible,
-            &record_lonlat,
-            &to_ll,
-            0.0,
-            ctx,
-        )?;
-        for l in layers_of(&ll) {
-            let name = format!("{}.geojson", l.name);
-            write_geojson(&out_dir.join(&name), &l)?;
-            written.push(name);
-        }
-    }
-    clock.lap("vectors: GeoJSON");
     let mut equal_area_crs = None;
     if let Some(spec) = &opts.equal_area {
         let Target {
@@ -164,15 +168,15 @@ pub(crate) fn build_and_write(
             centre_lon,
             label,
         } = choose(spec, &grid)?;
-        let ll = Shapes::lonlat(
+        let mut ll = Shapes::lonlat(
             &shapes,
-            &class1,
             &accessible,
             &record_lonlat,
             &to_ll,
             centre_lon,
             ctx,
         )?;
+        ll.range = Some(concat(&ll.patches, &class1));
         let ct = transform(&w84, &srs, "--vector-crs (from WGS84 lon/lat)")?;
         let seg = if grid.geographic {
             grid.dx().max(grid.dy())
@@ -183,7 +187,7 @@ pub(crate) fn build_and_write(
         write_gpkg(
             &out_dir.join("range-equal-area.gpkg"),
             &srs,
-            &layers_of(&ea),
+            &ea.encode(&class1, wkb, wkb_union).layers(&lt),
         )?;
         written.push("range-equal-area.gpkg".to_string());
         clock.lap("vectors: range-equal-area.gpkg");
@@ -252,10 +256,12 @@ pub(super) fn native(
         .map_err(Error::gdal(ctx, "simplifying"))?;
     polygons_of(&simple, ctx)
 }
+
 /// The geometries of every layer in one CRS.
 struct Shapes {
     patches: Vec<MultiPolygon<f64>>,
-    range: MultiPolygon<f64>,
+    /// The `range` feature when it is not simply the class-1 patches' polygons in order.
+    range: Option<MultiPolygon<f64>>,
     accessible: MultiPolygon<f64>,
     records: Vec<Option<(f64, f64)>>,
 }
@@ -271,7 +277,6 @@ fn concat(parts: &[MultiPolygon<f64>], ids: &[usize]) -> MultiPolygon<f64> {
 impl Shapes {
     fn native(
         shapes: &[MultiPolygon<f64>],
-        class1: &[usize],
         accessible: &MultiPolygon<f64>,
         records: &[(f64, f64)],
         grid: &crate::GridSpec,
@@ -310,7 +315,7 @@ impl Shapes {
             .map(|s| s.orient(Direction::Default))
             .collect();
         Ok(Shapes {
-            range: concat(&patches, class1),
+            range: None,
             patches,
             accessible: accessible.orient(Direction::Default),
             records: recs,
@@ -319,7 +324,6 @@ impl Shapes {
 
     fn lonlat(
         shapes: &[MultiPolygon<f64>],
-        class1: &[usize],
         accessible: &MultiPolygon<f64>,
         records: &[(f64, f64)],
         to_ll: &ToLonLat,
@@ -340,7 +344,7 @@ impl Shapes {
             }
         };
         Ok(Shapes {
-            range: concat(&patches, class1),
+            range: None,
             patches,
             accessible: to_ll.polygons(accessible, centre, "the accessible area M", ctx)?,
             records: records
@@ -372,7 +376,7 @@ impl Shapes {
         };
         Ok(Shapes {
             patches: self.patches.iter().map(tr).collect::<Result<_>>()?,
-            range: tr(&self.range)?,
+            range: self.range.as_ref().map(tr).transpose()?,
             accessible: tr(&self.accessible)?,
             records: self
                 .records
@@ -387,43 +391,82 @@ impl Shapes {
         })
     }
 
-    fn layers<'a>(
+    /// Every polygon geometry encoded once by `enc`, the patches on both cores; `range` from
+    /// the class-1 patches' encodings by `union` unless it has its own.
+    fn encode(
         &self,
-        range: &'a Table,
-        patches: &'a Table,
-        unreachable: &'a Table,
-        class2: &[usize],
-        accessible: &'a Table,
-        records: Option<&'a Table>,
-    ) -> Vec<LayerData<'a>> {
-        let area = |mp: &MultiPolygon<f64>| Some(Geom::Area(mp.clone()));
+        class1: &[usize],
+        enc: fn(&MultiPolygon<f64>) -> Option<Vec<u8>>,
+        union: fn(&[&[u8]]) -> Option<Vec<u8>>,
+    ) -> Encoded {
+        let patches: Vec<Option<Vec<u8>>> = self.patches.par_iter().map(enc).collect();
+        let range = match &self.range {
+            Some(r) => enc(r),
+            None => union(
+                &class1
+                    .iter()
+                    .filter_map(|&i| patches[i].as_deref())
+                    .collect::<Vec<_>>(),
+            ),
+        };
+        Encoded {
+            range,
+            accessible: enc(&self.accessible),
+            records: self.records.clone(),
+            patches,
+        }
+    }
+}
+
+/// The tables of the five layers, and which patches are unreachable (class 2).
+struct LayerTables<'a> {
+    range: &'a Table,
+    patches: &'a Table,
+    unreachable: &'a Table,
+    class2: &'a [usize],
+    accessible: &'a Table,
+    records: Option<&'a Table>,
+}
+
+/// The geometries of every layer encoded for one file (see [`Geom::Encoded`]); None: no
+/// geometry (an empty multipolygon, or a record without coordinates).
+struct Encoded {
+    patches: Vec<Option<Vec<u8>>>,
+    range: Option<Vec<u8>>,
+    accessible: Option<Vec<u8>>,
+    records: Vec<Option<(f64, f64)>>,
+}
+
+impl Encoded {
+    fn layers<'a>(&'a self, t: &LayerTables<'a>) -> Vec<LayerData<'a>> {
+        let area = |b: &'a Option<Vec<u8>>| b.as_deref().map(|b| Geom::Encoded(Cow::Borrowed(b)));
         let mut out = vec![
             LayerData {
                 name: "range",
                 points: false,
-                table: range,
+                table: t.range,
                 geoms: vec![area(&self.range)],
             },
             LayerData {
                 name: "patches",
                 points: false,
-                table: patches,
+                table: t.patches,
                 geoms: self.patches.iter().map(area).collect(),
             },
             LayerData {
                 name: "unreachable",
                 points: false,
-                table: unreachable,
-                geoms: class2.iter().map(|&i| area(&self.patches[i])).collect(),
+                table: t.unreachable,
+                geoms: t.class2.iter().map(|&i| area(&self.patches[i])).collect(),
             },
             LayerData {
                 name: "accessible",
                 points: false,
-                table: accessible,
+                table: t.accessible,
                 geoms: vec![area(&self.accessible)],
             },
         ];
-        if let Some(r) = records {
+        if let Some(r) = t.records {
             out.push(LayerData {
                 name: "records",
                 points: true,

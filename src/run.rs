@@ -236,16 +236,27 @@ pub fn run_range(
     crate::styles::describe_classes(writer.dataset(), &dir.file("classes.tif"), &result.summary)?;
     writer.close()?;
     clock.lap("pass");
-    let mut to_range = Vec::new();
-    if opts.metrics.enabled {
-        to_range = crate::metrics::add_range_metrics(
-            &mut result,
-            &model,
-            &opts.metrics,
-            opts.vectors.is_some(),
-        )?;
-        clock.lap("metrics");
-    }
+    // The vector step's polygons need the model alone: trace and encode them on a second
+    // thread while the metrics run (they leave a core idle part of the time).
+    let run_dir = dir.file("");
+    let (to_range, prepared) = std::thread::scope(|s| -> Result<_> {
+        let prep = opts
+            .vectors
+            .as_ref()
+            .map(|v| s.spawn(|| crate::vectors::prepare_vectors(&model, v, &run_dir)));
+        let mut to_range = Vec::new();
+        if opts.metrics.enabled {
+            to_range = crate::metrics::add_range_metrics(
+                &mut result,
+                &model,
+                &opts.metrics,
+                opts.vectors.is_some(),
+            )?;
+            clock.lap("metrics");
+        }
+        let prepared = prep.map(|h| h.join().unwrap_or_else(|p| std::panic::resume_unwind(p)));
+        Ok((to_range, prepared.transpose()?))
+    })?;
     write_csv(&dir.file("patches.csv"), &result.patches)?;
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&result.summary).expect("summary serialises");
@@ -253,15 +264,14 @@ pub fn run_range(
     if let Some(nodata) = &nodata {
         crate::report_html::write_run_report(&dir, &result, &model, nodata)?;
     }
-    if let Some(v) = &opts.vectors {
+    if let (Some(v), Some(prep)) = (&opts.vectors, prepared) {
         let rows = crate::vectors::RunRows {
             patches: &result.patches,
             nearest_range_km: &to_range,
             records: &result.records,
             summary: &result.summary,
         };
-        let run_dir = dir.file("");
-        crate::vectors::write_vectors(&model, &rows, &run_dir, v)?;
+        crate::vectors::write_prepared_vectors(prep, &rows, &run_dir, v)?;
         crate::styles::write_layer_styles(&run_dir)?;
     }
     drop(model); // removes its spill file before the folder is committed

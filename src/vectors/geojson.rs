@@ -14,7 +14,7 @@
 use super::inputs::Value;
 use super::write::{Geom, LayerData, GEOJSON_DECIMALS};
 use crate::{Error, Result};
-use geo_types::LineString;
+use geo_types::{LineString, MultiPolygon};
 use std::fs::File;
 use std::io::{BufWriter, Write};
 use std::path::Path;
@@ -37,7 +37,7 @@ pub(crate) fn write_geojson(path: &Path, layer: &LayerData<'_>) -> Result<()> {
     w.flush().map_err(io)
 }
 
-fn write_all(w: &mut impl Write, layer: &LayerData<'_>) -> std::io::Result<()> {
+fn write_all<W: Write>(w: &mut W, layer: &LayerData<'_>) -> std::io::Result<()> {
     let t = layer.table;
     write!(
         w,
@@ -63,20 +63,17 @@ fn write_all(w: &mut impl Write, layer: &LayerData<'_>) -> std::io::Result<()> {
             write!(w, "{key}: {v}")?;
         }
         w.write_all(b" }, \"geometry\": ")?;
+        let area = |w: &mut W, b: &[u8]| {
+            w.write_all(b"{ \"type\": \"MultiPolygon\", \"coordinates\": ")?;
+            w.write_all(b)?;
+            w.write_all(b" }")
+        };
         match geom {
-            Some(Geom::Area(mp)) if !mp.0.is_empty() => {
-                w.write_all(b"{ \"type\": \"MultiPolygon\", \"coordinates\": [ ")?;
-                for (j, p) in mp.0.iter().enumerate() {
-                    w.write_all(if j > 0 { b", [ " } else { b"[ " })?;
-                    ring(w, p.exterior(), &mut num)?;
-                    for h in p.interiors() {
-                        w.write_all(b", ")?;
-                        ring(w, h, &mut num)?;
-                    }
-                    w.write_all(b" ]")?;
-                }
-                w.write_all(b" ] }")?;
-            }
+            Some(Geom::Area(mp)) => match coordinates(mp) {
+                Some(b) => area(w, &b)?,
+                None => w.write_all(b"null")?,
+            },
+            Some(Geom::Encoded(b)) => area(w, b)?,
             Some(Geom::Point(x, y)) => {
                 w.write_all(b"{ \"type\": \"Point\", \"coordinates\": ")?;
                 pair(w, *x, *y, &mut num)?;
@@ -91,6 +88,44 @@ fn write_all(w: &mut impl Write, layer: &LayerData<'_>) -> std::io::Result<()> {
         })?;
     }
     w.write_all(b"]\n}\n")
+}
+
+/// The `coordinates` member of `mp` as a GeoJSON MultiPolygon (RFC 7946 section 3.1.7); None
+/// when it has no polygon (the feature's geometry is then null).
+pub(crate) fn coordinates(mp: &MultiPolygon<f64>) -> Option<Vec<u8>> {
+    if mp.0.is_empty() {
+        return None;
+    }
+    let mut w = Vec::new();
+    let mut num = String::new();
+    w.extend_from_slice(b"[ ");
+    for (j, p) in mp.0.iter().enumerate() {
+        w.extend_from_slice(if j > 0 { b", [ " } else { b"[ " });
+        ring(&mut w, p.exterior(), &mut num).expect("writes to memory");
+        for h in p.interiors() {
+            w.extend_from_slice(b", ");
+            ring(&mut w, h, &mut num).expect("writes to memory");
+        }
+        w.extend_from_slice(b" ]");
+    }
+    w.extend_from_slice(b" ]");
+    Some(w)
+}
+
+/// The `coordinates` of the multipolygon made of every polygon of `parts` (each from
+/// [`coordinates`]), in order.
+pub(crate) fn coordinates_union(parts: &[&[u8]]) -> Option<Vec<u8>> {
+    let mut w = b"[ ".to_vec();
+    for b in parts {
+        if w.len() > 2 {
+            w.extend_from_slice(b", ");
+        }
+        w.extend_from_slice(&b[2..b.len() - 2]);
+    }
+    (w.len() > 2).then(|| {
+        w.extend_from_slice(b" ]");
+        w
+    })
 }
 
 fn json(s: &str) -> String {
@@ -123,7 +158,13 @@ fn push_coord(out: &mut String, v: f64) {
     let scale = 10f64.powi(GEOJSON_DECIMALS as i32);
     let r = (v * scale).round() / scale;
     let r = if r == 0.0 { 0.0 } else { r }; // no "-0.0"
-    out.push_str(&serde_json::Number::from_f64(r).map_or("null".into(), |n| n.to_string()));
+    match serde_json::Number::from_f64(r) {
+        Some(n) => {
+            use std::fmt::Write as _;
+            write!(out, "{n}").expect("writes to a String");
+        }
+        None => out.push_str("null"),
+    }
 }
 
 #[cfg(test)]

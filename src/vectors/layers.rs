@@ -1,25 +1,28 @@
 //! Assembling the five layers from the traced range and writing every file.
 //!
-//! Order: trace the patches and M from the runs ([`super::source::trace`]), then write
-//! `range.gpkg` (raster CRS), the GeoJSON files (lon/lat) and, when asked, the equal-area
-//! GeoPackage. The geometries of one CRS are made, written and dropped before the next.
+//! Two halves: [`prepare`] traces the patches and M from the runs ([`super::source::trace`])
+//! and encodes their polygons for `range.gpkg` (raster CRS) and the GeoJSON files (lon/lat);
+//! it needs the range model only, so `areal range` runs it beside the metrics. [`write`] then
+//! writes `range.gpkg` and the GeoJSON files (on two threads) with the run's tables and, when
+//! asked, the equal-area GeoPackage.
 
 use super::equal_area::{choose, Target};
-use super::geojson::write_geojson;
+use super::geojson::{coordinates, coordinates_union, write_geojson};
 use super::inputs::{Kind, SummaryFacts, Table, Value};
-use super::lonlat::{densify, ToLonLat};
+use super::lonlat::ToLonLat;
 use super::parallels::lonlat_polygon;
 use super::polygonize::polygons_of;
+use super::shapes::{
+    concat, lonlat_points, native_points, transformed_points, Encoded, LayerTables, Shapes,
+};
 use super::source::{trace, RunSource};
 use super::trace::PixelPolygon;
-use super::write::{write_gpkg, Geom, LayerData};
+use super::write::{wkb, wkb_union, write_gpkg};
 use super::{VectorOptions, VectorReport};
 use crate::crs::{grid_srs, transform, wgs84};
 use crate::raster_io::class;
 use crate::{Error, GridSpec, Result};
-use gdal::spatial_ref::CoordTransform;
 use gdal::vector::ToGdal;
-use geo::orient::{Direction, Orient};
 use geo_types::{Coord, LineString, MultiPolygon, Polygon};
 use std::path::Path;
 
@@ -34,30 +37,33 @@ pub(crate) struct RunTables {
     pub facts: SummaryFacts,
 }
 
-pub(crate) fn build_and_write(
+/// The geometry half of the vector step, from the range model alone: the traced polygons
+/// encoded for `range.gpkg` (WKB) and the GeoJSON files. `areal range --vectors` makes it on a
+/// second thread while the metrics run; [`write`] adds the tables and writes the files.
+pub struct PreparedVectors {
+    grid: GridSpec,
+    patches: usize,
+    class1: Vec<usize>,
+    class2: Vec<usize>,
+    m_cells: i64,
+    /// Cells of the class-1 patches.
+    range_cells: i64,
+    native: Encoded,
+    lonlat: Encoded,
+    /// The native polygons (patches, M), kept for `range-equal-area.gpkg` only.
+    shapes: Option<(Vec<MultiPolygon<f64>>, MultiPolygon<f64>)>,
+}
+
+/// Trace `src` and encode its polygons for the GeoPackage and the GeoJSON files.
+pub(crate) fn prepare(
     src: &dyn RunSource,
-    tables: &RunTables,
     opts: &VectorOptions,
-    out_dir: &Path,
     ctx: &Path,
-) -> Result<VectorReport> {
+) -> Result<PreparedVectors> {
     let grid = src.grid().clone();
     let patches = src.patches();
-    let t = &tables.patches;
-    if t.rows.len() != patches.len() {
-        return Err(Error::Processing {
-            what: "vector layers".into(),
-            reason: format!(
-                "{} patch rows for {} patches; give the patches.csv of the same run",
-                t.rows.len(),
-                patches.len()
-            ),
-        });
-    }
     let mut clock = crate::progress::StageClock::new();
     let traced = trace(src)?;
-    clock.lap("vectors: trace");
-    let to_ll = ToLonLat::new(&grid)?;
     let tol = match opts.simplify_m {
         None => None,
         Some(m) if grid.geographic => Some(m / MAX_M_PER_DEG_LAT),
@@ -72,20 +78,73 @@ pub(crate) fn build_and_write(
     let accessible = native_of(&traced.accessible)?;
     let m_cells = traced.m_cells as i64;
     drop(traced);
-
     let class1: Vec<usize> = (0..patches.len())
         .filter(|&i| patches[i].class == class::INSIDE)
         .collect();
     let class2: Vec<usize> = (0..patches.len())
         .filter(|&i| patches[i].class == class::OUTSIDE)
         .collect();
+    let range_cells = class1.iter().map(|&i| patches[i].cells as i64).sum();
+    let native = Shapes::native(&shapes, &accessible).encode(&class1, wkb, wkb_union, Vec::new());
+    let to_ll = ToLonLat::new(&grid)?;
+    let lonlat = Shapes::lonlat(&shapes, &accessible, &to_ll, 0.0, ctx)?.encode(
+        &class1,
+        coordinates,
+        coordinates_union,
+        Vec::new(),
+    );
+    clock.lap("vectors: trace and encode");
+    Ok(PreparedVectors {
+        patches: patches.len(),
+        class1,
+        class2,
+        m_cells,
+        range_cells,
+        native,
+        lonlat,
+        shapes: opts.equal_area.is_some().then_some((shapes, accessible)),
+        grid,
+    })
+}
+
+/// Write every vector file of `prep` into `out_dir`, with the run's `tables`.
+pub(crate) fn write(
+    prep: PreparedVectors,
+    tables: &RunTables,
+    opts: &VectorOptions,
+    out_dir: &Path,
+    ctx: &Path,
+) -> Result<VectorReport> {
+    let PreparedVectors {
+        grid,
+        patches: n_patches,
+        class1,
+        class2,
+        m_cells,
+        range_cells,
+        mut native,
+        mut lonlat,
+        shapes,
+    } = prep;
+    let t = &tables.patches;
+    if t.rows.len() != n_patches {
+        return Err(Error::Processing {
+            what: "vector layers".into(),
+            reason: format!(
+                "{} patch rows for {} patches; give the patches.csv of the same run",
+                t.rows.len(),
+                n_patches
+            ),
+        });
+    }
+    let mut clock = crate::progress::StageClock::new();
     let f = &tables.facts;
     let range_table = Table {
         names: vec!["area_km2".into(), "cells".into(), "patches".into()],
         kinds: vec![Kind::Real, Kind::Int, Kind::Int],
         rows: vec![vec![
             Value::Real(f.inside_km2),
-            Value::Int(class1.iter().map(|&i| patches[i].cells as i64).sum()),
+            Value::Int(range_cells),
             Value::Int(class1.len() as i64),
         ]],
     };
@@ -117,73 +176,66 @@ pub(crate) fn build_and_write(
         }
         None => Vec::new(),
     };
-    let layers_of = |s: &Shapes| {
-        s.layers(
-            &range_table,
-            t,
-            &unreach_table,
-            &class2,
-            &access_table,
-            tables.records.as_ref(),
-        )
+    let lt = LayerTables {
+        range: &range_table,
+        patches: t,
+        unreachable: &unreach_table,
+        class2: &class2,
+        accessible: &access_table,
+        records: tables.records.as_ref(),
     };
-
-    let mut written = Vec::new();
-    {
-        let native = Shapes::native(&shapes, &class1, &accessible, &record_lonlat, &grid)?;
-        write_gpkg(
-            &out_dir.join("range.gpkg"),
-            &grid_srs(&grid)?,
-            &layers_of(&native),
-        )?;
-        written.push("range.gpkg".to_string());
-    }
-    clock.lap("vectors: range.gpkg");
-    let w84 = wgs84()?;
-    {
-        let ll = Shapes::lonlat(
-            &shapes,
-            &class1,
-            &accessible,
-            &record_lonlat,
-            &to_ll,
-            0.0,
-            ctx,
-        )?;
-        for l in layers_of(&ll) {
-            let name = format!("{}.geojson", l.name);
-            write_geojson(&out_dir.join(&name), &l)?;
-            written.push(name);
-        }
-    }
-    clock.lap("vectors: GeoJSON");
+    native.records = native_points(&record_lonlat, &grid)?;
+    lonlat.records = lonlat_points(&record_lonlat, 0.0);
+    // range.gpkg on a second thread while this one writes the GeoJSON files: the two share
+    // nothing but the encoded polygons, and each is a single stream of writes.
+    let (gpkg, json) = std::thread::scope(|s| {
+        let gpkg = s.spawn(|| {
+            write_gpkg(
+                &out_dir.join("range.gpkg"),
+                &grid_srs(&grid)?,
+                &native.layers(&lt),
+            )
+        });
+        let json = (|| -> Result<Vec<String>> {
+            let mut names = Vec::new();
+            for l in lonlat.layers(&lt) {
+                let name = format!("{}.geojson", l.name);
+                write_geojson(&out_dir.join(&name), &l)?;
+                names.push(name);
+            }
+            Ok(names)
+        })();
+        let gpkg = gpkg.join().unwrap_or_else(|p| std::panic::resume_unwind(p));
+        (gpkg, json)
+    });
+    gpkg?;
+    let json = json?;
+    drop((native, lonlat));
+    let mut written = vec!["range.gpkg".to_string()];
+    written.extend(json);
+    clock.lap("vectors: range.gpkg and GeoJSON");
     let mut equal_area_crs = None;
-    if let Some(spec) = &opts.equal_area {
+    if let (Some(spec), Some((shapes, accessible))) = (&opts.equal_area, &shapes) {
         let Target {
             srs,
             centre_lon,
             label,
         } = choose(spec, &grid)?;
-        let ll = Shapes::lonlat(
-            &shapes,
-            &class1,
-            &accessible,
-            &record_lonlat,
-            &to_ll,
-            centre_lon,
-            ctx,
-        )?;
-        let ct = transform(&w84, &srs, "--vector-crs (from WGS84 lon/lat)")?;
+        let to_ll = ToLonLat::new(&grid)?;
+        let mut ll = Shapes::lonlat(shapes, accessible, &to_ll, centre_lon, ctx)?;
+        ll.range = Some(concat(&ll.patches, &class1));
+        let ct = transform(&wgs84()?, &srs, "--vector-crs (from WGS84 lon/lat)")?;
         let seg = if grid.geographic {
             grid.dx().max(grid.dy())
         } else {
             f64::INFINITY
         };
         let ea = ll.transformed(&ct, seg, ctx)?;
+        let points = transformed_points(&lonlat_points(&record_lonlat, centre_lon), &ct);
         write_gpkg(
             &out_dir.join("range-equal-area.gpkg"),
             &srs,
-            &layers_of(&ea),
+            &ea.encode(&class1, wkb, wkb_union, points).layers(&lt),
         )?;
         written.push("range-equal-area.gpkg".to_string());
         clock.lap("vectors: range-equal-area.gpkg");
@@ -191,11 +243,22 @@ pub(crate) fn build_and_write(
     }
     Ok(VectorReport {
         files: written,
-        patches: patches.len(),
+        patches: n_patches,
         unreachable: class2.len(),
         records: tables.records.as_ref().map_or(0, |r| r.rows.len()),
         equal_area_crs,
     })
+}
+
+/// [`prepare`] and [`write`] in one go.
+pub(crate) fn build_and_write(
+    src: &dyn RunSource,
+    tables: &RunTables,
+    opts: &VectorOptions,
+    out_dir: &Path,
+    ctx: &Path,
+) -> Result<VectorReport> {
+    write(prepare(src, opts, ctx)?, tables, opts, out_dir, ctx)
 }
 
 fn col(t: &Table, name: &str) -> Result<usize> {
@@ -251,190 +314,4 @@ pub(super) fn native(
         .simplify_preserve_topology(tol)
         .map_err(Error::gdal(ctx, "simplifying"))?;
     polygons_of(&simple, ctx)
-}
-/// The geometries of every layer in one CRS.
-struct Shapes {
-    patches: Vec<MultiPolygon<f64>>,
-    range: MultiPolygon<f64>,
-    accessible: MultiPolygon<f64>,
-    records: Vec<Option<(f64, f64)>>,
-}
-
-fn concat(parts: &[MultiPolygon<f64>], ids: &[usize]) -> MultiPolygon<f64> {
-    MultiPolygon(
-        ids.iter()
-            .flat_map(|&i| parts[i].0.iter().cloned())
-            .collect::<Vec<Polygon<f64>>>(),
-    )
-}
-
-impl Shapes {
-    fn native(
-        shapes: &[MultiPolygon<f64>],
-        class1: &[usize],
-        accessible: &MultiPolygon<f64>,
-        records: &[(f64, f64)],
-        grid: &crate::GridSpec,
-    ) -> Result<Shapes> {
-        let to_native: Option<CoordTransform> = if grid.geographic {
-            None
-        } else {
-            Some(transform(
-                &wgs84()?,
-                &grid_srs(grid)?,
-                "WGS84 lon/lat to the raster CRS (records layer)",
-            )?)
-        };
-        let west = grid.geo_transform[0];
-        let recs = records
-            .iter()
-            .map(|&(lon, lat)| {
-                if !(lon.is_finite() && lat.is_finite()) {
-                    return None;
-                }
-                match &to_native {
-                    None if grid.wraps_antimeridian() => {
-                        Some((west + (lon - west).rem_euclid(360.0), lat))
-                    }
-                    None => Some((lon, lat)),
-                    Some(ct) => {
-                        let (mut x, mut y) = ([lon], [lat]);
-                        ct.transform_coords(&mut x, &mut y, &mut []).ok()?;
-                        Some((x[0], y[0])).filter(|p| p.0.is_finite() && p.1.is_finite())
-                    }
-                }
-            })
-            .collect();
-        let patches: Vec<MultiPolygon<f64>> = shapes
-            .iter()
-            .map(|s| s.orient(Direction::Default))
-            .collect();
-        Ok(Shapes {
-            range: concat(&patches, class1),
-            patches,
-            accessible: accessible.orient(Direction::Default),
-            records: recs,
-        })
-    }
-
-    fn lonlat(
-        shapes: &[MultiPolygon<f64>],
-        class1: &[usize],
-        accessible: &MultiPolygon<f64>,
-        records: &[(f64, f64)],
-        to_ll: &ToLonLat,
-        centre: f64,
-        ctx: &Path,
-    ) -> Result<Shapes> {
-        let patches = shapes
-            .iter()
-            .enumerate()
-            .map(|(i, s)| to_ll.polygons(s, centre, &format!("patch {}", i + 1), ctx))
-            .collect::<Result<Vec<_>>>()?;
-        let wrap = |lon: f64| {
-            let l = centre - 180.0 + (lon - (centre - 180.0)).rem_euclid(360.0);
-            if l == centre + 180.0 {
-                centre - 180.0
-            } else {
-                l
-            }
-        };
-        Ok(Shapes {
-            range: concat(&patches, class1),
-            patches,
-            accessible: to_ll.polygons(accessible, centre, "the accessible area M", ctx)?,
-            records: records
-                .iter()
-                .map(|&(lon, lat)| (lon.is_finite() && lat.is_finite()).then(|| (wrap(lon), lat)))
-                .collect(),
-        })
-    }
-
-    /// Every geometry transformed by `ct`, edges first cut to at most `seg` (input units).
-    fn transformed(&self, ct: &CoordTransform, seg: f64, ctx: &Path) -> Result<Shapes> {
-        let tr = |mp: &MultiPolygon<f64>| -> Result<MultiPolygon<f64>> {
-            let dense = MultiPolygon(
-                mp.0.iter()
-                    .map(|p| {
-                        Polygon::new(
-                            densify(p.exterior(), seg),
-                            p.interiors().iter().map(|h| densify(h, seg)).collect(),
-                        )
-                    })
-                    .collect(),
-            );
-            let g = dense
-                .to_gdal()
-                .map_err(Error::gdal(ctx, "to the equal-area CRS"))?
-                .transform(ct)
-                .map_err(Error::gdal(ctx, "transforming to the equal-area CRS"))?;
-            Ok(polygons_of(&g, ctx)?.orient(Direction::Default))
-        };
-        Ok(Shapes {
-            patches: self.patches.iter().map(tr).collect::<Result<_>>()?,
-            range: tr(&self.range)?,
-            accessible: tr(&self.accessible)?,
-            records: self
-                .records
-                .iter()
-                .map(|p| {
-                    let (lon, lat) = (*p)?;
-                    let (mut x, mut y) = ([lon], [lat]);
-                    ct.transform_coords(&mut x, &mut y, &mut []).ok()?;
-                    Some((x[0], y[0]))
-                })
-                .collect(),
-        })
-    }
-
-    fn layers<'a>(
-        &self,
-        range: &'a Table,
-        patches: &'a Table,
-        unreachable: &'a Table,
-        class2: &[usize],
-        accessible: &'a Table,
-        records: Option<&'a Table>,
-    ) -> Vec<LayerData<'a>> {
-        let area = |mp: &MultiPolygon<f64>| Some(Geom::Area(mp.clone()));
-        let mut out = vec![
-            LayerData {
-                name: "range",
-                points: false,
-                table: range,
-                geoms: vec![area(&self.range)],
-            },
-            LayerData {
-                name: "patches",
-                points: false,
-                table: patches,
-                geoms: self.patches.iter().map(area).collect(),
-            },
-            LayerData {
-                name: "unreachable",
-                points: false,
-                table: unreachable,
-                geoms: class2.iter().map(|&i| area(&self.patches[i])).collect(),
-            },
-            LayerData {
-                name: "accessible",
-                points: false,
-                table: accessible,
-                geoms: vec![area(&self.accessible)],
-            },
-        ];
-        if let Some(r) = records {
-            out.push(LayerData {
-                name: "records",
-                points: true,
-                table: r,
-                geoms: self
-                    .records
-                    .iter()
-                    .map(|p| p.map(|(x, y)| Geom::Point(x, y)))
-                    .collect(),
-            });
-        }
-        out
-    }
 }

@@ -35,6 +35,7 @@ mod parallels;
 #[cfg(test)]
 mod parallels_tests;
 mod polygonize;
+mod shapes;
 mod source;
 mod tables;
 #[cfg(test)]
@@ -46,6 +47,7 @@ mod write;
 
 pub use batch_layer::{range_lonlat, write_table_gpkg};
 pub use equal_area::VectorCrs;
+pub use layers::PreparedVectors;
 pub use write::GEOJSON_DECIMALS;
 
 use crate::access::AccessSpec;
@@ -111,13 +113,34 @@ pub fn write_vectors(
     out_dir: &Path,
     opts: &VectorOptions,
 ) -> Result<VectorReport> {
+    write_prepared_vectors(prepare_vectors(model, opts, out_dir)?, rows, out_dir, opts)
+}
+
+/// The first half of [`write_vectors`], from the model alone (no table): the polygons traced
+/// and encoded for each file (`out_dir` names the files in errors). `areal range` runs it
+/// while the metrics are computed.
+pub fn prepare_vectors(
+    model: &RangeModel,
+    opts: &VectorOptions,
+    out_dir: &Path,
+) -> Result<PreparedVectors> {
     check_options(opts)?;
+    layers::prepare(model, opts, out_dir)
+}
+
+/// The second half of [`write_vectors`]: the files of `prep` with the run's tables.
+pub fn write_prepared_vectors(
+    prep: PreparedVectors,
+    rows: &RunRows<'_>,
+    out_dir: &Path,
+    opts: &VectorOptions,
+) -> Result<VectorReport> {
     let tables = layers::RunTables {
         patches: tables::patch_table(rows.patches, rows.nearest_range_km),
         records: Some(tables::record_table(rows.records)),
         facts: inputs::SummaryFacts::of(rows.summary),
     };
-    layers::build_and_write(model, &tables, opts, out_dir, out_dir)
+    layers::write(prep, &tables, opts, out_dir, out_dir)
 }
 
 fn check_options(opts: &VectorOptions) -> Result<()> {

@@ -8,9 +8,12 @@
 use super::inputs::{Kind, Table, Value};
 use crate::{Error, Result};
 use gdal::spatial_ref::SpatialRef;
-use gdal::vector::{Feature, LayerAccess, LayerOptions, OGRFieldType, OGRwkbGeometryType, ToGdal};
+use gdal::vector::{
+    Feature, Geometry, LayerAccess, LayerOptions, OGRFieldType, OGRwkbGeometryType, ToGdal,
+};
 use gdal::{Dataset, DriverManager};
-use geo_types::MultiPolygon;
+use geo_types::{LineString, MultiPolygon};
+use std::borrow::Cow;
 use std::ffi::CString;
 use std::path::Path;
 
@@ -21,8 +24,12 @@ pub const GEOJSON_DECIMALS: usize = 9;
 
 /// A geometry of one feature.
 #[derive(Debug, Clone)]
-pub(crate) enum Geom {
+pub(crate) enum Geom<'a> {
     Area(MultiPolygon<f64>),
+    /// A multipolygon already encoded for the file it goes to: [`wkb`] for a GeoPackage,
+    /// `geojson::coordinates` for GeoJSON. Layers that repeat a patch's polygons (`patches`,
+    /// `unreachable`, `range`) encode them once and copy the bytes.
+    Encoded(Cow<'a, [u8]>),
     Point(f64, f64),
 }
 
@@ -32,7 +39,65 @@ pub(crate) struct LayerData<'a> {
     pub points: bool,
     pub table: &'a Table,
     /// One per row of `table`.
-    pub geoms: Vec<Option<Geom>>,
+    pub geoms: Vec<Option<Geom<'a>>>,
+}
+
+/// Bytes of a multipolygon's WKB header: byte order, type, number of polygons.
+pub(crate) const WKB_HEADER: usize = 9;
+
+/// `mp` as ISO WKB (little-endian 2D MultiPolygon, OGC 06-103r4 section 8.2), as OGR reads it;
+/// None when it has no polygon (the feature then has no geometry).
+pub(crate) fn wkb(mp: &MultiPolygon<f64>) -> Option<Vec<u8>> {
+    if mp.0.is_empty() {
+        return None;
+    }
+    let n: usize = mp.0.iter().map(|p| 1 + p.interiors().len()).sum::<usize>();
+    let pts: usize = mp.0.iter().map(|p| p.exterior().0.len()).sum::<usize>()
+        + mp.0
+            .iter()
+            .flat_map(|p| p.interiors())
+            .map(|r| r.0.len())
+            .sum::<usize>();
+    let mut out = Vec::with_capacity(WKB_HEADER * (1 + mp.0.len()) + 4 * n + 16 * pts);
+    let u32le = |out: &mut Vec<u8>, v: usize| out.extend_from_slice(&(v as u32).to_le_bytes());
+    let ring = |out: &mut Vec<u8>, r: &LineString<f64>| {
+        u32le(out, r.0.len());
+        for c in &r.0 {
+            out.extend_from_slice(&c.x.to_le_bytes());
+            out.extend_from_slice(&c.y.to_le_bytes());
+        }
+    };
+    out.push(1);
+    u32le(&mut out, 6);
+    u32le(&mut out, mp.0.len());
+    for p in &mp.0 {
+        out.push(1);
+        u32le(&mut out, 3);
+        u32le(&mut out, 1 + p.interiors().len());
+        ring(&mut out, p.exterior());
+        for h in p.interiors() {
+            ring(&mut out, h);
+        }
+    }
+    Some(out)
+}
+
+/// The WKB of the multipolygon made of every polygon of `parts` (each from [`wkb`]), in order.
+pub(crate) fn wkb_union(parts: &[&[u8]]) -> Option<Vec<u8>> {
+    let count = |b: &[u8]| u32::from_le_bytes(b[5..9].try_into().expect("4 bytes")) as usize;
+    let n: usize = parts.iter().map(|b| count(b)).sum();
+    if n == 0 {
+        return None;
+    }
+    let len: usize = parts.iter().map(|b| b.len() - WKB_HEADER).sum();
+    let mut out = Vec::with_capacity(WKB_HEADER + len);
+    out.push(1);
+    out.extend_from_slice(&6u32.to_le_bytes());
+    out.extend_from_slice(&(n as u32).to_le_bytes());
+    for b in parts {
+        out.extend_from_slice(&b[WKB_HEADER..]);
+    }
+    Some(out)
 }
 
 fn out_err(path: &Path, what: &str) -> impl FnOnce(gdal::errors::GdalError) -> Error {
@@ -107,10 +172,15 @@ fn write_layer(
             }
             .map_err(out_err(path, &what))?;
         }
+        let area = |b: &[u8]| Geometry::from_wkb(b).map_err(out_err(path, &what));
         match geom {
-            Some(Geom::Area(mp)) if !mp.0.is_empty() => {
-                ft.set_geometry(mp.to_gdal().map_err(out_err(path, &what))?)
-                    .map_err(out_err(path, &what))?;
+            Some(Geom::Area(mp)) => {
+                if let Some(b) = wkb(mp) {
+                    ft.set_geometry(area(&b)?).map_err(out_err(path, &what))?;
+                }
+            }
+            Some(Geom::Encoded(b)) => {
+                ft.set_geometry(area(b)?).map_err(out_err(path, &what))?;
             }
             Some(Geom::Point(x, y)) => {
                 let p = geo_types::Point::new(*x, *y)

@@ -73,10 +73,7 @@ impl OutputDir {
             })?
             .to_string_lossy()
             .into_owned();
-        let parent = match dest.parent() {
-            Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-            _ => PathBuf::from("."),
-        };
+        let parent = parent_folder(dest).to_path_buf();
         let prefix = format!(".{name}.areal-tmp-");
         let old_prefix = format!(".{name}.areal-old-");
         if !dest.exists() {
@@ -199,7 +196,7 @@ impl OutputDir {
         if self.dest.exists() && exchange(&self.tmp, &self.dest).is_ok() {
             // The old outputs are now at the temporary path.
             self.committed = true;
-            sync_dir(self.dest.parent().unwrap_or(Path::new(".")))?;
+            sync_dir(parent_folder(&self.dest))?;
             let _ = fs::remove_dir_all(&self.tmp);
             return Ok(());
         }
@@ -218,11 +215,20 @@ impl OutputDir {
         };
         fs::rename(&self.tmp, &self.dest).map_err(Error::io(&self.dest))?;
         self.committed = true;
-        sync_dir(self.dest.parent().unwrap_or(Path::new(".")))?;
+        sync_dir(parent_folder(&self.dest))?;
         if let Some(old) = old {
             let _ = fs::remove_dir_all(old);
         }
         Ok(())
+    }
+}
+
+/// The folder holding `path`: "." for a bare name such as `run1` (whose `parent()` is the
+/// empty path, which no system call accepts).
+pub(crate) fn parent_folder(path: &Path) -> &Path {
+    match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
     }
 }
 

@@ -155,3 +155,47 @@ fn classes_tif_is_gis_ready() {
     assert!(first.contains("accessible"), "{first}");
 }
 use gdal::Metadata;
+
+#[test]
+fn bare_folder_names_work_relative_to_the_working_folder() {
+    // `--out run` (a bare name, whose parent is the empty path) and `areal polygons
+    // --classes classes.tif` from inside the run folder: both used to fail after writing,
+    // with exit code 4. The tables must equal those of a run given absolute paths.
+    let tmp = tempfile::tempdir().unwrap();
+    run_demo(tmp.path());
+    let o = areal()
+        .current_dir(tmp.path())
+        .args([
+            "range",
+            "--suitability",
+            demo("suitability.tif").to_str().unwrap(),
+            "--records",
+            demo("records.csv").to_str().unwrap(),
+            "--omission",
+            "5",
+            "--accessible",
+            demo("accessible.geojson").to_str().unwrap(),
+            "--out",
+            "run",
+        ])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "bare --out failed: {}", stderr(&o));
+    let read = |p: std::path::PathBuf| std::fs::read(p).unwrap();
+    let run_dir = tmp.path().join("run");
+    assert_eq!(
+        read(run_dir.join("patches.csv")),
+        read(tmp.path().join("out/patches.csv"))
+    );
+    let o = areal()
+        .current_dir(&run_dir)
+        .args(["polygons", "--classes", "classes.tif", "--out", "vec"])
+        .args(["--accessible", demo("accessible.geojson").to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "bare --classes failed: {}", stderr(&o));
+    let gj: serde_json::Value =
+        serde_json::from_slice(&read(run_dir.join("vec/patches.geojson"))).unwrap();
+    let (_, rows) = read_csv(&run_dir.join("patches.csv"));
+    assert_eq!(gj["features"].as_array().unwrap().len(), rows.len());
+}

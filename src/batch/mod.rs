@@ -179,7 +179,7 @@ pub(crate) fn durable(tmp: &Path, dest: &Path) -> Result<()> {
         .and_then(|f| f.sync_all())
         .map_err(Error::io(tmp))?;
     fs::rename(tmp, dest).map_err(Error::io(dest))?;
-    crate::output::sync_dir(dest.parent().unwrap_or(Path::new(".")))
+    crate::output::sync_dir(crate::output::parent_folder(dest))
 }
 
 /// Remove temporary files of dead processes in `dir`: `.areal-tmp-PID-NAME` (gather) and

@@ -145,7 +145,7 @@ pub(crate) fn read_run(
     access: &AccessSpec,
     connectivity: Option<Connectivity>,
 ) -> Result<(RangeModel, RunTables)> {
-    let dir = classes_path.parent().unwrap_or(Path::new("."));
+    let dir = crate::output::parent_folder(classes_path);
     let need = |name: &str| -> Result<PathBuf> {
         let p = dir.join(name);
         if p.exists() {

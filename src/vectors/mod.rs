@@ -199,10 +199,7 @@ pub fn run_polygons(
     out: &Path,
     overwrite: bool,
 ) -> Result<VectorReport> {
-    let run_dir: PathBuf = match classes.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
+    let run_dir: PathBuf = crate::output::parent_folder(classes).to_path_buf();
     if classes.file_name().is_some_and(|n| n != "classes.tif") {
         return Err(Error::InvalidOption {
             option: "--classes",

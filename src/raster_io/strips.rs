@@ -214,12 +214,9 @@ fn count_reached<T: Sample>(values: &[T], codes: &[u8], cands: &[T], out: &mut [
             *o += (v >= c) as u8;
         }
     }
+    // Branch-free (all bits set where nodata, 255 being all ones), so the loop vectorises.
     for (o, &k) in out.iter_mut().zip(codes) {
-        *o = if k == class::NODATA {
-            class::NODATA
-        } else {
-            *o
-        };
+        *o |= ((k == class::NODATA) as u8).wrapping_neg();
     }
 }
 

@@ -12,6 +12,7 @@
 
 mod classes;
 mod strips;
+mod tiles;
 
 pub(crate) use classes::TILED_GEOTIFF;
 pub use classes::{class, ClassWriter};
@@ -20,7 +21,6 @@ pub use strips::{ReaderSpec, StripBuffers, StripReader};
 use crate::{Error, GridSpec, Result};
 
 use gdal::{Dataset, DatasetOptions, GdalOpenFlags};
-use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::{Arc, Mutex};
@@ -37,6 +37,8 @@ pub struct SuitabilityRaster {
     non_finite: NonFiniteCount,
     /// Warnings about the raster found when opening it.
     open_warnings: Vec<String>,
+    /// Blocks decoded to sample the records, kept for the pass.
+    tiles: tiles::TileCache,
 }
 
 /// Non-finite cells seen, shared by every reader of one raster; a row read twice (a
@@ -214,6 +216,7 @@ impl SuitabilityRaster {
             data_type,
             fits_f32,
             non_finite: NonFiniteCount::new(h),
+            tiles: tiles::TileCache::default(),
             open_warnings,
         })
     }
@@ -255,62 +258,12 @@ impl SuitabilityRaster {
     /// Whether `v` counts as data (finite and not the nodata value; on bands read as
     /// float32 the comparison is at float32 precision, as in the strip pass).
     pub fn is_data(&self, v: f64) -> bool {
-        is_data_value(v, self.nodata, self.fits_f32)
+        tiles::is_data_value(v, self.nodata, self.fits_f32)
     }
 
-    /// The value of each cell (row, col), `None` where it is nodata or non-finite.
-    /// Cells are grouped by the band's natural blocks, so each block holding a record is
-    /// decoded once, whatever GDAL's cache size.
+    /// The values at `cells` (row, col), None for nodata: see [`tiles::sample`].
     pub fn sample(&self, cells: &[(usize, usize)]) -> Result<Vec<Option<f64>>> {
-        let (bw, bh) = self
-            .ds
-            .rasterband(1)
-            .map_err(Error::gdal(&self.path, "reading band 1"))?
-            .block_size();
-        let mut by_block: BTreeMap<(usize, usize), Vec<usize>> = BTreeMap::new();
-        for (i, &(r, c)) in cells.iter().enumerate() {
-            by_block.entry((r / bh, c / bw)).or_default().push(i);
-        }
-        let blocks: Vec<((usize, usize), Vec<usize>)> = by_block.into_iter().collect();
-        // Decoding the blocks is the cost and it comes before the pass can start: the blocks
-        // are shared out between the decode threads, each with its own handle (this thread
-        // uses the raster's own).
-        let threads = crate::pass::decode_threads().min(blocks.len()).max(1);
-        let (path, size) = (&self.path, (self.grid.width, self.grid.height));
-        let (nodata, fits_f32) = (self.nodata, self.fits_f32);
-        let is_data = move |v: f64| is_data_value(v, nodata, fits_f32);
-        let found: Vec<Result<Samples>> = std::thread::scope(|scope| {
-            let handles: Vec<_> = (1..threads)
-                .map(|t| {
-                    let blocks = &blocks;
-                    scope.spawn(move || {
-                        let ds = open_readonly(
-                            path,
-                            GdalOpenFlags::GDAL_OF_RASTER,
-                            "suitability raster",
-                        )?;
-                        let mine = blocks.iter().skip(t).step_by(threads);
-                        sample_blocks(&ds, path, size, (bw, bh), cells, mine, is_data)
-                    })
-                })
-                .collect();
-            let mine = blocks.iter().step_by(threads);
-            let own = sample_blocks(&self.ds, path, size, (bw, bh), cells, mine, is_data);
-            std::iter::once(own)
-                .chain(
-                    handles
-                        .into_iter()
-                        .map(|h| h.join().expect("sampling thread")),
-                )
-                .collect()
-        });
-        let mut out = vec![None; cells.len()];
-        for part in found {
-            for (i, v) in part? {
-                out[i] = v;
-            }
-        }
-        Ok(out)
+        tiles::sample(self, cells)
     }
 
     /// Read rows `y0 .. y0 + rows` into `buf` (resized to `width * rows`), row-major, as f64.
@@ -338,62 +291,7 @@ impl SuitabilityRaster {
             nodata: self.nodata,
             as_f32: self.fits_f32,
             non_finite: self.non_finite.clone(),
+            tiles: self.tiles.clone(),
         }
     }
-}
-
-/// A value is data unless non-finite or the nodata value (compared at float32 precision on
-/// float32 bands, as GDAL does).
-fn is_data_value(v: f64, nodata: Option<f64>, fits_f32: bool) -> bool {
-    v.is_finite()
-        && nodata.is_none_or(|nd| {
-            if fits_f32 {
-                v as f32 != nd as f32
-            } else {
-                v != nd
-            }
-        })
-}
-
-/// Sampled values: (index into the cells asked for, value or None for nodata).
-type Samples = Vec<(usize, Option<f64>)>;
-
-/// The values of `cells` in `blocks` (block row and column, indices into `cells`), read
-/// through `ds`, a handle on the raster at `path` of `size` cells.
-fn sample_blocks<'a>(
-    ds: &Dataset,
-    path: &Path,
-    (w, h): (usize, usize),
-    (bw, bh): (usize, usize),
-    cells: &[(usize, usize)],
-    blocks: impl Iterator<Item = &'a ((usize, usize), Vec<usize>)>,
-    is_data: impl Fn(f64) -> bool,
-) -> Result<Samples> {
-    let band = ds
-        .rasterband(1)
-        .map_err(Error::gdal(path, "reading band 1"))?;
-    let mut out = Vec::new();
-    let mut buf = Vec::new();
-    for ((by, bx), idx) in blocks {
-        let (x0, y0) = (bx * bw, by * bh);
-        let (cw, ch) = (bw.min(w - x0), bh.min(h - y0));
-        buf.resize(cw * ch, 0f64);
-        band.read_into_slice::<f64>(
-            (x0 as isize, y0 as isize),
-            (cw, ch),
-            (cw, ch),
-            &mut buf,
-            None,
-        )
-        .map_err(Error::gdal(
-            path,
-            format!("reading the block at row {y0}, col {x0}"),
-        ))?;
-        for &i in idx {
-            let (r, c) = cells[i];
-            let v = buf[(r - y0) * cw + (c - x0)];
-            out.push((i, Some(v).filter(|&v| is_data(v))));
-        }
-    }
-    Ok(out)
 }

@@ -2,6 +2,7 @@
 
 use super::class;
 use super::open_readonly;
+use super::tiles::{pass_reads_blocks, TileCache, TileValues};
 use super::NonFiniteCount;
 use crate::{Error, Result};
 use gdal::{Dataset, GdalOpenFlags};
@@ -15,6 +16,7 @@ pub struct ReaderSpec {
     pub(super) nodata: Option<f64>,
     pub(super) as_f32: bool,
     pub(super) non_finite: NonFiniteCount,
+    pub(super) tiles: TileCache,
 }
 
 impl ReaderSpec {
@@ -32,6 +34,7 @@ impl ReaderSpec {
             nodata: self.nodata,
             as_f32: self.as_f32,
             non_finite: self.non_finite.clone(),
+            tiles: self.tiles.clone(),
         })
     }
 }
@@ -44,6 +47,8 @@ pub struct StripReader {
     nodata: Option<f64>,
     as_f32: bool,
     non_finite: NonFiniteCount,
+    /// Blocks decoded while sampling the records, taken instead of decoding them again.
+    tiles: TileCache,
 }
 
 /// Buffers a [`StripReader`] reuses between strips.
@@ -94,28 +99,42 @@ impl StripReader {
         bins.resize(if cands.is_empty() { 0 } else { n }, 0);
         let mut non_finite = 0u64;
         let mut binary = true;
-        // Column windows a few tiles wide: each window is coded while GDAL's copy of it is
-        // still in cache (a whole 256-row strip of a global 30" grid is 44 MB of float32,
-        // read back from memory). A striped file is read whole-width: its blocks are rows,
-        // and a narrower window would decode each block again.
-        let cw = window_width(self.width, band.block_size().0);
+        // Column windows one block wide (or a few tiles, at least 256 columns): each window
+        // is coded while GDAL's copy of it is still in cache (a whole 256-row strip of a
+        // global 30" grid is 44 MB of float32, read back from memory). A striped file is read
+        // whole-width: its blocks are rows, and a narrower window would decode each block
+        // again. Blocks decoded while sampling the records are taken, not decoded again.
+        let block = band.block_size();
+        let cw = window_width(self.width, block.0);
+        let whole_blocks = pass_reads_blocks(self.width, block) && cw == block.0;
         for x0 in (0..self.width).step_by(cw) {
             let ww = cw.min(self.width - x0);
-            let win = ww * rows;
+            let kept = if whole_blocks {
+                self.tiles.take(y0, x0)
+            } else {
+                None
+            };
+            let read = |e| Error::gdal(&self.path, what())(e);
             if self.as_f32 {
-                bufs.f32s.resize(win, 0.0);
-                band.read_into_slice::<f32>(
-                    (x0 as isize, y0 as isize),
-                    (ww, rows),
-                    (ww, rows),
-                    &mut bufs.f32s,
-                    None,
-                )
-                .map_err(Error::gdal(&self.path, what()))?;
+                let values: &[f32] = match &kept {
+                    Some(TileValues::F32(v)) => v,
+                    _ => {
+                        bufs.f32s.resize(ww * rows, 0.0);
+                        band.read_into_slice::<f32>(
+                            (x0 as isize, y0 as isize),
+                            (ww, rows),
+                            (ww, rows),
+                            &mut bufs.f32s,
+                            None,
+                        )
+                        .map_err(read)?;
+                        &bufs.f32s
+                    }
+                };
                 for r in 0..rows {
                     let at = r * self.width + x0;
                     binary &= code_cells_f32(
-                        &bufs.f32s[r * ww..(r + 1) * ww],
+                        &values[r * ww..(r + 1) * ww],
                         &mut codes[at..at + ww],
                         t,
                         self.nodata,
@@ -124,19 +143,25 @@ impl StripReader {
                     );
                 }
             } else {
-                bufs.f64s.resize(win, 0.0);
-                band.read_into_slice::<f64>(
-                    (x0 as isize, y0 as isize),
-                    (ww, rows),
-                    (ww, rows),
-                    &mut bufs.f64s,
-                    None,
-                )
-                .map_err(Error::gdal(&self.path, what()))?;
+                let values: &[f64] = match &kept {
+                    Some(TileValues::F64(v)) => v,
+                    _ => {
+                        bufs.f64s.resize(ww * rows, 0.0);
+                        band.read_into_slice::<f64>(
+                            (x0 as isize, y0 as isize),
+                            (ww, rows),
+                            (ww, rows),
+                            &mut bufs.f64s,
+                            None,
+                        )
+                        .map_err(read)?;
+                        &bufs.f64s
+                    }
+                };
                 for r in 0..rows {
                     let at = r * self.width + x0;
                     binary &= code_cells_f64(
-                        &bufs.f64s[r * ww..(r + 1) * ww],
+                        &values[r * ww..(r + 1) * ww],
                         &mut codes[at..at + ww],
                         t,
                         self.nodata,
@@ -152,12 +177,13 @@ impl StripReader {
 }
 
 /// Columns per read window: the raster's width when its blocks span it (a striped file),
-/// else whole blocks adding up to at least 1,024 columns (1 MB of float32 in a 256-row strip).
+/// else whole blocks adding up to at least 256 columns (256 KB of float32 in a 256-row
+/// strip, which stays in the core's cache).
 fn window_width(width: usize, block_width: usize) -> usize {
     if block_width == 0 || block_width >= width {
         return width;
     }
-    (block_width * 1024usize.div_ceil(block_width)).min(width)
+    (block_width * 256usize.div_ceil(block_width)).min(width)
 }
 
 /// `bins[at..at + n]`, or an empty slice when there are no bins.

@@ -5,8 +5,8 @@
 //! Per patch, on both cores:
 //! 1. Arithmetic only: the pair of corners nearest in chord; its geodesic is the first bound.
 //! 2. Every pair that may be shorter than that bound, found with a cone round each group of
-//!    the patch's corners (the largest ball inside the ellipsoid touching at the group bounds
-//!    every geodesic from it, see [`super::geodesics::ball_bound`]); of the pairs on one pair of latitudes
+//!    the patch's corners (a ball inside the ellipsoid bounds every geodesic, see
+//!    [`super::geodesics::ball_bound`]); of the pairs on one pair of latitudes
 //!    only those nearest in longitude are kept ([`Candidates`]).
 //! 3. The kept pairs in order of their rolling-ball bound ([`Corners::lower`]), until it reaches
 //!    the best geodesic found; a pair is skipped when a pair measured before proves it longer
@@ -14,7 +14,7 @@
 //!
 //! The result is the exact minimum over corner pairs, to the last bit.
 
-use super::geodesics::{inscribed_ball, search_bound, Geodesics};
+use super::geodesics::{midpoint_ball, search_bound, Geodesics};
 use super::kdtree::{d2, KdTree};
 use super::reach::Corners;
 use crate::access::buffer::m_min;
@@ -144,14 +144,18 @@ impl Search {
         for g in &self.groups {
             let items = &self.items[g.range.clone()];
             // Only targets within the ball angle of `best` of some query corner can be nearer:
-            // with the largest inscribed ball touching at the group's first corner (centre
-            // `apex`, radius r; the corner lies at r along the normal u from the centre), a
-            // geodesic s from query corner i is at least r times the angle it subtends at the
-            // centre, so the target lies within s / r of i's direction, and within that plus
-            // the group's own spread of the axis u.
+            // a geodesic s from query corner i is at least r times the angle it subtends at
+            // the centre of any ball of radius r inside the ellipsoid (see `ball_bound`), so
+            // the target lies within s / r of i's direction from the centre, and within that
+            // plus the group's own spread of the group's axis u. The ball is the largest
+            // touching halfway between the group and the pair nearest in chord: the closest
+            // there, where the nearest targets lie.
             let i0 = items[0] as usize;
-            let (apex, r) = inscribed_ball(c.pts[i0].0, c.pts[i0].1);
-            let u = crate::access::buffer::unit(c.pts[i0].0, c.pts[i0].1);
+            let (apex, r) = midpoint_ball(c.pts[i0], c.pts[j0]);
+            let x0 = &c.xyz[i0];
+            let u = [x0[0] - apex[0], x0[1] - apex[1], x0[2] - apex[2]];
+            let len = (u[0] * u[0] + u[1] * u[1] + u[2] * u[2]).sqrt();
+            let u = [u[0] / len, u[1] / len, u[2] / len];
             let spread = items
                 .iter()
                 .map(|&i| {

@@ -92,22 +92,7 @@ pub(crate) fn search_bound(s_m: f64) -> f64 {
 /// The bound is about 10 m short at 1,000 km, where the chord is 1 km short. A relative 1e-9
 /// and 1 µm are taken off for rounding.
 pub(crate) fn ball_bound(a: (f64, f64), b: (f64, f64), xa: &[f64; 3], xb: &[f64; 3]) -> f64 {
-    let ell = Ellipsoid::WGS84;
-    let e2 = ell.e2();
-    let lat = 0.5 * (a.0 + b.0);
-    let mut dl = b.1 - a.1;
-    if dl > 180.0 {
-        dl -= 360.0;
-    } else if dl < -180.0 {
-        dl += 360.0;
-    }
-    let lon = a.1 + 0.5 * dl;
-    // The touching point is t = N (n_x, n_y, (1 - e²) n_z) for the unit normal n, so the
-    // centre t - r n = e² N (n_x, n_y, 0) follows from n alone.
-    let n = unit(lat, lon);
-    let big_n = ell.a / (1.0 - e2 * n[2] * n[2]).sqrt();
-    let r = (1.0 - e2) * big_n;
-    let c = [e2 * big_n * n[0], e2 * big_n * n[1], 0.0];
+    let (c, r) = midpoint_ball(a, b);
     let u = [xa[0] - c[0], xa[1] - c[1], xa[2] - c[2]];
     let v = [xb[0] - c[0], xb[1] - c[1], xb[2] - c[2]];
     let dot = u[0] * v[0] + u[1] * v[1] + u[2] * v[2];
@@ -120,6 +105,34 @@ pub(crate) fn ball_bound(a: (f64, f64), b: (f64, f64), xa: &[f64; 3], xb: &[f64;
     // atan2 keeps the angle accurate when it is small (acos would not).
     let angle = sin.atan2(dot);
     angle * r * (1.0 - 1e-9) - 1e-6
+}
+
+/// The largest ball inside WGS84 that touches it at geodetic (lat, lon) degrees: its centre
+/// (ECEF, metres) and radius (1 - e²) N(φ) (see [`ball_bound`] for why it lies inside).
+pub(crate) fn inscribed_ball(lat: f64, lon: f64) -> ([f64; 3], f64) {
+    let ell = Ellipsoid::WGS84;
+    let e2 = ell.e2();
+    // The touching point is t = N (n_x, n_y, (1 - e²) n_z) for the unit normal n, so the
+    // centre t - r n = e² N (n_x, n_y, 0) follows from n alone.
+    let n = unit(lat, lon);
+    let big_n = ell.a / (1.0 - e2 * n[2] * n[2]).sqrt();
+    (
+        [e2 * big_n * n[0], e2 * big_n * n[1], 0.0],
+        (1.0 - e2) * big_n,
+    )
+}
+
+/// The largest inscribed ball touching at the mean latitude and longitude of (lat, lon)
+/// degrees `a` and `b` (the longitude taken the short way round): centre and radius, metres.
+pub(crate) fn midpoint_ball(a: (f64, f64), b: (f64, f64)) -> ([f64; 3], f64) {
+    let lat = 0.5 * (a.0 + b.0);
+    let mut dl = b.1 - a.1;
+    if dl > 180.0 {
+        dl -= 360.0;
+    } else if dl < -180.0 {
+        dl += 360.0;
+    }
+    inscribed_ball(lat, a.1 + 0.5 * dl)
 }
 
 /// The longest geodesic whose chord is `d_m` metres (Schur's comparison theorem with the

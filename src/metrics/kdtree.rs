@@ -52,15 +52,6 @@ impl Node {
     }
 }
 
-/// A leaf of the tree: its points, their bounding box, and their one label (or `None` when
-/// they carry several).
-pub(crate) struct Leaf<'a> {
-    pub(crate) items: &'a [u32],
-    pub(crate) lo: [f64; 3],
-    pub(crate) hi: [f64; 3],
-    pub(crate) label: Option<u32>,
-}
-
 impl KdTree {
     /// A tree over points `items` (indices into `xyz` and `label`).
     pub(crate) fn new(xyz: &[[f64; 3]], label: &[u32], mut items: Vec<u32>) -> KdTree {
@@ -123,14 +114,13 @@ impl KdTree {
 }
 
 impl KdTree {
-    /// Every leaf, in tree order (points close in space come close in this order).
-    pub(crate) fn leaves(&self) -> impl Iterator<Item = Leaf<'_>> + '_ {
-        self.nodes.iter().filter(|n| n.kids[0] == 0).map(|n| Leaf {
-            items: &self.items[n.start as usize..n.end as usize],
-            lo: n.lo,
-            hi: n.hi,
-            label: (n.label != MIXED).then_some(n.label),
-        })
+    /// The points of every leaf, in tree order (points close in space come close in this
+    /// order).
+    pub(crate) fn leaves(&self) -> impl Iterator<Item = &[u32]> + '_ {
+        self.nodes
+            .iter()
+            .filter(|n| n.kids[0] == 0)
+            .map(|n| &self.items[n.start as usize..n.end as usize])
     }
 
     /// Like [`KdTree::search`], for a query box `lo..hi` instead of a point: visits every

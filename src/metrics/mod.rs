@@ -30,6 +30,7 @@ mod figures;
 mod geodesics;
 mod kdtree;
 mod laea;
+mod nearest;
 mod range;
 mod reach;
 mod structure;

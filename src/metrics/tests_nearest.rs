@@ -83,3 +83,48 @@ fn nearest_equals_brute_force_near_and_far() {
         );
     }
 }
+
+#[test]
+fn nearest_equals_brute_force_thousands_of_kilometres_apart() {
+    // Two windows of fine cells (0.02 degrees, about 2 km) at opposite corners of a 120 x 60
+    // degree grid, over 12,000 km apart, records only in the first: the nearest occupied
+    // patch of every patch of the second lies in the first, where the rolling-ball bound
+    // falls short by tens of kilometres and the triangle rule settles most pairs (about
+    // 1,800 here, counted by hand with a print).
+    let (w, h) = (6000, 3000);
+    let mut s = 11u64;
+    let mut rnd = || {
+        s = s
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        (s >> 33) as u32
+    };
+    let mut classes = vec![0u8; w * h];
+    let mut records: BTreeMap<usize, Vec<(usize, u64)>> = BTreeMap::new();
+    for (r0, c0) in [(0, 0), (h - 24, w - 24)] {
+        for r in r0..r0 + 24 {
+            for col in c0..c0 + 24 {
+                let k = match rnd() % 8 {
+                    0 => 1,
+                    1 => 2,
+                    _ => 0,
+                };
+                classes[r * w + col] = k;
+                if k == 1 && r0 == 0 && rnd() % 3 == 0 {
+                    records.entry(r).or_default().push((col, 1));
+                }
+            }
+        }
+    }
+    let grid = GridSpec::lonlat(w, h, -60.0, 50.0, 0.02);
+    let model =
+        RangeModel::from_class_grid(&grid, Connectivity::Eight, &classes, &records).unwrap();
+    let c = Corners::from_model(&model).unwrap();
+    let n = model.patches().len();
+    assert!(n > 20, "{n} patches");
+    let occupied = |p: usize| model.patches()[p].records > 0;
+    let far = nearest(&c, occupied);
+    assert!(far.iter().flatten().any(|&d| d > 12000.0), "{far:?}");
+    assert_eq!(far, brute_force(&c, n, occupied));
+    assert_eq!(nearest(&c, |_| true), brute_force(&c, n, |_| true));
+}

@@ -102,19 +102,25 @@ fn metrics_of(
     let c = Corners::from_model(model)?;
     clock.lap("boundary corners");
 
-    if n_occ > 0 {
+    // The modelled figures and the distances between patches are independent: they run
+    // side by side (the distances on their own thread; both also spread over the cores), so
+    // the serial parts of one fill the cores the other leaves idle.
+    let mut modelled = || -> Result<()> {
+        if n_occ == 0 {
+            metrics.notes.push(
+                "no class-1 patch holds a record, so there is no occupied modelled range (no modelled EOO or AOO)".into(),
+            );
+            return Ok(());
+        }
         let cell_km = opts.aoo_cell_km;
         let hull_pts = c.lonlat_of(|p| occupied[p]);
-        clock.lap("modelled hull points");
         let aoo_fig = super::aoo_runs::count_runs(
             model,
             &aoo_grid,
             &|id| occupied[id as usize - 1],
             &hull_pts,
         )?;
-        clock.lap("modelled AOO");
         let mut fig = figures(&hull_pts, &aoo_fig, cell_km, "occupied modelled range");
-        clock.lap("modelled hull");
         let (occ_area, occ_cells) = (0..n).filter(|&i| occupied[i]).fold((0.0, 0u64), |a, i| {
             (a.0 + area_km2(i), a.1 + patches[i].cells)
         });
@@ -131,23 +137,28 @@ fn metrics_of(
             eoo_points: "the boundary corners of the occupied class-1 patches".into(),
             figures: fig,
         });
-    } else {
-        metrics.notes.push(
-            "no class-1 patch holds a record, so there is no occupied modelled range (no modelled EOO or AOO)".into(),
-        );
-    }
-
-    let near = reach::nearest(&c, |_| true);
-    clock.lap("nearest patch");
-    let near_occ = reach::nearest(&c, |p| occupied[p]);
-    clock.lap("nearest occupied patch");
-    let near_range = if with_range_distance {
-        reach::nearest(&c, |p| patches[p].class == class::INSIDE)
-    } else {
-        vec![None; n]
+        Ok(())
     };
-    clock.lap("nearest class-1 patch");
-    clock.lap("nearest patches");
+    let distances = || {
+        let near = reach::nearest(&c, |_| true);
+        let near_occ = reach::nearest(&c, |p| occupied[p]);
+        let near_range = if with_range_distance {
+            reach::nearest(&c, |p| patches[p].class == class::INSIDE)
+        } else {
+            vec![None; n]
+        };
+        (near, near_occ, near_range)
+    };
+    let (done, (near, near_occ, near_range)) = std::thread::scope(|scope| {
+        let far = scope.spawn(distances);
+        let done = modelled();
+        (
+            done,
+            far.join().expect("the distance search does not panic"),
+        )
+    });
+    done?;
+    clock.lap("modelled AOO and hull, with the nearest patches beside them");
     let jumps = opts.gap_km.map(|g| reach::reach(&c, |p| occupied[p], g));
     clock.lap("reach");
     let cols: Vec<PatchMetrics> = (0..n)

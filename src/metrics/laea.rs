@@ -35,8 +35,10 @@ pub(crate) struct Laea {
     d: f64,
     sin_b1: f64,
     cos_b1: f64,
-    lon0: f64,
     gt: [f64; 6],
+    /// Per column of the grid, the sine and cosine of its centre's longitude difference
+    /// (the same for every row, so computed once).
+    sin_cos_dlon: Vec<(f64, f64)>,
 }
 
 /// Snyder's q (eq. 3-12) for sin(phi).
@@ -45,7 +47,9 @@ fn q(e: f64, e2: f64, s: f64) -> f64 {
 }
 
 impl Laea {
-    fn new(lon0: f64, lat0: f64, gt: [f64; 6]) -> Laea {
+    /// The projection centred at (`lon0`, `lat0`) for a grid of `width` columns with
+    /// geotransform `gt`.
+    fn new(lon0: f64, lat0: f64, gt: [f64; 6], width: usize) -> Laea {
         let ell = Ellipsoid::WGS84;
         let (a, e2) = (ell.a, ell.e2());
         let e = e2.sqrt();
@@ -56,6 +60,12 @@ impl Laea {
         let cos_b1 = (1.0 - sin_b1 * sin_b1).sqrt();
         let m1 = lat0.to_radians().cos() / (1.0 - e2 * s1 * s1).sqrt();
         let d = a * m1 / (rq * cos_b1);
+        let sin_cos_dlon = (0..width)
+            .map(|c| {
+                let lon = gt[0] + (c as f64 + 0.5) * gt[1];
+                (lon - lon0).to_radians().sin_cos()
+            })
+            .collect();
         Laea {
             e,
             e2,
@@ -64,8 +74,8 @@ impl Laea {
             d,
             sin_b1,
             cos_b1,
-            lon0,
             gt,
+            sin_cos_dlon,
         }
     }
 
@@ -73,10 +83,8 @@ impl Laea {
     pub(crate) fn row_at(&self, lat: f64, cols: &[u32], out: &mut Vec<(f64, f64)>) {
         let sin_b = (q(self.e, self.e2, lat.to_radians().sin()) / self.qp).clamp(-1.0, 1.0);
         let cos_b = (1.0 - sin_b * sin_b).sqrt();
-        let (x0, dx) = (self.gt[0], self.gt[1]);
         for &c in cols {
-            let lon = x0 + (c as f64 + 0.5) * dx;
-            let (sl, cl) = (lon - self.lon0).to_radians().sin_cos();
+            let (sl, cl) = self.sin_cos_dlon[c as usize];
             let b = self.rq * (2.0 / (1.0 + self.sin_b1 * sin_b + self.cos_b1 * cos_b * cl)).sqrt();
             out.push((
                 b * self.d * cos_b * sl,
@@ -91,7 +99,7 @@ impl Laea {
 /// x / D and y D are the spherical LAEA of radius Rq on the authalic sphere, whose image is the
 /// disk of radius 2 Rq (Snyder 1987, eqs. 24-10 to 24-14). D = 1 at the poles.
 pub(crate) fn disk_half_widths(lat0: f64) -> (f64, f64) {
-    let l = Laea::new(0.0, lat0, [0.0; 6]);
+    let l = Laea::new(0.0, lat0, [0.0; 6], 0);
     let d = if l.d.is_finite() && l.d > 0.0 {
         l.d
     } else {
@@ -111,6 +119,7 @@ impl RowProjector {
                 lon0,
                 lat0,
                 grid.geo_transform,
+                grid.width,
             )));
         }
         Ok(RowProjector::Proj {

@@ -12,10 +12,15 @@ use crate::{Error, Result};
 use gdal::{Dataset, GdalOpenFlags};
 use std::collections::{BTreeMap, HashMap};
 use std::path::Path;
+use std::sync::atomic::{AtomicUsize, Ordering};
 use std::sync::{Arc, Mutex};
 
-/// At most this many bytes of decoded blocks are kept for the pass.
+/// At most this many bytes of decoded blocks are kept for the pass, for all rasters of the
+/// process together (a batch runs several species at once).
 const CACHE_BYTES: usize = 256 << 20;
+
+/// Bytes of decoded blocks kept now, in every [`TileCache`] of the process.
+static KEPT: AtomicUsize = AtomicUsize::new(0);
 
 /// A decoded block, in the type the pass reads.
 pub(crate) enum TileValues {
@@ -52,10 +57,16 @@ impl std::fmt::Debug for TileCache {
 impl TileCache {
     /// Keep the block at (`y0`, `x0`) unless the cache is full.
     fn put(&self, y0: usize, x0: usize, values: TileValues) {
+        let n = values.bytes();
+        if KEPT.fetch_add(n, Ordering::Relaxed) + n > CACHE_BYTES {
+            KEPT.fetch_sub(n, Ordering::Relaxed);
+            return;
+        }
         let mut t = self.0.lock().unwrap_or_else(|e| e.into_inner());
-        if t.bytes + values.bytes() <= CACHE_BYTES {
-            t.bytes += values.bytes();
-            t.by_origin.insert((y0, x0), values);
+        t.bytes += n;
+        if let Some(old) = t.by_origin.insert((y0, x0), values) {
+            t.bytes -= old.bytes();
+            KEPT.fetch_sub(old.bytes(), Ordering::Relaxed);
         }
     }
 
@@ -67,7 +78,15 @@ impl TileCache {
         }
         let v = t.by_origin.remove(&(y0, x0))?;
         t.bytes -= v.bytes();
+        KEPT.fetch_sub(v.bytes(), Ordering::Relaxed);
         Some(v)
+    }
+}
+
+impl Drop for Tiles {
+    /// Blocks never taken (the pass stopped early) give their bytes back to the budget.
+    fn drop(&mut self) {
+        KEPT.fetch_sub(self.bytes, Ordering::Relaxed);
     }
 }
 
@@ -225,4 +244,25 @@ pub(super) fn is_data_value(v: f64, nodata: Option<f64>, fits_f32: bool) -> bool
                 v != nd
             }
         })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // Bookkeeping only (no outside source): a kept block comes back once, with its values;
+    // a block larger than the whole budget is never kept.
+    #[test]
+    fn kept_blocks_are_taken_once_and_the_budget_holds() {
+        let cache = TileCache::default();
+        cache.put(256, 512, TileValues::F32(vec![0.25, 0.5]));
+        match cache.take(256, 512) {
+            Some(TileValues::F32(v)) => assert_eq!(v, [0.25, 0.5]),
+            _ => panic!("the block was kept"),
+        }
+        assert!(cache.take(256, 512).is_none(), "taken once");
+        assert!(cache.take(0, 0).is_none(), "never kept");
+        cache.put(0, 0, TileValues::F64(vec![0.0; CACHE_BYTES / 8 + 1]));
+        assert!(cache.take(0, 0).is_none(), "over the budget");
+    }
 }

@@ -26,17 +26,22 @@ pub(crate) fn traditional(mut srs: SpatialRef) -> SpatialRef {
 /// A CRS as the user typed it (EPSG code, WKT, PROJ string, ...), x first. `what` names where
 /// the text came from (an option such as "--records-crs", or a file), for errors.
 pub(crate) fn from_definition(text: &str, what: &str) -> Result<SpatialRef> {
+    from_definition_like(text, what, "EPSG:4326")
+}
+
+/// [`from_definition`], whose errors suggest `example` (a CRS of the kind `what` takes).
+pub(crate) fn from_definition_like(text: &str, what: &str, example: &str) -> Result<SpatialRef> {
     let def = text.trim();
     if def.is_empty() {
         return Err(Error::Crs {
             what: what.into(),
-            reason: "empty CRS; give one such as EPSG:4326".into(),
+            reason: format!("empty CRS; give one such as {example}"),
         });
     }
     let srs = SpatialRef::from_definition(def).map_err(|e| Error::Crs {
         what: what.into(),
         reason: format!(
-            "'{def}' is not a CRS GDAL/PROJ understands ({e}); give one such as EPSG:4326, \
+            "'{def}' is not a CRS GDAL/PROJ understands ({e}); give one such as {example}, \
              a WKT string or a PROJ string"
         ),
     })?;

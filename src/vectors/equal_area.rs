@@ -13,7 +13,7 @@
 //! (0 when the CRS gives none), so no part crosses the edge of the map.
 
 use crate::area::{AreaMethod, CellAreas};
-use crate::crs::{from_definition, grid_srs, proj_parm, transform, wgs84};
+use crate::crs::{from_definition_like, grid_srs, proj_parm, transform, wgs84};
 use crate::{Error, GridSpec, Result};
 use gdal::spatial_ref::SpatialRef;
 
@@ -127,7 +127,9 @@ pub(crate) fn choose(spec: &VectorCrs, grid: &GridSpec) -> Result<Target> {
 
 /// `text` as a CRS; a CRS GDAL does not understand is a bad `--vector-crs` value.
 fn from_text(text: &str) -> Result<SpatialRef> {
-    from_definition(text, "--vector-crs").map_err(|e| match e {
+    // The option takes equal-area projections only: the example is one (EPSG:6933, WGS 84 /
+    // NSIDC EASE-Grid 2.0 Global, cylindrical equal-area; EPSG registry).
+    from_definition_like(text, "--vector-crs", "EPSG:6933").map_err(|e| match e {
         Error::Crs { reason, .. } => crs_err(reason),
         other => other,
     })

@@ -129,4 +129,7 @@ fn equal_area_choice() {
         .unwrap()
         .to_string();
     assert!(e.contains("--vector-crs"), "{e}");
+    // The suggested CRS must be one the option accepts, not a geographic one.
+    assert!(e.contains("EPSG:6933") && !e.contains("EPSG:4326"), "{e}");
+    assert!(choose(&VectorCrs::Given("EPSG:6933".into()), &g).is_ok());
 }

@@ -123,13 +123,7 @@ impl Consumer {
         let m_cells = if whole {
             w as u64 - nd
         } else {
-            // Cells in M, less the nodata ones among them.
-            let in_m = self
-                .in_m
-                .chunks(255)
-                .map(|c| c.iter().fold(0u8, |n, &m| n + m as u8) as u64)
-                .sum::<u64>();
-            in_m - count_eq_in(cls, &self.in_m, class::NODATA)
+            count_in(cls, &self.in_m, |k| k != class::NODATA)
         };
         for (total, n) in self.cells.iter_mut().zip(counts) {
             *total += n;
@@ -248,12 +242,18 @@ fn count_eq(bins: &[u8], b: u8) -> u64 {
 
 /// Cells equal to `b` whose `in_m` is set, counted as in [`count_eq`].
 fn count_eq_in(bins: &[u8], in_m: &[bool], b: u8) -> u64 {
-    bins.chunks(255)
+    count_in(bins, in_m, |x| x == b)
+}
+
+/// Cells satisfying `keep` whose `in_m` is set, counted as in [`count_eq`].
+fn count_in(cells: &[u8], in_m: &[bool], keep: impl Fn(u8) -> bool) -> u64 {
+    cells
+        .chunks(255)
         .zip(in_m.chunks(255))
         .map(|(c, m)| {
             c.iter()
                 .zip(m)
-                .fold(0u8, |n, (&x, &m)| n + ((x == b) & m) as u8) as u64
+                .fold(0u8, |n, (&x, &m)| n + (keep(x) & m) as u8) as u64
         })
         .sum()
 }

@@ -188,21 +188,15 @@ fn rerun_reproduces_byte_for_byte_and_refuses_a_changed_input_and_verify_catches
     batch(&out, &["--shard", "0/3"]);
     // A batch species (shard 0 holds row 0, g1_s1_m) and the demo run.
     let demo_run = t.path().join("demo");
-    let o = run(&[
-        "range",
-        "--suitability",
-        demo("suitability.tif").to_str().unwrap(),
-        "--records",
-        demo("records.csv").to_str().unwrap(),
-        "--omission",
-        "5",
-        "--accessible",
-        demo("accessible.geojson").to_str().unwrap(),
-        "--vectors",
-        "--out",
-        demo_run.to_str().unwrap(),
-        "--quiet",
-    ]);
+    let o = areal()
+        .args(demo_range(&[
+            "--vectors",
+            "--out",
+            demo_run.to_str().unwrap(),
+            "--quiet",
+        ]))
+        .output()
+        .unwrap();
     assert!(o.status.success(), "{}", stderr(&o));
     for src in [out.join("g1_s1_m"), demo_run.clone()] {
         let again = t.path().join(format!(

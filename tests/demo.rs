@@ -5,24 +5,10 @@ mod common;
 use common::*;
 use gdal::Dataset;
 
-/// `areal range` on the demo with E = 5 % and its M, into `out`.
-fn demo_args(out: &str) -> Vec<String> {
-    let mut args: Vec<String> = ["range", "--suitability"].map(String::from).to_vec();
-    args.push(demo("suitability.tif").to_str().unwrap().into());
-    args.extend([
-        "--records".into(),
-        demo("records.csv").to_str().unwrap().into(),
-    ]);
-    args.extend(["--omission", "5", "--accessible"].map(String::from));
-    args.push(demo("accessible.geojson").to_str().unwrap().into());
-    args.extend(["--out".into(), out.into()]);
-    args
-}
-
 fn run_demo(dir: &std::path::Path) -> serde_json::Value {
     let out = dir.join("out");
     let o = areal()
-        .args(demo_args(out.to_str().unwrap()))
+        .args(demo_range(&["--out", out.to_str().unwrap()]))
         .output()
         .unwrap();
     assert!(o.status.success(), "demo failed: {}", stderr(&o));
@@ -170,7 +156,7 @@ fn bare_folder_names_work_relative_to_the_working_folder() {
     run_demo(tmp.path());
     let o = areal()
         .current_dir(tmp.path())
-        .args(demo_args("run"))
+        .args(demo_range(&["--out", "run"]))
         .output()
         .unwrap();
     assert!(o.status.success(), "bare --out failed: {}", stderr(&o));

@@ -7,23 +7,17 @@ use common::*;
 
 fn demo_summary(dir: &std::path::Path) -> serde_json::Value {
     let out = dir.join("out");
-    let o = run(&[
-        "range",
-        "--suitability",
-        demo("suitability.tif").to_str().unwrap(),
-        "--records",
-        demo("records.csv").to_str().unwrap(),
-        "--omission",
-        "5",
-        "--accessible",
-        demo("accessible.geojson").to_str().unwrap(),
-        "--gap-km",
-        "20",
-        "--min-patch-km2",
-        "10",
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = areal()
+        .args(demo_range(&[
+            "--gap-km",
+            "20",
+            "--min-patch-km2",
+            "10",
+            "--out",
+            out.to_str().unwrap(),
+        ]))
+        .output()
+        .unwrap();
     assert!(o.status.success(), "demo failed: {}", stderr(&o));
     // json() validates summary.json against the committed schema.
     json(&out.join("summary.json"))

@@ -48,6 +48,24 @@ pub fn run(args: &[&str]) -> Output {
     areal().args(args).output().expect("areal runs")
 }
 
+/// `areal range` on the demo: its raster, records, E = 5 % and its M, then `extra`.
+pub fn demo_range(extra: &[&str]) -> Vec<String> {
+    let path = |name: &str| demo(name).to_str().unwrap().to_string();
+    let mut args: Vec<String> = vec![
+        "range".into(),
+        "--suitability".into(),
+        path("suitability.tif"),
+        "--records".into(),
+        path("records.csv"),
+        "--omission".into(),
+        "5".into(),
+        "--accessible".into(),
+        path("accessible.geojson"),
+    ];
+    args.extend(extra.iter().map(|s| s.to_string()));
+    args
+}
+
 /// The repository's demo-data folder.
 pub fn demo(name: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR"))

@@ -132,13 +132,23 @@ fn run_demo_at(out: &std::path::Path, e: f64) -> serde_json::Value {
 }
 
 fn run_demo_with(out: &std::path::Path, e: f64, m: &std::path::Path) -> serde_json::Value {
+    run_demo_with_args(out, e, m, &[])
+}
+
+fn run_demo_with_args(
+    out: &std::path::Path,
+    e: f64,
+    m: &std::path::Path,
+    extra: &[&str],
+) -> serde_json::Value {
     let e = e.to_string();
-    let o = run(&[
+    let (suit, recs) = (demo("suitability.tif"), demo("records.csv"));
+    let mut args = vec![
         "range",
         "--suitability",
-        demo("suitability.tif").to_str().unwrap(),
+        suit.to_str().unwrap(),
         "--records",
-        demo("records.csv").to_str().unwrap(),
+        recs.to_str().unwrap(),
         "--omission",
         &e,
         "--accessible",
@@ -148,7 +158,9 @@ fn run_demo_with(out: &std::path::Path, e: f64, m: &std::path::Path) -> serde_js
         "--out",
         out.to_str().unwrap(),
         "--quiet",
-    ]);
+    ];
+    args.extend_from_slice(extra);
+    let o = run(&args);
     assert!(o.status.success(), "{}", stderr(&o));
     json(&out.join("summary.json"))
 }
@@ -243,13 +255,10 @@ fn sensitivity_rows_equal_an_independent_recount() {
     );
 }
 
-#[test]
-fn with_m_edges_off_the_cell_centres_every_row_equals_the_recount_inside_m_too() {
-    // An M polygon (made here) whose vertices sit at odd coordinates, so no cell centre lies
-    // on an edge and GDAL's rasteriser (cell centres) and areal must agree on every cell: the
-    // recount is then independent for the areas inside M as well.
-    let t = tempfile::tempdir().unwrap();
-    let m = t.path().join("m.geojson");
+/// An M polygon whose vertices sit at odd coordinates, so that no cell centre of the demo
+/// grid lies on an edge (written into `dir`).
+fn m_off_centres(dir: &std::path::Path) -> std::path::PathBuf {
+    let m = dir.join("m.geojson");
     std::fs::write(
         &m,
         r#"{"type":"FeatureCollection","features":[{"type":"Feature","properties":{},
@@ -258,6 +267,16 @@ fn with_m_edges_off_the_cell_centres_every_row_equals_the_recount_inside_m_too()
         [11.8089,43.8791],[10.4133,43.8437],[10.0719,42.7093],[10.1234,40.2171]]]}}]}"#,
     )
     .unwrap();
+    m
+}
+
+#[test]
+fn with_m_edges_off_the_cell_centres_every_row_equals_the_recount_inside_m_too() {
+    // An M polygon (made here) whose vertices sit at odd coordinates, so no cell centre lies
+    // on an edge and GDAL's rasteriser (cell centres) and areal must agree on every cell: the
+    // recount is then independent for the areas inside M as well.
+    let t = tempfile::tempdir().unwrap();
+    let m = m_off_centres(t.path());
     let out = t.path().join("out");
     let s = run_demo_with(&out, 5.0, &m);
     let r = Recount::demo_with_m(&out, &m);
@@ -279,4 +298,31 @@ fn with_m_edges_off_the_cell_centres_every_row_equals_the_recount_inside_m_too()
             got("area_km2_inside_accessible")
         );
     }
+}
+
+#[test]
+fn counted_per_cell_or_per_row_the_sensitivity_is_the_same_to_the_bit() {
+    // The decode workers count the candidates per row when they can apply M themselves (a
+    // polygon alone); M made of two parts is applied by the consumer, and the candidates
+    // are then counted per cell. A 5,000 km record buffer covers the whole demo grid (about
+    // 3 x 4 degrees), so polygon and polygon-with-buffer are the same M: every figure must
+    // agree exactly, and both with the independent recount.
+    let t = tempfile::tempdir().unwrap();
+    let m = m_off_centres(t.path());
+    let per_row = run_demo_with(&t.path().join("rows"), 5.0, &m);
+    let per_cell = run_demo_with_args(&t.path().join("cells"), 5.0, &m, &["--buffer-km", "5000"]);
+    let r = Recount::demo_with_m(&t.path().join("rows"), &m);
+    let (a, b) = (&per_row["sensitivity"], &per_cell["sensitivity"]);
+    assert!(a.as_array().is_some_and(|v| v.len() >= 5), "{a}");
+    assert_eq!(a, b, "per-row and per-cell sensitivity");
+    for row in a.as_array().unwrap() {
+        let e = row["omission_percent"].as_f64().unwrap();
+        let (_, _, all, inside) = r.at(e);
+        assert!(rel(row["area_km2_suitable"].as_f64().unwrap(), all) <= 1e-9);
+        assert!(rel(row["area_km2_inside_accessible"].as_f64().unwrap(), inside) <= 1e-9);
+    }
+    assert_eq!(
+        per_row["area_km2"], per_cell["area_km2"],
+        "the same M gives the same areas"
+    );
 }

@@ -71,6 +71,7 @@ pub(crate) struct PointBuffer {
     sigma_in: f64,
     intervals: Vec<(usize, usize)>,
     sides: Vec<Side>,
+    row_out: Vec<(usize, usize)>,
 }
 
 /// The columns of one side of a point's circle on one row: column `c0 + step * j` for
@@ -126,6 +127,7 @@ impl PointBuffer {
             sigma_in: d_m / m_max() * (1.0 - 1e-9),
             intervals: Vec::new(),
             sides: Vec::new(),
+            row_out: Vec::new(),
         }
     }
 
@@ -160,8 +162,27 @@ impl PointBuffer {
     /// point, on a grid whose x is longitude and y latitude (degrees). Other entries are
     /// left as they are.
     pub(crate) fn fill_row_lonlat_grid(&mut self, grid: &GridSpec, row: usize, out: &mut [bool]) {
+        let mut iv = std::mem::take(&mut self.row_out);
+        self.row_intervals_lonlat_grid(grid, row, &mut iv);
+        let n = out.len();
+        for &(a, b) in &iv {
+            out[a.min(n)..b.min(n)].fill(true);
+        }
+        self.row_out = iv;
+    }
+
+    /// The columns of `row` whose centres are within D of a point, on a grid whose x is
+    /// longitude and y latitude (degrees), as sorted, disjoint, half-open intervals `[a, b)`
+    /// (the one definition behind [`PointBuffer::fill_row_lonlat_grid`]).
+    pub(crate) fn row_intervals_lonlat_grid(
+        &mut self,
+        grid: &GridSpec,
+        row: usize,
+        out: &mut Vec<(usize, usize)>,
+    ) {
+        out.clear();
         let lat = grid.row_centre_y(row);
-        let w = grid.width.min(out.len());
+        let w = grid.width;
         if w == 0 || !lat.is_finite() || lat.abs() > 90.0 {
             return;
         }
@@ -222,16 +243,13 @@ impl PointBuffer {
             }
         }
         self.sides = sides;
-        intervals.sort_unstable();
-        let mut filled_to = 0usize; // first column not yet filled
-        for &(a, b) in &intervals {
-            let a = a.max(filled_to);
-            let b = b.min(w - 1);
-            if a <= b {
-                out[a..=b].iter_mut().for_each(|v| *v = true);
-                filled_to = b + 1;
-            }
-        }
+        out.extend(
+            intervals
+                .iter()
+                .filter(|&&(a, _)| a < w)
+                .map(|&(a, b)| (a, b.min(w - 1) + 1)),
+        );
+        super::merge_half_open(out);
         self.intervals = intervals;
     }
 

@@ -56,19 +56,64 @@ struct HullPart {
     edge: Option<PointBuffer>,
 }
 
-/// A thread's own copy of a record-buffer M on a lon/lat grid (see
-/// [`AccessMask::row_filler`]); fills rows exactly as [`AccessMask::fill_row`] does.
+/// A thread's own copy of M, for the M that can be cut into rows without a coordinate
+/// transform: a polygon alone (any grid) or a record buffer alone on a lon/lat grid (see
+/// [`AccessMask::row_filler`]). Gives each row exactly as [`AccessMask::fill_row`] does.
 #[derive(Clone)]
 pub struct RowFiller {
     grid: GridSpec,
-    buffer: PointBuffer,
+    part: FillerPart,
+    intervals: Vec<(usize, usize)>,
+}
+
+#[derive(Clone)]
+enum FillerPart {
+    Polygon(Scanline),
+    Buffer(Box<PointBuffer>),
 }
 
 impl RowFiller {
+    /// The columns of `row` whose centres lie in M, as sorted, disjoint, half-open
+    /// intervals `[a, b)`.
+    pub fn row_intervals(&mut self, row: usize, out: &mut Vec<(usize, usize)>) {
+        match &mut self.part {
+            FillerPart::Polygon(s) => s.row_intervals(row, out),
+            FillerPart::Buffer(b) => b.row_intervals_lonlat_grid(&self.grid, row, out),
+        }
+    }
+
     /// Set `out[col] = true` for each cell of `row` whose centre lies in M, false otherwise.
     pub fn fill_row(&mut self, row: usize, out: &mut [bool]) {
-        out.iter_mut().for_each(|v| *v = false);
-        self.buffer.fill_row_lonlat_grid(&self.grid, row, out);
+        let mut iv = std::mem::take(&mut self.intervals);
+        self.row_intervals(row, &mut iv);
+        fill_from_intervals(&iv, out);
+        self.intervals = iv;
+    }
+}
+
+/// Sort half-open column intervals and merge those that overlap or touch, in place.
+fn merge_half_open(v: &mut Vec<(usize, usize)>) {
+    v.retain(|&(a, b)| a < b);
+    v.sort_unstable();
+    let mut n = 0;
+    for i in 0..v.len() {
+        let (a, b) = v[i];
+        if n > 0 && a <= v[n - 1].1 {
+            v[n - 1].1 = v[n - 1].1.max(b);
+        } else {
+            v[n] = (a, b);
+            n += 1;
+        }
+    }
+    v.truncate(n);
+}
+
+/// `out[c]` = whether column c lies in one of the half-open `intervals`.
+fn fill_from_intervals(intervals: &[(usize, usize)], out: &mut [bool]) {
+    out.fill(false);
+    let n = out.len();
+    for &(a, b) in intervals {
+        out[a.min(n)..b.min(n)].fill(true);
     }
 }
 
@@ -313,16 +358,22 @@ impl AccessMask {
         self.polygon.as_ref().map(|p| &p.polygons)
     }
 
-    /// A copy of M that another thread can fill rows with, when M is a record buffer alone
-    /// on a lon/lat grid (the costly case: it then runs on every core). `None` otherwise.
+    /// A copy of M that another thread can cut rows from, when M is a polygon alone or a
+    /// record buffer alone on a lon/lat grid (the decode workers then apply it). `None`
+    /// otherwise (no M, or an M that needs coordinate transforms or several parts).
     pub fn row_filler(&self) -> Option<RowFiller> {
-        match (&self.polygon, &self.buffer, &self.hull) {
-            (None, Some(b), None) if self.grid.geographic => Some(RowFiller {
-                grid: self.grid.clone(),
-                buffer: b.clone(),
-            }),
-            _ => None,
-        }
+        let part = match (&self.polygon, &self.buffer, &self.hull) {
+            (Some(p), None, None) => FillerPart::Polygon(p.scan.clone()),
+            (None, Some(b), None) if self.grid.geographic => {
+                FillerPart::Buffer(Box::new(b.clone()))
+            }
+            _ => return None,
+        };
+        Some(RowFiller {
+            grid: self.grid.clone(),
+            part,
+            intervals: Vec::new(),
+        })
     }
 
     /// Set `out[col] = true` for each cell of `row` whose centre lies in M, false otherwise.

@@ -276,6 +276,7 @@ fn overlaps_grid(mp: &MultiPolygon<f64>, grid: &GridSpec) -> bool {
 }
 
 /// One edge in pixel space, `v_top < v_bot`.
+#[derive(Clone)]
 struct Edge {
     v_top: f64,
     v_bot: f64,
@@ -285,6 +286,7 @@ struct Edge {
 }
 
 /// Row-by-row scanline rasteriser of polygons on a grid (see the module doc).
+#[derive(Clone)]
 pub(crate) struct Scanline {
     edges: Vec<Edge>,
     next: usize,
@@ -293,6 +295,7 @@ pub(crate) struct Scanline {
     width: usize,
     wraps: bool,
     crossings: Vec<(u32, f64)>,
+    intervals: Vec<(usize, usize)>,
 }
 
 impl Scanline {
@@ -330,12 +333,22 @@ impl Scanline {
             width: grid.width,
             wraps: grid.wraps_antimeridian(),
             crossings: Vec::new(),
+            intervals: Vec::new(),
         }
     }
 
     /// Set `out[c]` to whether the centre of cell (row, c) is inside the polygons.
     pub(crate) fn fill_row(&mut self, row: usize, out: &mut [bool]) {
-        out.iter_mut().for_each(|v| *v = false);
+        let mut iv = std::mem::take(&mut self.intervals);
+        self.row_intervals(row, &mut iv);
+        super::fill_from_intervals(&iv, out);
+        self.intervals = iv;
+    }
+
+    /// The columns of `row` whose centres are inside the polygons, as sorted, disjoint,
+    /// half-open intervals `[a, b)` (the one definition behind [`Scanline::fill_row`]).
+    pub(crate) fn row_intervals(&mut self, row: usize, out: &mut Vec<(usize, usize)>) {
+        out.clear();
         if self.last_row.is_some_and(|r| row < r) {
             self.next = 0;
             self.active.clear();
@@ -358,7 +371,7 @@ impl Scanline {
         }
         self.crossings
             .sort_by(|a, b| a.0.cmp(&b.0).then(a.1.total_cmp(&b.1)));
-        let w = self.width.min(out.len()) as i64;
+        let w = self.width as i64;
         let mut i = 0;
         while i + 1 < self.crossings.len() {
             let (pa, ua) = self.crossings[i];
@@ -373,21 +386,23 @@ impl Scanline {
             if self.wraps {
                 let n = (c_end - c_first).min(w as f64);
                 if n > 0.0 {
-                    let c_first = c_first as i64;
-                    for c in c_first..c_first + n as i64 {
-                        out[c.rem_euclid(w) as usize] = true;
+                    // Columns c_first .. c_first + n taken modulo the width: one or two pieces.
+                    let a = (c_first as i64).rem_euclid(w);
+                    let b = a + n as i64;
+                    out.push((a as usize, b.min(w) as usize));
+                    if b > w {
+                        out.push((0, (b - w) as usize));
                     }
                 }
             } else {
                 let a = c_first.max(0.0);
                 let b = c_end.min(w as f64);
                 if a < b {
-                    out[a as usize..b as usize]
-                        .iter_mut()
-                        .for_each(|x| *x = true);
+                    out.push((a as usize, b as usize));
                 }
             }
             i += 2;
         }
+        super::merge_half_open(out);
     }
 }

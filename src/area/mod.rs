@@ -265,6 +265,12 @@ impl CellAreas {
         Ok(areas)
     }
 
+    /// Whether every cell of a row has the same area (lon/lat grids and equal-area
+    /// projections): [`CellAreas::row`] then always gives [`RowAreas::Uniform`].
+    pub fn per_row(&self) -> bool {
+        !matches!(self.engine, Engine::Corners(_))
+    }
+
     /// As [`CellAreas::row`], but on the corner method a cell whose boundary leaves the
     /// projection's domain gets the area NaN instead of an error. Such cells hold no data in a
     /// valid raster; a caller that meets NaN for a data cell must report it.

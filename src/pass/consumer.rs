@@ -7,7 +7,7 @@ use crate::access::AccessMask;
 use crate::area::{CellAreas, RowAreas};
 use crate::model::{ModelBuilder, RowM, Totals};
 use crate::patches::Neumaier;
-use crate::raster_io::{class, SuitabilityRaster};
+use crate::raster_io::{class, RowTally, SuitabilityRaster, Tally};
 use crate::{Error, GridSpec, Result};
 use std::collections::BTreeMap;
 
@@ -55,7 +55,7 @@ impl Consumer {
         y0: usize,
         codes: Vec<u8>,
         binary: bool,
-        bins: &[u8],
+        tally: &Tally,
         access: &mut AccessMask,
         areas: &mut CellAreas,
         rows_records: &BTreeMap<usize, Vec<(usize, usize)>>,
@@ -83,8 +83,12 @@ impl Consumer {
             }
             let row_areas = areas.row_allow_outside(row)?;
             self.measure(row, cls, &row_areas, whole, raster)?;
-            if self.candidates > 0 {
-                self.measure_bins(&bins[r * w..(r + 1) * w], &row_areas, whole);
+            match tally {
+                Tally::Bins(bins) => {
+                    self.measure_bins(&bins[r * w..(r + 1) * w], &row_areas, whole)
+                }
+                Tally::Rows(counts) => self.measure_row_counts(counts, r, &row_areas)?,
+                Tally::None => {}
             }
             self.rec_counts.clear();
             if let Some(list) = rows_records.get(&row) {
@@ -198,6 +202,31 @@ impl Consumer {
                 }
             }
         }
+    }
+
+    /// Add row `r`'s per-row counts (from the workers) to the sensitivity sums, in the bins
+    /// and order of [`Consumer::measure_bins`] (the same sums, bit for bit).
+    fn measure_row_counts(
+        &mut self,
+        counts: &RowTally,
+        r: usize,
+        row_areas: &RowAreas,
+    ) -> Result<()> {
+        let RowAreas::Uniform(a) = row_areas else {
+            return Err(Error::Processing {
+                what: "E sensitivity".into(),
+                reason: "per-row counts met a row whose cells differ in area".into(),
+            });
+        };
+        let (ge, ge_m) = counts.row(r);
+        // Bin b holds the cells reaching exactly b candidates: those reaching b, less those
+        // reaching b + 1 (bin 0 is never summed).
+        let exactly = |ge: &[u32], b: usize| ge[b - 1] - ge.get(b).copied().unwrap_or(0);
+        for b in 1..=self.candidates {
+            self.bin_area[b].add(exactly(ge, b) as f64 * a);
+            self.bin_area_m[b].add(exactly(ge_m, b) as f64 * a);
+        }
+        Ok(())
     }
 
     pub(super) fn finish(self, grid: &GridSpec) -> Result<PassOutput> {

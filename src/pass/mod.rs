@@ -16,12 +16,12 @@ mod sink;
 
 pub use sink::{MemorySink, RowSink};
 
-use crate::access::{AccessMask, RowFiller};
+use crate::access::AccessMask;
 use crate::area::CellAreas;
 use crate::model::{ModelOptions, RangeModel};
 use crate::patches::Connectivity;
 use crate::progress::ProgressHandle;
-use crate::raster_io::{class, StripBuffers, SuitabilityRaster, STRIP_ROWS};
+use crate::raster_io::{StripBuffers, SuitabilityRaster, Tally, STRIP_ROWS};
 use crate::{Error, Result};
 use consumer::Consumer;
 use place::PlacedRecord;
@@ -64,9 +64,8 @@ struct StripClasses {
     index: usize,
     codes: Vec<u8>,
     binary: bool,
-    /// Per cell, how many sensitivity candidates its value reaches (255 nodata); empty when
-    /// there are none.
-    bins: Vec<u8>,
+    /// How many sensitivity candidates each cell's value reaches (per cell or per row).
+    tally: Tally,
 }
 
 /// One streaming pass: classify, measure, label, write.
@@ -83,19 +82,28 @@ pub(crate) fn run_pass(
     // Strip buffers go round between the workers and the consumer: fresh pages cost
     // more to touch than the work done on them.
     let pool: Mutex<Vec<Vec<u8>>> = Mutex::new(Vec::new());
-    let bins_pool: Mutex<Vec<Vec<u8>>> = Mutex::new(Vec::new());
-    // A record buffer on a lon/lat grid is the costly M: the workers apply it themselves.
+    let tally_pool: Mutex<Vec<Tally>> = Mutex::new(Vec::new());
+    // The workers apply M themselves when they can (a polygon alone, or a record buffer
+    // alone on a lon/lat grid), as column intervals per row.
     let filler = input.access.row_filler();
     let prefilled = filler.is_some();
     let t = input.t;
     let cands = input.sensitivity;
+    // The sensitivity counted per row in the workers when every cell of a row has one area
+    // and the workers know M; else per cell, summed by the consumer.
+    let per_row = input.areas.per_row() && (prefilled || input.access.is_whole_raster());
+    let new_tally = move || match (cands.is_empty(), per_row) {
+        (true, _) => Tally::None,
+        (false, true) => Tally::Rows(Default::default()),
+        (false, false) => Tally::Bins(Vec::new()),
+    };
     let (tx, rx) = mpsc::sync_channel::<Result<StripClasses>>(2 * threads);
     std::thread::scope(|scope| {
         for _ in 0..threads {
             let tx = tx.clone();
             let next = &next;
             let pool = &pool;
-            let bins_pool = &bins_pool;
+            let tally_pool = &tally_pool;
             let spec = raster.reader_spec();
             let mut filler = filler.clone();
             scope.spawn(move || {
@@ -107,6 +115,7 @@ pub(crate) fn run_pass(
                     }
                 };
                 let mut bufs = StripBuffers::default();
+                let mut m_rows: Vec<Vec<(usize, usize)>> = Vec::new();
                 loop {
                     let mut codes = take(pool);
                     let i = next.fetch_add(1, Ordering::Relaxed);
@@ -115,18 +124,27 @@ pub(crate) fn run_pass(
                     }
                     let y0 = i * STRIP_ROWS;
                     let rows = STRIP_ROWS.min(h - y0);
-                    let mut bins = take(bins_pool);
+                    let mut tally = take_tally(tally_pool, new_tally);
+                    let m = filler.as_mut().map(|f| {
+                        m_rows.resize_with(rows, Vec::new);
+                        for (r, iv) in m_rows.iter_mut().enumerate() {
+                            f.row_intervals(y0 + r, iv);
+                        }
+                        &m_rows[..rows]
+                    });
                     let out = reader
-                        .classify_and_bin(y0, rows, t, cands, &mut bufs, &mut codes, &mut bins)
+                        .classify_and_tally(
+                            y0, rows, t, cands, &mut bufs, &mut codes, &mut tally, m,
+                        )
                         .map(|binary| {
-                            if let Some(f) = filler.as_mut() {
-                                apply_m_in_worker(f, y0, w, &mut codes);
+                            if let Some(m) = m {
+                                apply_m_in_worker(m, w, &mut codes);
                             }
                             StripClasses {
                                 index: i,
                                 codes,
                                 binary,
-                                bins,
+                                tally,
                             }
                         });
                     let failed = out.is_err();
@@ -154,7 +172,7 @@ pub(crate) fn run_pass(
                     y0,
                     strip.codes,
                     strip.binary,
-                    &strip.bins,
+                    &strip.tally,
                     input.access,
                     input.areas,
                     input.rows_records,
@@ -163,7 +181,9 @@ pub(crate) fn run_pass(
                 )?;
                 let spent = sink.write_rows(y0, classes)?;
                 give(&pool, spent);
-                give(&bins_pool, strip.bins);
+                if let Ok(mut p) = tally_pool.lock() {
+                    p.push(strip.tally);
+                }
                 input.progress.advance(STRIP_ROWS.min(h - y0) as u64);
                 expect += 1;
             }
@@ -187,6 +207,14 @@ fn take(pool: &Mutex<Vec<Vec<u8>>>) -> Vec<u8> {
         .unwrap_or_default()
 }
 
+/// A tally from `pool` (a new one when it is empty).
+fn take_tally(pool: &Mutex<Vec<Tally>>, new: impl Fn() -> Tally) -> Tally {
+    pool.lock()
+        .ok()
+        .and_then(|mut p| p.pop())
+        .unwrap_or_else(new)
+}
+
 /// A buffer back to `pool` for the next strip.
 fn give(pool: &Mutex<Vec<Vec<u8>>>, buf: Vec<u8>) {
     if let Ok(mut p) = pool.lock() {
@@ -203,19 +231,22 @@ pub(crate) fn decode_threads() -> usize {
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
 }
 
-/// Apply M in a worker: codes 0/1 become 0 (below T, outside M), 3 (below T, in M),
-/// 1 (suitable, in M) or 2 (suitable, beyond M); 255 stays.
-fn apply_m_in_worker(filler: &mut RowFiller, y0: usize, w: usize, codes: &mut [u8]) {
-    let mut in_m = vec![false; w];
-    for (r, row) in codes.chunks_mut(w).enumerate() {
-        filler.fill_row(y0 + r, &mut in_m);
-        for (k, &m) in row.iter_mut().zip(&in_m) {
-            let m = m as u8;
-            *k = match *k {
-                class::NODATA => class::NODATA,
-                1 => 2 - m,
-                _ => UNSUITABLE_IN_M * m,
-            };
+/// Apply M in a worker (`m`: per row of the strip, M's half-open column intervals): codes
+/// 0/1 become 0 (below T, outside M), 3 (below T, in M), 1 (suitable, in M) or 2 (suitable,
+/// beyond M); 255 stays.
+fn apply_m_in_worker(m: &[Vec<(usize, usize)>], w: usize, codes: &mut [u8]) {
+    let outside = |k: &mut [u8]| k.iter_mut().for_each(|k| *k += (*k == 1) as u8);
+    let inside = |k: &mut [u8]| {
+        k.iter_mut()
+            .for_each(|k| *k += (*k == 0) as u8 * UNSUITABLE_IN_M)
+    };
+    for (row, iv) in codes.chunks_mut(w).zip(m) {
+        let mut from = 0;
+        for &(a, b) in iv {
+            outside(&mut row[from..a]);
+            inside(&mut row[a..b]);
+            from = b;
         }
+        outside(&mut row[from..]);
     }
 }

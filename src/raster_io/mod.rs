@@ -12,11 +12,13 @@
 
 mod classes;
 mod strips;
+mod tally;
 mod tiles;
 
 pub(crate) use classes::TILED_GEOTIFF;
 pub use classes::{class, ClassWriter};
 pub use strips::{ReaderSpec, StripBuffers, StripReader};
+pub(crate) use tally::{RowTally, Tally};
 
 use crate::{Error, GridSpec, Result};
 

@@ -2,10 +2,12 @@
 
 use super::class;
 use super::open_readonly;
+use super::tally::{code_and_bin, Tally};
 use super::tiles::{pass_reads_blocks, TileCache, TileValues};
 use super::NonFiniteCount;
 use crate::{Error, Result};
 use gdal::{Dataset, GdalOpenFlags};
+use std::cmp::Ordering;
 use std::path::PathBuf;
 
 /// Enough to open a [`StripReader`] in another thread.
@@ -70,15 +72,16 @@ impl StripReader {
         bufs: &mut StripBuffers,
         codes: &mut Vec<u8>,
     ) -> Result<bool> {
-        self.classify_and_bin(y0, rows, t, &[], bufs, codes, &mut Vec::new())
+        self.classify_and_tally(y0, rows, t, &[], bufs, codes, &mut Tally::None, None)
     }
 
-    /// [`StripReader::classify_rows`], and for each cell how many of the ascending
-    /// thresholds `cands` its value reaches (`v >= t`, the comparison the pass makes; 255 for
-    /// nodata) into `bins` (left empty when there are no candidates). Both are made block by
-    /// block while the values are in cache.
+    /// [`StripReader::classify_rows`], and how many of the ascending thresholds `cands`
+    /// each cell's value reaches (`v >= t`, the comparison the pass makes), into `tally`:
+    /// per cell for [`Tally::Bins`], per row (all, and inside `m`: per row of the strip, the
+    /// half-open column intervals of M; `None` the whole raster) for [`Tally::Rows`]. Both
+    /// are made window by window while the values are in cache.
     #[allow(clippy::too_many_arguments)]
-    pub(crate) fn classify_and_bin(
+    pub(crate) fn classify_and_tally(
         &self,
         y0: usize,
         rows: usize,
@@ -86,7 +89,8 @@ impl StripReader {
         cands: &[f64],
         bufs: &mut StripBuffers,
         codes: &mut Vec<u8>,
-        bins: &mut Vec<u8>,
+        tally: &mut Tally,
+        m: Option<&[Vec<(usize, usize)>]>,
     ) -> Result<bool> {
         let n = self.width * rows;
         let band = self
@@ -96,7 +100,20 @@ impl StripReader {
         let what = || format!("reading rows {y0}..{}", y0 + rows);
         // Every cell of both is written below; a pooled buffer keeps its old bytes until then.
         codes.resize(n, 0);
-        bins.resize(if cands.is_empty() { 0 } else { n }, 0);
+        match tally {
+            Tally::Bins(b) => b.resize(n, 0),
+            Tally::Rows(rt) => rt.reset(rows, cands.len()),
+            Tally::None => {}
+        }
+        if cands.is_empty() {
+            *tally = Tally::None;
+        }
+        // Thresholds in the band's type, compared exactly as in float64 (`f32_threshold`);
+        // as GDAL does for float32 bands, the nodata value is taken at float32 precision.
+        let t32 = f32_threshold(t);
+        let c32: Vec<f32> = cands.iter().map(|&c| f32_threshold(c)).collect();
+        let nd32 = self.nodata.map(|v| v as f32).unwrap_or(f32::NAN);
+        let nd64 = self.nodata.unwrap_or(f64::NAN);
         let mut non_finite = 0u64;
         let mut binary = true;
         // Column windows one block wide (or a few tiles, at least 256 columns): each window
@@ -133,14 +150,13 @@ impl StripReader {
                 };
                 for r in 0..rows {
                     let at = r * self.width + x0;
-                    binary &= code_cells_f32(
-                        &values[r * ww..(r + 1) * ww],
-                        &mut codes[at..at + ww],
-                        t,
-                        self.nodata,
-                        (cands, bin_slice(bins, at, ww)),
-                        &mut non_finite,
-                    );
+                    let cells = Cells {
+                        values: &values[r * ww..(r + 1) * ww],
+                        t: t32,
+                        nd: nd32,
+                        cands: &c32,
+                    };
+                    binary &= code_row(cells, codes, tally, (r, at, x0), m, &mut non_finite);
                 }
             } else {
                 let values: &[f64] = match &kept {
@@ -160,14 +176,13 @@ impl StripReader {
                 };
                 for r in 0..rows {
                     let at = r * self.width + x0;
-                    binary &= code_cells_f64(
-                        &values[r * ww..(r + 1) * ww],
-                        &mut codes[at..at + ww],
+                    let cells = Cells {
+                        values: &values[r * ww..(r + 1) * ww],
                         t,
-                        self.nodata,
-                        (cands, bin_slice(bins, at, ww)),
-                        &mut non_finite,
-                    );
+                        nd: nd64,
+                        cands,
+                    };
+                    binary &= code_row(cells, codes, tally, (r, at, x0), m, &mut non_finite);
                 }
             }
         }
@@ -186,63 +201,48 @@ fn window_width(width: usize, block_width: usize) -> usize {
     (block_width * 256usize.div_ceil(block_width)).min(width)
 }
 
-/// `bins[at..at + n]`, or an empty slice when there are no bins.
-fn bin_slice(bins: &mut [u8], at: usize, n: usize) -> &mut [u8] {
-    if bins.is_empty() {
-        bins
-    } else {
-        &mut bins[at..at + n]
-    }
-}
-
-/// Code the cells (see [`code_cells`]) and, when `bins` is not empty, count the candidates
-/// each reaches, in blocks small enough to stay in the first-level cache between the two.
-fn code_and_bin<T: Sample>(
-    values: &[T],
-    codes: &mut [u8],
+/// One row segment of values with the thresholds in their type.
+struct Cells<'a, T> {
+    values: &'a [T],
     t: T,
     nd: T,
-    cands: &[T],
-    bins: &mut [u8],
-    non_finite: &mut u64,
-) -> bool {
-    const BLOCK: usize = 2048;
-    let mut binary = true;
-    for (i, (v, k)) in values
-        .chunks(BLOCK)
-        .zip(codes.chunks_mut(BLOCK))
-        .enumerate()
-    {
-        binary &= code_cells(v, k, t, nd, non_finite);
-        if !bins.is_empty() {
-            let out = &mut bins[i * BLOCK..i * BLOCK + v.len()];
-            if k.iter().all(|&c| c == class::NODATA) {
-                out.fill(class::NODATA); // sea on a global grid: nothing to count
-            } else {
-                count_reached(v, k, cands, out);
-            }
-        }
-    }
-    binary
+    cands: &'a [T],
 }
 
-/// Per cell, how many of `cands` its value reaches (255 where `codes` says nodata): one
-/// simple loop per candidate (these vectorise), then the nodata cells are marked.
-fn count_reached<T: Sample>(values: &[T], codes: &[u8], cands: &[T], out: &mut [u8]) {
-    let Some((&first, rest)) = cands.split_first() else {
-        return;
-    };
-    for (o, &v) in out.iter_mut().zip(values) {
-        *o = (v >= first) as u8;
-    }
-    for &c in rest {
-        for (o, &v) in out.iter_mut().zip(values) {
-            *o += (v >= c) as u8;
+/// Code one row segment (`at`: its first cell in the strip, row `r`, column `x0`) into
+/// `codes` and count the candidates its cells reach into `tally`.
+fn code_row<T: Sample>(
+    cells: Cells<'_, T>,
+    codes: &mut [u8],
+    tally: &mut Tally,
+    (r, at, x0): (usize, usize, usize),
+    m: Option<&[Vec<(usize, usize)>]>,
+    non_finite: &mut u64,
+) -> bool {
+    let Cells {
+        values,
+        t,
+        nd,
+        cands,
+    } = cells;
+    let codes = &mut codes[at..at + values.len()];
+    match tally {
+        Tally::None => code_cells(values, codes, t, nd, non_finite),
+        Tally::Bins(b) => {
+            let out = &mut b[at..at + values.len()];
+            code_and_bin(values, codes, (t, nd), cands, out, non_finite)
         }
-    }
-    // Branch-free (all bits set where nodata, 255 being all ones), so the loop vectorises.
-    for (o, &k) in out.iter_mut().zip(codes) {
-        *o |= ((k == class::NODATA) as u8).wrapping_neg();
+        Tally::Rows(rt) => {
+            let before = *non_finite;
+            let binary = code_cells(values, codes, t, nd, non_finite);
+            // No infinite value and a nodata value below every candidate (or NaN): no
+            // nodata cell can reach one, so the counts need not consult the codes.
+            let below = matches!(nd.partial_cmp(&cands[0]), None | Some(Ordering::Less));
+            let exact = *non_finite == before && below;
+            let m_row = m.map(|m| m[r].as_slice());
+            rt.count_row(r, x0, values, codes, cands, m_row, exact);
+            binary
+        }
     }
 }
 
@@ -259,7 +259,7 @@ fn f32_threshold(t: f64) -> f32 {
 }
 
 /// The two sample types the pass reads.
-trait Sample: Copy + PartialEq + PartialOrd {
+pub(super) trait Sample: Copy + PartialEq + PartialOrd {
     const ZERO: Self;
     const ONE: Self;
     fn finite(self) -> bool;
@@ -284,7 +284,7 @@ impl Sample for f64 {
 /// Code cells against `t` in their own type (branch-free, so the loop vectorises): 255 for
 /// NaN, +-inf and `nd` (NaN: no nodata value), else `v >= t`. Returns whether all data
 /// cells are 0 or 1, and adds the NaN/inf cells to `non_finite`.
-fn code_cells<T: Sample>(
+pub(super) fn code_cells<T: Sample>(
     values: &[T],
     codes: &mut [u8],
     t: T,
@@ -308,9 +308,10 @@ fn code_cells<T: Sample>(
     not_binary == 0
 }
 
-/// Code float32 cells (and count the candidates they reach into `bins`, unless empty); `t`
-/// and the candidates are compared exactly as in float64 (see [`f32_threshold`]) and, as
-/// GDAL does for float32 bands, the nodata value is taken at float32 precision.
+/// Code float32 cells (and count the candidates they reach into `bins`, unless empty) as
+/// the pass does: `t` and the candidates compared exactly as in float64, nodata at
+/// float32 precision.
+#[cfg(test)]
 fn code_cells_f32(
     values: &[f32],
     codes: &mut [u8],
@@ -321,10 +322,15 @@ fn code_cells_f32(
 ) -> bool {
     let nd = nodata.map(|v| v as f32).unwrap_or(f32::NAN);
     let c32: Vec<f32> = cands.iter().map(|&c| f32_threshold(c)).collect();
-    code_and_bin(values, codes, f32_threshold(t), nd, &c32, bins, non_finite)
+    let tt = (f32_threshold(t), nd);
+    if bins.is_empty() {
+        return code_cells(values, codes, tt.0, nd, non_finite);
+    }
+    code_and_bin(values, codes, tt, &c32, bins, non_finite)
 }
 
 /// Code float64 cells (and count the candidates they reach into `bins`, unless empty).
+#[cfg(test)]
 fn code_cells_f64(
     values: &[f64],
     codes: &mut [u8],
@@ -333,15 +339,11 @@ fn code_cells_f64(
     (cands, bins): (&[f64], &mut [u8]),
     non_finite: &mut u64,
 ) -> bool {
-    code_and_bin(
-        values,
-        codes,
-        t,
-        nodata.unwrap_or(f64::NAN),
-        cands,
-        bins,
-        non_finite,
-    )
+    let nd = nodata.unwrap_or(f64::NAN);
+    if bins.is_empty() {
+        return code_cells(values, codes, t, nd, non_finite);
+    }
+    code_and_bin(values, codes, (t, nd), cands, bins, non_finite)
 }
 
 #[cfg(test)]

@@ -65,11 +65,13 @@ pub fn compute_range(
     opts: &RangeOptions,
     sink: &mut dyn RowSink,
 ) -> Result<(RangeResult, RangeModel)> {
+    let mut clock = crate::progress::StageClock::new();
     let raster = SuitabilityRaster::open(suitability)?;
     let grid = raster.grid().clone();
     let set = read_records(records_path, &opts.records, &grid.crs_wkt)?;
     let mut warnings = set.warnings.clone();
     let mut placement = place(&set.records, &grid, &raster)?;
+    clock.lap("records read and their values sampled");
     let usable: Vec<f64> = placement.placed.iter().filter_map(|p| p.value).collect();
     if usable.is_empty() {
         return Err(Error::NoUsableRecords {
@@ -116,6 +118,7 @@ pub fn compute_range(
     let mut access = AccessMask::build(&grid, &opts.access, &lonlat)?;
     warnings.extend(access.warnings().iter().cloned());
     let mut areas = CellAreas::new(&grid)?;
+    clock.lap("accessible area M and cell areas prepared");
     let rows_records = std::mem::take(&mut placement.rows);
     let mut pass =
         |t: f64, access: &mut AccessMask, areas: &mut CellAreas, sink: &mut dyn RowSink| {
@@ -136,6 +139,7 @@ pub fn compute_range(
             )
         };
     let mut out = pass(threshold.value, &mut access, &mut areas, sink)?;
+    clock.lap("classification pass");
     warnings.extend(raster.warnings());
     let binary = out.all_binary;
     if binary {

@@ -109,7 +109,7 @@ fn merge_half_open(v: &mut Vec<(usize, usize)>) {
 }
 
 /// `out[c]` = whether column c lies in one of the half-open `intervals`.
-fn fill_from_intervals(intervals: &[(usize, usize)], out: &mut [bool]) {
+pub(crate) fn fill_from_intervals(intervals: &[(usize, usize)], out: &mut [bool]) {
     out.fill(false);
     let n = out.len();
     for &(a, b) in intervals {

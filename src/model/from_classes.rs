@@ -142,12 +142,7 @@ fn build(
                     if i < 3 {
                         let a = row_areas.get(c);
                         area[i].add(a);
-                        let inside = match &m {
-                            RowM::Whole => true,
-                            RowM::Cells(v) => v[c],
-                            RowM::Unknown => false,
-                        };
-                        if inside {
+                        if m.contains(c) {
                             area[3].add(a);
                         }
                     }

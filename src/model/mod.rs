@@ -179,8 +179,25 @@ pub(crate) enum RowM<'a> {
     Whole,
     /// Per-cell membership.
     Cells(&'a [bool]),
+    /// The columns in M as sorted, disjoint, half-open intervals `[a, b)`.
+    Intervals(&'a [(usize, usize)]),
     /// Not known.
     Unknown,
+}
+
+impl RowM<'_> {
+    /// Whether column `c` lies in M (false when not known).
+    pub(crate) fn contains(&self, c: usize) -> bool {
+        match self {
+            RowM::Whole => true,
+            RowM::Cells(v) => v[c],
+            RowM::Intervals(iv) => {
+                let k = iv.partition_point(|&(_, b)| b <= c);
+                k < iv.len() && iv[k].0 <= c
+            }
+            RowM::Unknown => false,
+        }
+    }
 }
 
 impl ModelBuilder {
@@ -220,6 +237,19 @@ impl ModelBuilder {
             RowM::Cells(in_m) => push_true_runs(&mut self.m_runs, classes.len(), |c, want| {
                 crate::scan::run_end2(classes, in_m, c, |k, m| (m & (k != class::NODATA)) == want)
             }),
+            RowM::Intervals(iv) => {
+                // Merged intervals are apart by at least one cell: runs never join across.
+                for &(a, b) in iv {
+                    let seg = &classes[a..b];
+                    let from = self.m_runs.len();
+                    push_true_runs(&mut self.m_runs, seg.len(), |c, want| {
+                        crate::scan::run_end(seg, c, |k| (k != class::NODATA) == want)
+                    });
+                    for run in &mut self.m_runs[from..] {
+                        *run = (run.0 + a as u32, run.1 + a as u32);
+                    }
+                }
+            }
         }
         self.m_start.push(self.m_runs.len() as u64);
         Ok(())

@@ -2,7 +2,7 @@
 //! fed to the model builder.
 
 use super::place::PlacedRecord;
-use super::{PassInput, PassOutput, UNSUITABLE_IN_M};
+use super::{PassInput, PassOutput};
 use crate::access::AccessMask;
 use crate::area::{CellAreas, RowAreas};
 use crate::model::{ModelBuilder, RowM, Totals};
@@ -21,8 +21,6 @@ pub(super) struct Consumer {
     connectivity: crate::patches::Connectivity,
     in_m: Vec<bool>,
     rec_counts: Vec<(usize, u64)>,
-    /// The workers applied M already (codes 0..=3, see `apply_m_in_worker`).
-    prefilled: bool,
     /// Sensitivity: area of the data cells reaching exactly b candidates, all and inside M.
     bin_area: Vec<Neumaier>,
     bin_area_m: Vec<Neumaier>,
@@ -30,7 +28,7 @@ pub(super) struct Consumer {
 }
 
 impl Consumer {
-    pub(super) fn new(grid: &GridSpec, input: &PassInput<'_>, prefilled: bool) -> Self {
+    pub(super) fn new(grid: &GridSpec, input: &PassInput<'_>) -> Self {
         Consumer {
             width: grid.width,
             cells: [0; 4],
@@ -41,20 +39,21 @@ impl Consumer {
             connectivity: input.connectivity,
             in_m: vec![false; grid.width],
             rec_counts: Vec::new(),
-            prefilled,
             bin_area: vec![Neumaier::default(); input.sensitivity.len() + 1],
             bin_area_m: vec![Neumaier::default(); input.sensitivity.len() + 1],
             candidates: input.sensitivity.len(),
         }
     }
 
-    /// Apply M, measure, label; returns the finished class rows.
+    /// Apply M (unless the workers did: `m_rows`, M's column intervals per row), measure,
+    /// label; returns the finished class rows.
     #[allow(clippy::too_many_arguments)]
     pub(super) fn strip(
         &mut self,
         y0: usize,
         codes: Vec<u8>,
         binary: bool,
+        m_rows: Option<&[Vec<(usize, usize)>]>,
         tally: &Tally,
         access: &mut AccessMask,
         areas: &mut CellAreas,
@@ -68,25 +67,31 @@ impl Consumer {
         let whole = access.is_whole_raster();
         for (r, cls) in classes.chunks_mut(w).enumerate() {
             let row = y0 + r;
-            if self.prefilled {
-                // Codes from the workers: 3 = below threshold in M, back to 0.
-                for (k, m) in cls.iter_mut().zip(self.in_m.iter_mut()) {
-                    *m = (*k == class::INSIDE) | (*k == UNSUITABLE_IN_M);
-                    *k -= (*k == UNSUITABLE_IN_M) as u8 * UNSUITABLE_IN_M;
-                }
-            } else if !whole {
-                access.fill_row(row, &mut self.in_m)?;
-                // Suitable cells outside M become class 2 (branch-free so the loops vectorise).
-                for (k, &m) in cls.iter_mut().zip(&self.in_m) {
-                    *k += (*k == class::INSIDE) as u8 & (m as u8 ^ 1);
+            let row_areas = areas.row_allow_outside(row)?;
+            // Per-cell membership only where a per-cell sum needs it.
+            let per_cell =
+                matches!(row_areas, RowAreas::PerCell(_)) || matches!(tally, Tally::Bins(_));
+            match m_rows.map(|m| m[r].as_slice()) {
+                Some(iv) if per_cell => crate::access::fill_from_intervals(iv, &mut self.in_m),
+                Some(_) => {}
+                None if whole => {}
+                None => {
+                    access.fill_row(row, &mut self.in_m)?;
+                    // Suitable cells outside M become class 2 (branch-free, so it vectorises).
+                    for (k, &m) in cls.iter_mut().zip(&self.in_m) {
+                        *k += (*k == class::INSIDE) as u8 & (m as u8 ^ 1);
+                    }
                 }
             }
-            let row_areas = areas.row_allow_outside(row)?;
-            self.measure(row, cls, &row_areas, whole, raster)?;
+            let in_m = std::mem::take(&mut self.in_m);
+            let m = match m_rows.map(|m| m[r].as_slice()) {
+                _ if whole => RowM::Whole,
+                Some(iv) if !per_cell => RowM::Intervals(iv),
+                _ => RowM::Cells(&in_m),
+            };
+            self.measure(row, cls, &row_areas, &m, raster)?;
             match tally {
-                Tally::Bins(bins) => {
-                    self.measure_bins(&bins[r * w..(r + 1) * w], &row_areas, whole)
-                }
+                Tally::Bins(bins) => self.measure_bins(&bins[r * w..(r + 1) * w], &row_areas, &m),
                 Tally::Rows(counts) => self.measure_row_counts(counts, r, &row_areas)?,
                 Tally::None => {}
             }
@@ -97,13 +102,9 @@ impl Consumer {
                     self.rec_counts.push((c, 1));
                 }
             }
-            let m = if whole {
-                RowM::Whole
-            } else {
-                RowM::Cells(&self.in_m)
-            };
             self.builder
                 .push_row(row, cls, &row_areas, &self.rec_counts, m)?;
+            self.in_m = in_m;
         }
         Ok(classes)
     }
@@ -114,7 +115,7 @@ impl Consumer {
         row: usize,
         cls: &[u8],
         row_areas: &RowAreas,
-        whole: bool,
+        m: &RowM<'_>,
         raster: &SuitabilityRaster,
     ) -> Result<()> {
         let w = self.width;
@@ -124,10 +125,14 @@ impl Consumer {
             count_eq(cls, class::NODATA),
         );
         let counts = [n0, n1, w as u64 - n0 - n1 - nd, nd];
-        let m_cells = if whole {
-            w as u64 - nd
-        } else {
-            count_in(cls, &self.in_m, |k| k != class::NODATA)
+        let m_cells = match m {
+            RowM::Whole => w as u64 - nd,
+            RowM::Cells(in_m) => count_in(cls, in_m, |k| k != class::NODATA),
+            RowM::Intervals(iv) => iv
+                .iter()
+                .map(|&(a, b)| (b - a) as u64 - count_eq(&cls[a..b], class::NODATA))
+                .sum(),
+            RowM::Unknown => 0,
         };
         for (total, n) in self.cells.iter_mut().zip(counts) {
             *total += n;
@@ -140,6 +145,7 @@ impl Consumer {
                 self.accessible_m2.add(m_cells as f64 * a);
             }
             RowAreas::PerCell(v) => {
+                let m_of = m;
                 let mut sums = [0f64; 3];
                 let mut m = 0f64;
                 for (c, &k) in cls.iter().enumerate() {
@@ -157,7 +163,7 @@ impl Consumer {
                         });
                     }
                     sums[k as usize] += a;
-                    if whole || self.in_m[c] {
+                    if m_of.contains(c) {
                         m += a;
                     }
                 }
@@ -171,16 +177,20 @@ impl Consumer {
     }
 
     /// Add the row's data cells to the sensitivity sums by how many candidates they reach.
-    fn measure_bins(&mut self, bins: &[u8], row_areas: &RowAreas, whole: bool) {
+    fn measure_bins(&mut self, bins: &[u8], row_areas: &RowAreas, m: &RowM<'_>) {
         let n = self.candidates + 1;
         match row_areas {
             RowAreas::Uniform(a) => {
                 for b in 0..n {
                     let all = count_eq(bins, b as u8);
-                    let inside = if whole {
-                        all
-                    } else {
-                        count_eq_in(bins, &self.in_m, b as u8)
+                    let inside = match m {
+                        RowM::Whole => all,
+                        RowM::Cells(in_m) => count_eq_in(bins, in_m, b as u8),
+                        RowM::Intervals(iv) => iv
+                            .iter()
+                            .map(|&(x, y)| count_eq(&bins[x..y], b as u8))
+                            .sum(),
+                        RowM::Unknown => 0,
                     };
                     self.bin_area[b].add(all as f64 * a);
                     self.bin_area_m[b].add(inside as f64 * a);
@@ -188,10 +198,10 @@ impl Consumer {
             }
             RowAreas::PerCell(v) => {
                 let (mut all, mut inside) = (vec![0f64; n], vec![0f64; n]);
-                for (c, (&b, &m)) in bins.iter().zip(&self.in_m).enumerate() {
+                for (c, &b) in bins.iter().enumerate() {
                     if b != class::NODATA {
                         all[b as usize] += v[c];
-                        if whole || m {
+                        if m.contains(c) {
                             inside[b as usize] += v[c];
                         }
                     }

@@ -55,14 +55,13 @@ pub(crate) struct PassOutput {
     pub(crate) sensitivity: Vec<(f64, f64)>,
 }
 
-/// Worker code for a cell below the threshold but inside M (only between worker and consumer).
-const UNSUITABLE_IN_M: u8 = 3;
-
 /// A decoded strip: 0 below T, 1 suitable, 255 nodata (and, when the workers apply M,
-/// the codes of [`apply_m_in_worker`]).
+/// 2 suitable beyond M, see [`apply_m_in_worker`]).
 struct StripClasses {
     index: usize,
     codes: Vec<u8>,
+    /// When the workers applied M: per row, M's half-open column intervals.
+    m: Option<Vec<Vec<(usize, usize)>>>,
     binary: bool,
     /// How many sensitivity candidates each cell's value reaches (per cell or per row).
     tally: Tally,
@@ -115,7 +114,6 @@ pub(crate) fn run_pass(
                     }
                 };
                 let mut bufs = StripBuffers::default();
-                let mut m_rows: Vec<Vec<(usize, usize)>> = Vec::new();
                 loop {
                     let mut codes = take(pool);
                     let i = next.fetch_add(1, Ordering::Relaxed);
@@ -126,23 +124,31 @@ pub(crate) fn run_pass(
                     let rows = STRIP_ROWS.min(h - y0);
                     let mut tally = take_tally(tally_pool, new_tally);
                     let m = filler.as_mut().map(|f| {
-                        m_rows.resize_with(rows, Vec::new);
+                        let mut m_rows = vec![Vec::new(); rows];
                         for (r, iv) in m_rows.iter_mut().enumerate() {
                             f.row_intervals(y0 + r, iv);
                         }
-                        &m_rows[..rows]
+                        m_rows
                     });
                     let out = reader
                         .classify_and_tally(
-                            y0, rows, t, cands, &mut bufs, &mut codes, &mut tally, m,
+                            y0,
+                            rows,
+                            t,
+                            cands,
+                            &mut bufs,
+                            &mut codes,
+                            &mut tally,
+                            m.as_deref(),
                         )
                         .map(|binary| {
-                            if let Some(m) = m {
+                            if let Some(m) = &m {
                                 apply_m_in_worker(m, w, &mut codes);
                             }
                             StripClasses {
                                 index: i,
                                 codes,
+                                m,
                                 binary,
                                 tally,
                             }
@@ -155,7 +161,7 @@ pub(crate) fn run_pass(
             });
         }
         drop(tx);
-        let mut consumer = Consumer::new(grid, &input, prefilled);
+        let mut consumer = Consumer::new(grid, &input);
         input
             .progress
             .start("classifying, labelling and writing rows", h as u64);
@@ -172,6 +178,7 @@ pub(crate) fn run_pass(
                     y0,
                     strip.codes,
                     strip.binary,
+                    strip.m.as_deref(),
                     &strip.tally,
                     input.access,
                     input.areas,
@@ -231,22 +238,17 @@ pub(crate) fn decode_threads() -> usize {
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
 }
 
-/// Apply M in a worker (`m`: per row of the strip, M's half-open column intervals): codes
-/// 0/1 become 0 (below T, outside M), 3 (below T, in M), 1 (suitable, in M) or 2 (suitable,
-/// beyond M); 255 stays.
+/// Apply M in a worker (`m`: per row of the strip, M's half-open column intervals): a
+/// suitable cell (1) outside them becomes 2 (suitable, beyond M); the rest stays.
 fn apply_m_in_worker(m: &[Vec<(usize, usize)>], w: usize, codes: &mut [u8]) {
-    let outside = |k: &mut [u8]| k.iter_mut().for_each(|k| *k += (*k == 1) as u8);
-    let inside = |k: &mut [u8]| {
-        k.iter_mut()
-            .for_each(|k| *k += (*k == 0) as u8 * UNSUITABLE_IN_M)
-    };
+    // Branch-free, so the loop vectorises.
+    let beyond = |k: &mut [u8]| k.iter_mut().for_each(|k| *k += (*k == 1) as u8);
     for (row, iv) in codes.chunks_mut(w).zip(m) {
         let mut from = 0;
         for &(a, b) in iv {
-            outside(&mut row[from..a]);
-            inside(&mut row[a..b]);
+            beyond(&mut row[from..a]);
             from = b;
         }
-        outside(&mut row[from..]);
+        beyond(&mut row[from..]);
     }
 }

@@ -6,14 +6,18 @@
 //! skips the parts that hold only patches already reached. Distances are squared chords
 //! (Euclidean in 3-D); the caller turns them into geodesics and keeps its own bound.
 
-/// Points per leaf.
-const BUCKET: usize = 16;
+/// Points per leaf (at most).
+pub(crate) const BUCKET: usize = 16;
 /// Label of a node holding several labels.
 const MIXED: u32 = u32::MAX;
 
 struct Node {
     lo: [f64; 3],
     hi: [f64; 3],
+    /// Centre of the box and half its diagonal: the ball round it that the cone search
+    /// tests, worked out once.
+    mid: [f64; 3],
+    r: f64,
     start: u32,
     end: u32,
     /// Children (0 for a leaf; the root is never a child).
@@ -116,6 +120,7 @@ impl KdTree {
 impl KdTree {
     /// The points of every leaf, in tree order (points close in space come close in this
     /// order).
+    #[cfg(test)]
     pub(crate) fn leaves(&self) -> impl Iterator<Item = &[u32]> + '_ {
         self.nodes
             .iter()
@@ -213,13 +218,8 @@ impl KdTree {
             if node.label != MIXED && skip(node.label) {
                 continue;
             }
-            let mid = [
-                0.5 * (node.lo[0] + node.hi[0]),
-                0.5 * (node.lo[1] + node.hi[1]),
-                0.5 * (node.lo[2] + node.hi[2]),
-            ];
-            let r = 0.5 * d2(&node.lo, &node.hi).sqrt();
-            let (cos_a, len) = cos_to(&mid);
+            let r = node.r;
+            let (cos_a, len) = cos_to(&node.mid);
             // The box lies outside the cone when the angle to its centre exceeds theta plus
             // the angle beta its enclosing ball subtends: cos a < cos(theta + beta).
             if len > r && theta < std::f64::consts::PI {
@@ -268,25 +268,68 @@ fn build(
     nodes.push(Node {
         lo,
         hi,
+        mid: [
+            0.5 * (lo[0] + hi[0]),
+            0.5 * (lo[1] + hi[1]),
+            0.5 * (lo[2] + hi[2]),
+        ],
+        r: 0.5 * d2(&lo, &hi).sqrt(),
         start: offset as u32,
         end: (offset + items.len()) as u32,
         kids: [0, 0],
         label: if one { first } else { MIXED },
     });
     if items.len() > BUCKET {
-        let axis = (0..3)
-            .max_by(|&a, &b| (hi[a] - lo[a]).total_cmp(&(hi[b] - lo[b])))
-            .unwrap_or(0);
-        let mid = items.len() / 2;
-        items.select_nth_unstable_by(mid, |&a, &b| {
-            xyz[a as usize][axis].total_cmp(&xyz[b as usize][axis])
-        });
+        let mid = split(xyz, items, &lo, &hi);
         let (left, right) = items.split_at_mut(mid);
         let l = build(xyz, label, left, offset, nodes);
         let r = build(xyz, label, right, offset + mid, nodes);
         nodes[id as usize].kids = [l, r];
     }
     id
+}
+
+/// Split `items` (bounding box `lo..hi`) at its middle across the box's longest axis; returns
+/// the middle: `items[..mid]` lie on the low side.
+fn split(xyz: &[[f64; 3]], items: &mut [u32], lo: &[f64; 3], hi: &[f64; 3]) -> usize {
+    let axis = (0..3)
+        .max_by(|&a, &b| (hi[a] - lo[a]).total_cmp(&(hi[b] - lo[b])))
+        .unwrap_or(0);
+    let mid = items.len() / 2;
+    items.select_nth_unstable_by(mid, |&a, &b| {
+        xyz[a as usize][axis].total_cmp(&xyz[b as usize][axis])
+    });
+    mid
+}
+
+/// Order `items` as [`KdTree::new`] would and call `leaf(range)` for the points of each of its
+/// leaves (`items[range]`), in the order of [`KdTree::leaves`], without building the nodes.
+/// `offset` is the position of `items` in the caller's slice (0 at the top).
+pub(crate) fn leaves_in_place(
+    xyz: &[[f64; 3]],
+    items: &mut [u32],
+    offset: usize,
+    leaf: &mut impl FnMut(std::ops::Range<usize>),
+) {
+    if items.len() <= BUCKET {
+        if !items.is_empty() {
+            leaf(offset..offset + items.len());
+        }
+        return;
+    }
+    let mut lo = [f64::INFINITY; 3];
+    let mut hi = [f64::NEG_INFINITY; 3];
+    for &i in items.iter() {
+        let p = &xyz[i as usize];
+        for k in 0..3 {
+            lo[k] = lo[k].min(p[k]);
+            hi[k] = hi[k].max(p[k]);
+        }
+    }
+    let mid = split(xyz, items, &lo, &hi);
+    let (left, right) = items.split_at_mut(mid);
+    leaves_in_place(xyz, left, offset, leaf);
+    leaves_in_place(xyz, right, offset + mid, leaf);
 }
 
 #[cfg(test)]
@@ -328,6 +371,36 @@ mod tests {
                 },
             );
             assert_eq!(best, brute);
+        }
+    }
+
+    // The leaves without the nodes are the tree's own leaves (no outside source: the tree
+    // built with its nodes is the reference), and together hold every point once.
+    #[test]
+    fn leaves_in_place_are_the_leaves_of_the_tree() {
+        let mut s = 7u64;
+        let mut rnd = || {
+            s = s
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (s >> 11) as f64 / (1u64 << 53) as f64
+        };
+        for n in [0usize, 1, 16, 17, 100, 1000] {
+            let xyz: Vec<[f64; 3]> = (0..n)
+                .map(|_| crate::access::buffer::unit(-60.0 + 120.0 * rnd(), 360.0 * rnd()))
+                .collect();
+            let label = vec![0u32; n];
+            let tree = KdTree::new(&xyz, &label, (0..n as u32).collect());
+            let want: Vec<Vec<u32>> = tree.leaves().map(|l| l.to_vec()).collect();
+            let mut items: Vec<u32> = (0..n as u32).collect();
+            let mut ranges = Vec::new();
+            leaves_in_place(&xyz, &mut items, 0, &mut |r| ranges.push(r));
+            let got: Vec<Vec<u32>> = ranges.iter().map(|r| items[r.clone()].to_vec()).collect();
+            assert_eq!(got, want, "{n} points");
+            assert!(got.iter().all(|l| !l.is_empty() && l.len() <= BUCKET));
+            let mut all: Vec<u32> = got.concat();
+            all.sort_unstable();
+            assert_eq!(all, (0..n as u32).collect::<Vec<_>>());
         }
     }
 }

@@ -15,24 +15,46 @@
 //! The result is the exact minimum over corner pairs, to the last bit.
 
 use super::geodesics::{midpoint_ball, search_bound, Geodesics};
-use super::kdtree::{d2, KdTree};
+use super::kdtree::{d2, leaves_in_place, KdTree, BUCKET};
 use super::reach::Corners;
 use crate::access::buffer::m_min;
 use rayon::prelude::*;
 use rustc_hash::FxHashMap;
 
-/// Query corners per group (at most; a group is part of a leaf of the patch's own tree).
-const GROUP: usize = 16;
+/// Query corners per group (at most): a group is one leaf of a k-d tree over the patch's own
+/// corners.
+const GROUP: usize = BUCKET;
+
+/// A set of patches to measure to: selects patch indices.
+pub(crate) type Target<'a> = &'a (dyn Fn(usize) -> bool + Sync);
 
 /// For each patch, the distance (km) to the nearest patch among those `target` selects
 /// (other than itself); None when there is none.
 pub(crate) fn nearest(c: &Corners, target: impl Fn(usize) -> bool + Sync) -> Vec<Option<f64>> {
-    let tree = c.tree(&target);
-    (0..c.n())
-        .into_par_iter()
-        .map_init(Search::new, |search, p| {
-            search.nearest(c, &tree, p).map(|s| s / 1000.0)
-        })
+    nearest_many(c, &[&target]).pop().unwrap_or_default()
+}
+
+/// [`nearest`] for several targets at once: one list per target, in the order given. Each
+/// target's tree is built once, and each patch's corners are grouped once for all targets.
+pub(crate) fn nearest_many(c: &Corners, targets: &[Target]) -> Vec<Vec<Option<f64>>> {
+    let k = targets.len();
+    let n = c.n();
+    if k == 0 {
+        return Vec::new();
+    }
+    let trees: Vec<KdTree> = targets.par_iter().map(|t| c.tree(t)).collect();
+    // Per patch, its k distances side by side.
+    let mut flat = vec![None; n * k];
+    flat.par_chunks_mut(k)
+        .enumerate()
+        .for_each_init(Search::new, |search, (p, out)| {
+            search.group(c, p);
+            for (o, tree) in out.iter_mut().zip(&trees) {
+                *o = search.nearest(c, tree, p).map(|s| s / 1000.0);
+            }
+        });
+    (0..k)
+        .map(|t| flat.iter().skip(t).step_by(k).copied().collect())
         .collect()
 }
 
@@ -44,7 +66,7 @@ struct Group {
     hi: [f64; 3],
 }
 
-/// One thread's working state for [`nearest`].
+/// One thread's working state for [`nearest_many`].
 struct Search {
     geodesics: Geodesics,
     stack: Vec<(u32, f64)>,
@@ -73,37 +95,37 @@ impl Search {
     fn group(&mut self, c: &Corners, p: usize) {
         self.items.clear();
         self.groups.clear();
-        let own = KdTree::new(&c.xyz, &c.label, c.range(p).collect());
-        for leaf in own.leaves() {
-            for chunk in leaf.chunks(GROUP) {
-                let s = self.items.len();
-                self.items.extend_from_slice(chunk);
-                let g = &mut self.items[s..];
-                g.sort_unstable_by(|&a, &b| {
-                    let (a, b) = (c.pts[a as usize], c.pts[b as usize]);
-                    a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1))
-                });
-                let mut lo = [f64::INFINITY; 3];
-                let mut hi = [f64::NEG_INFINITY; 3];
-                for &i in g.iter() {
-                    let x = &c.xyz[i as usize];
-                    for k in 0..3 {
-                        lo[k] = lo[k].min(x[k]);
-                        hi[k] = hi[k].max(x[k]);
-                    }
+        self.items.extend(c.range(p));
+        let (items, groups) = (&mut self.items, &mut self.groups);
+        leaves_in_place(&c.xyz, items, 0, &mut |range| {
+            groups.push(Group {
+                range,
+                lo: [0.0; 3],
+                hi: [0.0; 3],
+            })
+        });
+        for g in groups.iter_mut() {
+            let items = &mut items[g.range.clone()];
+            items.sort_unstable_by(|&a, &b| {
+                let (a, b) = (c.pts[a as usize], c.pts[b as usize]);
+                a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1))
+            });
+            let mut lo = [f64::INFINITY; 3];
+            let mut hi = [f64::NEG_INFINITY; 3];
+            for &i in items.iter() {
+                let x = &c.xyz[i as usize];
+                for k in 0..3 {
+                    lo[k] = lo[k].min(x[k]);
+                    hi[k] = hi[k].max(x[k]);
                 }
-                self.groups.push(Group {
-                    range: s..self.items.len(),
-                    lo,
-                    hi,
-                });
             }
+            (g.lo, g.hi) = (lo, hi);
         }
     }
 
     /// The geodesic (metres) from patch `p` to the nearest corner in `tree` of another patch.
+    /// The groups of `p` must be in place ([`Search::group`]).
     fn nearest(&mut self, c: &Corners, tree: &KdTree, p: usize) -> Option<f64> {
-        self.group(c, p);
         let own = |l: u32| l as usize == p;
         // Phase 1, arithmetic only: the pair nearest in chord.
         let mut cbest = f64::INFINITY;

@@ -140,14 +140,16 @@ fn metrics_of(
         Ok(())
     };
     let distances = || {
-        let near = reach::nearest(&c, |_| true);
-        let near_occ = reach::nearest(&c, |p| occupied[p]);
-        let near_range = if with_range_distance {
-            reach::nearest(&c, |p| patches[p].class == class::INSIDE)
-        } else {
-            vec![None; n]
-        };
-        (near, near_occ, near_range)
+        let any = |_: usize| true;
+        let occ = |p: usize| occupied[p];
+        let inside = |p: usize| patches[p].class == class::INSIDE;
+        let mut targets: Vec<reach::Target> = vec![&any, &occ];
+        if with_range_distance {
+            targets.push(&inside);
+        }
+        let mut near = reach::nearest_many(&c, &targets).into_iter();
+        let mut next = || near.next().unwrap_or_else(|| vec![None; n]);
+        (next(), next(), next())
     };
     let (done, (near, near_occ, near_range)) = std::thread::scope(|scope| {
         let far = scope.spawn(distances);

@@ -27,7 +27,7 @@ use super::geodesics::{ball_bound, ecef, longest_geodesic, search_bound, Geodesi
 use super::kdtree::KdTree;
 use std::collections::VecDeque;
 
-pub(crate) use super::nearest::nearest;
+pub(crate) use super::nearest::{nearest, nearest_many, Target};
 
 /// The corners of every patch.
 pub(crate) struct Corners {

@@ -3,7 +3,7 @@
 //! search may skip pairs only where that cannot change the minimum, so the two must agree to
 //! the last bit.
 
-use super::reach::{nearest, Corners};
+use super::reach::{nearest, nearest_many, Corners};
 use crate::model::RangeModel;
 use crate::patches::Connectivity;
 use crate::GridSpec;
@@ -71,16 +71,15 @@ fn nearest_equals_brute_force_near_and_far() {
         let n = model.patches().len();
         assert!(n > 5, "seed {seed}: {n} patches");
         let occupied = |p: usize| model.patches()[p].records > 0;
-        assert_eq!(
-            nearest(&c, |_| true),
-            brute_force(&c, n, |_| true),
-            "seed {seed}"
-        );
-        assert_eq!(
-            nearest(&c, occupied),
-            brute_force(&c, n, occupied),
-            "seed {seed}"
-        );
+        let any = |_: usize| true;
+        let class1 = |p: usize| model.patches()[p].class == crate::raster_io::class::INSIDE;
+        // Several targets in one search, and one alone.
+        let many = nearest_many(&c, &[&any, &occupied, &class1]);
+        assert_eq!(many.len(), 3, "seed {seed}");
+        assert_eq!(many[0], brute_force(&c, n, any), "seed {seed}");
+        assert_eq!(many[1], brute_force(&c, n, occupied), "seed {seed}");
+        assert_eq!(many[2], brute_force(&c, n, class1), "seed {seed}");
+        assert_eq!(nearest(&c, occupied), many[1], "seed {seed}");
     }
 }
 

@@ -268,6 +268,7 @@ pub(super) trait Sample: Copy + PartialEq + PartialOrd {
 impl Sample for f32 {
     const ZERO: Self = 0.0;
     const ONE: Self = 1.0;
+    #[inline(always)]
     fn finite(self) -> bool {
         self.is_finite()
     }
@@ -276,6 +277,7 @@ impl Sample for f32 {
 impl Sample for f64 {
     const ZERO: Self = 0.0;
     const ONE: Self = 1.0;
+    #[inline(always)]
     fn finite(self) -> bool {
         self.is_finite()
     }
@@ -285,6 +287,36 @@ impl Sample for f64 {
 /// NaN, +-inf and `nd` (NaN: no nodata value), else `v >= t`. Returns whether all data
 /// cells are 0 or 1, and adds the NaN/inf cells to `non_finite`.
 pub(super) fn code_cells<T: Sample>(
+    values: &[T],
+    codes: &mut [u8],
+    t: T,
+    nd: T,
+    non_finite: &mut u64,
+) -> bool {
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") {
+        // SAFETY: the CPU has AVX2 (checked just above).
+        return unsafe { code_cells_avx2(values, codes, t, nd, non_finite) };
+    }
+    code_cells_body(values, codes, t, nd, non_finite)
+}
+
+/// [`code_cells`] compiled for AVX2: the same operations on wider vectors, so the same
+/// codes (comparisons are exact in every width).
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+fn code_cells_avx2<T: Sample>(
+    values: &[T],
+    codes: &mut [u8],
+    t: T,
+    nd: T,
+    non_finite: &mut u64,
+) -> bool {
+    code_cells_body(values, codes, t, nd, non_finite)
+}
+
+#[inline(always)]
+fn code_cells_body<T: Sample>(
     values: &[T],
     codes: &mut [u8],
     t: T,

@@ -152,6 +152,23 @@ fn count_reached<T: Sample>(values: &[T], codes: &[u8], cands: &[T], out: &mut [
 
 /// Cells with `v >= c` (and, unless `exact`, a data code).
 fn count_ge<T: Sample>(values: &[T], codes: &[u8], c: T, exact: bool) -> u32 {
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") {
+        // SAFETY: the CPU has AVX2 (checked just above).
+        return unsafe { count_ge_avx2(values, codes, c, exact) };
+    }
+    count_ge_body(values, codes, c, exact)
+}
+
+/// [`count_ge`] compiled for AVX2 (the same counts: comparisons are exact in every width).
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+fn count_ge_avx2<T: Sample>(values: &[T], codes: &[u8], c: T, exact: bool) -> u32 {
+    count_ge_body(values, codes, c, exact)
+}
+
+#[inline(always)]
+fn count_ge_body<T: Sample>(values: &[T], codes: &[u8], c: T, exact: bool) -> u32 {
     if exact {
         values.iter().fold(0u32, |n, &v| n + (v >= c) as u32)
     } else {

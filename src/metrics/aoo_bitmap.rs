@@ -73,7 +73,26 @@ impl QuarterBitmap {
         QuarterBitmap::new(q, (-hx, hx), (-hy, hy))
     }
 
+    /// Mark the quarter cells holding `pts`; false when one lies outside the bitmap.
+    pub(crate) fn set_all(&self, pts: &[(f64, f64)]) -> bool {
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU has AVX2 (checked just above).
+            return unsafe { self.set_all_avx2(pts) };
+        }
+        pts.iter().fold(true, |ok, &(x, y)| self.set(x, y) & ok)
+    }
+
+    /// [`QuarterBitmap::set_all`] compiled for AVX2 (its `floor` is one instruction there;
+    /// the same cells are set).
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    fn set_all_avx2(&self, pts: &[(f64, f64)]) -> bool {
+        pts.iter().fold(true, |ok, &(x, y)| self.set(x, y) & ok)
+    }
+
     /// Mark the quarter cell holding (x, y); false when it lies outside the bitmap.
+    #[inline(always)]
     pub(crate) fn set(&self, x: f64, y: f64) -> bool {
         if !(x.is_finite() && y.is_finite()) {
             return false;

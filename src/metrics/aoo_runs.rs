@@ -88,7 +88,7 @@ fn count_with(
             rows,
             &|| (),
             &|_, pts| {
-                if !pts.iter().all(|&(x, y)| bitmap.set(x, y)) {
+                if !bitmap.set_all(pts) {
                     all_in.store(false, std::sync::atomic::Ordering::Relaxed);
                 }
             },

@@ -25,6 +25,7 @@
 
 use super::geodesics::{ball_bound, ecef, longest_geodesic, search_bound, Geodesics};
 use super::kdtree::KdTree;
+use rayon::prelude::*;
 use std::collections::VecDeque;
 
 pub(crate) use super::nearest::{nearest, nearest_many, Target};
@@ -52,7 +53,7 @@ impl Corners {
             label.extend(std::iter::repeat_n(p as u32, bc.start[p + 1] - bc.start[p]));
         }
         let pts: Vec<(f64, f64)> = ll.iter().map(|&(lon, lat)| (lat, lon)).collect();
-        let xyz = pts.iter().map(|&(la, lo)| ecef(la, lo)).collect();
+        let xyz = pts.par_iter().map(|&(la, lo)| ecef(la, lo)).collect();
         Ok(Corners {
             pts,
             xyz,

@@ -12,6 +12,10 @@
 
 use super::{RangeModel, Run};
 use crate::Result;
+use rayon::prelude::*;
+
+/// Corner lines per parallel band of [`RangeModel::boundary_corners`].
+const BAND_LINES: usize = 1024;
 
 /// Boundary corners grouped by patch: the corners of patch id `p` are
 /// `line[start[p - 1]..start[p]]` and `col[..]` alike, in (line, column) order.
@@ -60,22 +64,40 @@ impl RowCursor<'_> {
 
 impl RangeModel {
     /// The boundary corners of every patch that `keep` selects (by id).
-    pub fn boundary_corners(&self, keep: &dyn Fn(u32) -> bool) -> Result<BoundaryCorners> {
+    pub fn boundary_corners(&self, keep: &(dyn Fn(u32) -> bool + Sync)) -> Result<BoundaryCorners> {
         let g = &self.grid;
         let (w, h) = (g.width as u32, g.height);
         let wrap = g.wraps_antimeridian();
-        let mut entries: Vec<(u32, u32, u32)> = Vec::new(); // (patch, line, col)
-        let mut prev: Vec<Run> = Vec::new();
-        let line_corners = |l: u32, above: &[Run], below: &[Run], out: &mut Vec<_>| {
-            corners_of_line(l, above, below, w, wrap, keep, out)
-        };
-        self.for_each_row(&mut |r, runs| {
-            line_corners(r as u32, &prev, runs, &mut entries);
-            prev.clear();
-            prev.extend_from_slice(runs);
-            Ok(())
-        })?;
-        line_corners(h as u32, &prev, &[], &mut entries);
+        // Lines in bands on every core; a band reads the row above its first line too.
+        // Entries come back in band order, so in (line, column) order as from one sweep.
+        let bands: Vec<std::ops::Range<usize>> = (0..=h)
+            .step_by(BAND_LINES)
+            .map(|l| l..(l + BAND_LINES).min(h + 1))
+            .collect();
+        let per_band = bands
+            .into_par_iter()
+            .map(|lines| -> Result<Vec<(u32, u32, u32)>> {
+                let mut entries = Vec::new(); // (patch, line, col)
+                let mut prev: Vec<Run> = Vec::new();
+                // Line l lies between rows l - 1 and l.
+                self.for_rows(
+                    lines.start.saturating_sub(1)..lines.end.min(h),
+                    &mut |r, runs| {
+                        if r + 1 > lines.start {
+                            corners_of_line(r as u32, &prev, runs, w, wrap, keep, &mut entries);
+                        }
+                        prev.clear();
+                        prev.extend_from_slice(runs);
+                        Ok(())
+                    },
+                )?;
+                if lines.end == h + 1 {
+                    corners_of_line(h as u32, &prev, &[], w, wrap, keep, &mut entries);
+                }
+                Ok(entries)
+            })
+            .collect::<Result<Vec<_>>>()?;
+        let entries: Vec<(u32, u32, u32)> = per_band.into_iter().flatten().collect();
         // Group by patch, keeping (line, column) order within each: a counting sort.
         let n = self.patches.len();
         let mut start = vec![0usize; n + 1];

@@ -243,11 +243,17 @@ pub fn run_range(
     // The vector step's polygons need the model alone: trace and encode them on a second
     // thread while the metrics run (they leave a core idle part of the time).
     let run_dir = dir.file("");
-    let (to_range, prepared) = std::thread::scope(|s| -> Result<_> {
+    // The report's map needs no metrics either: drawn beside them too.
+    let (to_range, prepared, drawn) = std::thread::scope(|s| -> Result<_> {
         let prep = opts
             .vectors
             .as_ref()
             .map(|v| s.spawn(|| crate::vectors::prepare_vectors(&model, v, &run_dir)));
+        let draw = nodata.as_ref().map(|nodata| {
+            let before = crate::report_html::ReportData::from_result(&result, model.grid());
+            let model = &model;
+            s.spawn(move || crate::report_html::draw_run_map(&before, model, nodata))
+        });
         let mut to_range = Vec::new();
         if opts.metrics.enabled {
             to_range = crate::metrics::add_range_metrics(
@@ -259,14 +265,15 @@ pub fn run_range(
             clock.lap("metrics");
         }
         let prepared = prep.map(|h| h.join().unwrap_or_else(|p| std::panic::resume_unwind(p)));
-        Ok((to_range, prepared.transpose()?))
+        let drawn = draw.map(|h| h.join().unwrap_or_else(|p| std::panic::resume_unwind(p)));
+        Ok((to_range, prepared.transpose()?, drawn.transpose()?))
     })?;
     write_csv(&dir.file("patches.csv"), &result.patches)?;
     write_csv(&dir.file("records.csv"), &result.records)?;
     let json = serde_json::to_string_pretty(&result.summary).expect("summary serialises");
     crate::output::write_text(&dir.file("summary.json"), &(json + "\n"))?;
-    if let Some(nodata) = &nodata {
-        crate::report_html::write_run_report(&dir, &result, &model, nodata)?;
+    if let Some(drawn) = drawn {
+        crate::report_html::write_run_report(&dir, &result, &model, drawn)?;
     }
     if let (Some(v), Some(prep)) = (&opts.vectors, prepared) {
         let rows = crate::vectors::RunRows {

@@ -130,6 +130,24 @@ pub fn render(
     classes: &dyn RowSource,
     access: &mut AccessFactory<'_>,
 ) -> Result<ReportFiles> {
+    let drawn = draw(data, classes, access)?;
+    finish(data, drawn)
+}
+
+/// The map of a report: it needs the classes, M, the records and the area totals, not the
+/// metrics, so a run draws it while its metrics are computed.
+pub struct DrawnMap {
+    map: draw::MapPng,
+    image: ClassImage,
+    title: String,
+}
+
+/// Draw the map (see [`DrawnMap`]).
+pub fn draw(
+    data: &ReportData,
+    classes: &dyn RowSource,
+    access: &mut AccessFactory<'_>,
+) -> Result<DrawnMap> {
     let grid = &data.grid;
     let (w, h) = (grid.width, grid.height);
     let (mw, mh) = draw::PANEL_MAX;
@@ -204,6 +222,12 @@ pub fn render(
             km2("outside_accessible"),
         ],
     })?;
+    Ok(DrawnMap { map, image, title })
+}
+
+/// The page around a drawn map, from `data` (the run's figures, metrics included).
+pub fn finish(data: &ReportData, drawn: DrawnMap) -> Result<ReportFiles> {
+    let DrawnMap { map, image, title } = drawn;
     let html = page::page(data, &map, &image, &title)?;
     Ok(ReportFiles {
         map_png: map.png,
@@ -237,22 +261,31 @@ pub fn fmt_num(x: f64, decimals: usize) -> String {
     out
 }
 
-/// The report of a run in progress: drawn from the run's result and its range model (with
-/// the nodata runs kept during the pass), written into the run's temporary folder.
+/// The map of a run in progress, drawn from the run's result before its metrics
+/// ([`ReportData::from_result`]) and its range model (with the nodata runs kept during the
+/// pass).
+pub fn draw_run_map(
+    data: &ReportData,
+    model: &crate::RangeModel,
+    nodata: &runs::ClassRuns,
+) -> Result<DrawnMap> {
+    let whole = data.summary["accessible"]["whole_raster"] == serde_json::Value::Bool(true)
+        || !model.has_m();
+    let mut factory = || -> Result<Option<Box<dyn AccessRows + '_>>> {
+        Ok((!whole).then(|| Box::new(image::ModelAccess(model)) as Box<dyn AccessRows>))
+    };
+    draw(data, &runs::ModelRows { model, nodata }, &mut factory)
+}
+
+/// Write the report of a finished run (its map drawn by [`draw_run_map`]) into `dir`.
 pub fn write_run_report(
     dir: &crate::OutputDir,
     result: &crate::RangeResult,
     model: &crate::RangeModel,
-    nodata: &runs::ClassRuns,
+    drawn: DrawnMap,
 ) -> Result<()> {
-    let grid = model.grid();
-    let data = ReportData::from_result(result, grid);
-    let whole = result.summary.accessible.whole_raster || !model.has_m();
-    let mut factory = || -> Result<Option<Box<dyn AccessRows + '_>>> {
-        Ok((!whole).then(|| Box::new(image::ModelAccess(model)) as Box<dyn AccessRows>))
-    };
-    let rows = runs::ModelRows { model, nodata };
-    let files = render(&data, &rows, &mut factory)?;
+    let data = ReportData::from_result(result, model.grid());
+    let files = finish(&data, drawn)?;
     let png = dir.file("map.png");
     std::fs::write(&png, &files.map_png).map_err(crate::Error::io(&png))?;
     crate::output::write_text(&dir.file("report.html"), &files.html)

@@ -161,17 +161,13 @@ fn for_band_centres<S>(
     let spec = aoo.spec();
     bands.into_par_iter().try_for_each(|band| -> Result<()> {
         let mut project = spec.projector(grid)?;
-        let (mut cols, mut pts) = (Vec::new(), Vec::new());
+        let mut pts = Vec::new();
         let mut state = start();
         rows(band, &mut |row, runs: &[(u32, u32)]| {
-            cols.clear();
-            for &(a, b) in runs {
-                cols.extend(a..b);
-            }
-            if cols.is_empty() {
+            if runs.iter().all(|&(a, b)| a >= b) {
                 return Ok(());
             }
-            project.row(row, &cols, &mut pts)?;
+            project.row(row, runs, &mut pts)?;
             row_fn(&mut state, &pts);
             Ok(())
         })?;

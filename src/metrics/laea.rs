@@ -79,17 +79,42 @@ impl Laea {
         }
     }
 
-    /// Project the centres of columns `cols` of the row at latitude `lat` (degrees).
-    pub(crate) fn row_at(&self, lat: f64, cols: &[u32], out: &mut Vec<(f64, f64)>) {
+    /// Project the centres of the columns of `runs` (`start..end`) of the row at latitude
+    /// `lat` (degrees), appending (x, y) to `out`.
+    pub(crate) fn row_at(&self, lat: f64, runs: &[(u32, u32)], out: &mut Vec<(f64, f64)>) {
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU has AVX2 (checked just above).
+            return unsafe { self.row_at_avx2(lat, runs, out) };
+        }
+        self.row_at_body(lat, runs, out)
+    }
+
+    /// [`Laea::row_at`] compiled for AVX2: the same operations in the same order (no fused
+    /// multiply-add is formed), so the same coordinates.
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    fn row_at_avx2(&self, lat: f64, runs: &[(u32, u32)], out: &mut Vec<(f64, f64)>) {
+        self.row_at_body(lat, runs, out)
+    }
+
+    #[inline(always)]
+    fn row_at_body(&self, lat: f64, runs: &[(u32, u32)], out: &mut Vec<(f64, f64)>) {
         let sin_b = (q(self.e, self.e2, lat.to_radians().sin()) / self.qp).clamp(-1.0, 1.0);
         let cos_b = (1.0 - sin_b * sin_b).sqrt();
-        for &c in cols {
-            let (sl, cl) = self.sin_cos_dlon[c as usize];
-            let b = self.rq * (2.0 / (1.0 + self.sin_b1 * sin_b + self.cos_b1 * cos_b * cl)).sqrt();
-            out.push((
-                b * self.d * cos_b * sl,
-                (b / self.d) * (self.cos_b1 * sin_b - self.sin_b1 * cos_b * cl),
-            ));
+        for &(a, b) in runs {
+            out.extend(
+                self.sin_cos_dlon[a as usize..b as usize]
+                    .iter()
+                    .map(|&(sl, cl)| {
+                        let b = self.rq
+                            * (2.0 / (1.0 + self.sin_b1 * sin_b + self.cos_b1 * cos_b * cl)).sqrt();
+                        (
+                            b * self.d * cos_b * sl,
+                            (b / self.d) * (self.cos_b1 * sin_b - self.sin_b1 * cos_b * cl),
+                        )
+                    }),
+            );
         }
     }
 }
@@ -134,22 +159,23 @@ impl RowProjector {
         })
     }
 
-    /// Project the centres of `cols` in grid row `row`, appending (x, y) metres to `out`
-    /// (cleared first).
+    /// Project the centres of the columns of `runs` (`start..end`, in order) in grid row
+    /// `row`, appending (x, y) metres to `out` (cleared first).
     pub(crate) fn row(
         &mut self,
         row: usize,
-        cols: &[u32],
+        runs: &[(u32, u32)],
         out: &mut Vec<(f64, f64)>,
     ) -> Result<()> {
         out.clear();
         match self {
             RowProjector::Laea(l) => {
                 let lat = l.gt[3] + (row as f64 + 0.5) * l.gt[5];
-                l.row_at(lat, cols, out);
+                l.row_at(lat, runs, out);
             }
             RowProjector::Proj { ct, gt, xs, ys } => {
                 let y = gt[3] + (row as f64 + 0.5) * gt[5];
+                let cols: Vec<u32> = runs.iter().flat_map(|&(a, b)| a..b).collect();
                 for chunk in cols.chunks(65_536) {
                     xs.clear();
                     ys.clear();

@@ -69,9 +69,14 @@ pub(crate) struct PointBuffer {
     sigma_out: f64,
     /// Spherical angle within which every point is within D (radians).
     sigma_in: f64,
+    /// Sine and cosine of each point's latitude.
+    sin_cos_lat: Vec<(f64, f64)>,
+    /// Cosines of `sigma_out` and `sigma_in` (each at most pi).
+    cos_sigma: (f64, f64),
     intervals: Vec<(usize, usize)>,
     sides: Vec<Side>,
     row_out: Vec<(usize, usize)>,
+    cands: Vec<usize>,
 }
 
 /// The columns of one side of a point's circle on one row: column `c0 + step * j` for
@@ -90,14 +95,17 @@ pub(crate) struct Side {
 /// Sort and merge overlapping or touching column intervals in place.
 fn merge_intervals(v: &mut Vec<(usize, usize)>) {
     v.sort_unstable();
-    let mut out: Vec<(usize, usize)> = Vec::with_capacity(v.len());
-    for &(a, b) in v.iter() {
-        match out.last_mut() {
-            Some(last) if a <= last.1 + 1 => last.1 = last.1.max(b),
-            _ => out.push((a, b)),
+    let mut n = 0;
+    for i in 0..v.len() {
+        let (a, b) = v[i];
+        if n > 0 && a <= v[n - 1].1 + 1 {
+            v[n - 1].1 = v[n - 1].1.max(b);
+        } else {
+            v[n] = (a, b);
+            n += 1;
         }
     }
-    *v = out;
+    v.truncate(n);
 }
 
 /// Whether columns a..=b all lie in the merged intervals `v`.
@@ -109,6 +117,8 @@ fn covered(v: &[(usize, usize)], a: usize, b: usize) -> bool {
 impl PointBuffer {
     /// Index `points` ((lon, lat) degrees, finite, |lat| <= 90) for a buffer of `d_m` metres.
     pub(crate) fn new(points: &[(f64, f64)], d_m: f64) -> PointBuffer {
+        let sigma_out = d_m / m_min() * (1.0 + 1e-9) + 1e-12;
+        let sigma_in = d_m / m_max() * (1.0 - 1e-9);
         let pts: Vec<(f64, f64)> = points
             .iter()
             .map(|&(lon, lat)| (lat, (lon + 180.0).rem_euclid(360.0) - 180.0))
@@ -119,15 +129,24 @@ impl PointBuffer {
             .map(|(i, &(lat, lon))| GeomWithData::new(unit(lat, lon), i))
             .collect();
         PointBuffer {
-            pts,
             d_m,
             geod: Geodesic::wgs84(),
             tree: RTree::bulk_load(items),
-            sigma_out: d_m / m_min() * (1.0 + 1e-9) + 1e-12,
-            sigma_in: d_m / m_max() * (1.0 - 1e-9),
+            sigma_out,
+            sigma_in,
+            cos_sigma: (
+                sigma_out.min(std::f64::consts::PI).cos(),
+                sigma_in.min(std::f64::consts::PI).cos(),
+            ),
+            sin_cos_lat: pts
+                .iter()
+                .map(|&(lat, _)| lat.to_radians().sin_cos())
+                .collect(),
+            pts,
             intervals: Vec::new(),
             sides: Vec::new(),
             row_out: Vec::new(),
+            cands: Vec::new(),
         }
     }
 
@@ -190,13 +209,15 @@ impl PointBuffer {
         let z_lo = (lat - reach).max(-90.0).to_radians().sin();
         let z_hi = (lat + reach).min(90.0).to_radians().sin();
         let env = AABB::from_corners([-2.0, -2.0, z_lo - 1e-15], [2.0, 2.0, z_hi + 1e-15]);
-        let cands: Vec<usize> = self.tree.locate_in_envelope(&env).map(|p| p.data).collect();
+        let mut cands = std::mem::take(&mut self.cands);
+        cands.clear();
+        cands.extend(self.tree.locate_in_envelope(&env).map(|p| p.data));
         let mut intervals = std::mem::take(&mut self.intervals);
         let mut sides = std::mem::take(&mut self.sides);
         intervals.clear();
         sides.clear();
         let (sp, cp) = lat.to_radians().sin_cos();
-        for i in cands {
+        for &i in &cands {
             if self.record_row(grid, lat, (sp, cp), i, &mut sides) {
                 intervals.clear();
                 intervals.push((0, w - 1));
@@ -204,6 +225,7 @@ impl PointBuffer {
                 break;
             }
         }
+        self.cands = cands;
         let (x0, dx) = (grid.geo_transform[0], grid.geo_transform[1]);
         let centre = |c: i64| x0 + (c as f64 + 0.5) * dx;
         // Columns certainly inside (within the inner spherical bound of some point).
@@ -264,26 +286,26 @@ impl PointBuffer {
         i: usize,
         sides: &mut Vec<Side>,
     ) -> bool {
-        let (plat, plon) = self.pts[i];
-        let (spr, cpr) = plat.to_radians().sin_cos();
+        let plon = self.pts[i].1;
+        let (spr, cpr) = self.sin_cos_lat[i];
         let denom = cp * cpr;
         // Longitude half-widths (degrees): `l_up` bounds the covered set from outside,
         // `l_in` from inside (negative: nothing known to be inside).
         let (l_up, l_in) = if denom < 1e-12 {
             (180.0, -1.0)
         } else {
-            let half = |sigma: f64| -> Option<f64> {
-                let rhs = (sigma.min(std::f64::consts::PI).cos() - sp * spr) / denom;
+            let half = |cos_sigma: f64| -> Option<f64> {
+                let rhs = (cos_sigma - sp * spr) / denom;
                 if rhs > 1.0 {
                     None
                 } else {
                     Some(rhs.max(-1.0).acos().to_degrees())
                 }
             };
-            let Some(up) = half(self.sigma_out) else {
+            let Some(up) = half(self.cos_sigma.0) else {
                 return false;
             };
-            let l_in = half(self.sigma_in).map_or(-1.0, |v| v - 1e-5);
+            let l_in = half(self.cos_sigma.1).map_or(-1.0, |v| v - 1e-5);
             ((up + 1e-5).min(180.0), l_in)
         };
         if l_up >= 180.0 && self.within(lat, plon + 180.0, i) {

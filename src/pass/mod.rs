@@ -74,7 +74,7 @@ pub(crate) fn run_pass(
     sink: &mut dyn RowSink,
 ) -> Result<PassOutput> {
     let grid = raster.grid();
-    let (w, h) = (grid.width, grid.height);
+    let h = grid.height;
     let n_strips = h.div_ceil(STRIP_ROWS);
     let threads = decode_threads().min(n_strips).max(1);
     let next = AtomicUsize::new(0);
@@ -142,9 +142,7 @@ pub(crate) fn run_pass(
                             m.as_deref(),
                         )
                         .map(|binary| {
-                            if let Some(m) = &m {
-                                apply_m_in_worker(m, w, &mut codes);
-                            }
+                            // The workers' M is applied while coding (suitable beyond M: 2).
                             StripClasses {
                                 index: i,
                                 codes,
@@ -236,19 +234,4 @@ pub(crate) fn decode_threads() -> usize {
         .and_then(|v| v.parse().ok())
         .filter(|&n: &usize| n > 0)
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
-}
-
-/// Apply M in a worker (`m`: per row of the strip, M's half-open column intervals): a
-/// suitable cell (1) outside them becomes 2 (suitable, beyond M); the rest stays.
-fn apply_m_in_worker(m: &[Vec<(usize, usize)>], w: usize, codes: &mut [u8]) {
-    // Branch-free, so the loop vectorises.
-    let beyond = |k: &mut [u8]| k.iter_mut().for_each(|k| *k += (*k == 1) as u8);
-    for (row, iv) in codes.chunks_mut(w).zip(m) {
-        let mut from = 0;
-        for &(a, b) in iv {
-            beyond(&mut row[from..a]);
-            from = b;
-        }
-        beyond(&mut row[from..]);
-    }
 }

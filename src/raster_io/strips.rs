@@ -2,7 +2,7 @@
 
 use super::class;
 use super::open_readonly;
-use super::tally::{code_and_bin, Tally};
+use super::tally::{code_and_bin, mark_beyond, Tally};
 use super::tiles::{pass_reads_blocks, TileCache, TileValues};
 use super::NonFiniteCount;
 use crate::{Error, Result};
@@ -101,12 +101,10 @@ impl StripReader {
         // Every cell of both is written below; a pooled buffer keeps its old bytes until then.
         codes.resize(n, 0);
         match tally {
+            _ if cands.is_empty() => *tally = Tally::None,
             Tally::Bins(b) => b.resize(n, 0),
             Tally::Rows(rt) => rt.reset(rows, cands.len()),
             Tally::None => {}
-        }
-        if cands.is_empty() {
-            *tally = Tally::None;
         }
         // Thresholds in the band's type, compared exactly as in float64 (`f32_threshold`);
         // as GDAL does for float32 bands, the nodata value is taken at float32 precision.
@@ -226,7 +224,7 @@ fn code_row<T: Sample>(
         cands,
     } = cells;
     let codes = &mut codes[at..at + values.len()];
-    match tally {
+    let binary = match tally {
         Tally::None => code_cells(values, codes, t, nd, non_finite),
         Tally::Bins(b) => {
             let out = &mut b[at..at + values.len()];
@@ -243,7 +241,11 @@ fn code_row<T: Sample>(
             rt.count_row(r, x0, values, codes, cands, m_row, exact);
             binary
         }
+    };
+    if let Some(m) = m {
+        mark_beyond(codes, x0, &m[r]); // while the codes are in cache
     }
+    binary
 }
 
 /// The smallest f32 `t32` with `v >= t32` exactly when `v as f64 >= t`, for every f32 `v`.
@@ -340,47 +342,45 @@ fn code_cells_body<T: Sample>(
     not_binary == 0
 }
 
-/// Code float32 cells (and count the candidates they reach into `bins`, unless empty) as
-/// the pass does: `t` and the candidates compared exactly as in float64, nodata at
-/// float32 precision.
-#[cfg(test)]
-fn code_cells_f32(
-    values: &[f32],
-    codes: &mut [u8],
-    t: f64,
-    nodata: Option<f64>,
-    (cands, bins): (&[f64], &mut [u8]),
-    non_finite: &mut u64,
-) -> bool {
-    let nd = nodata.map(|v| v as f32).unwrap_or(f32::NAN);
-    let c32: Vec<f32> = cands.iter().map(|&c| f32_threshold(c)).collect();
-    let tt = (f32_threshold(t), nd);
-    if bins.is_empty() {
-        return code_cells(values, codes, tt.0, nd, non_finite);
-    }
-    code_and_bin(values, codes, tt, &c32, bins, non_finite)
-}
-
-/// Code float64 cells (and count the candidates they reach into `bins`, unless empty).
-#[cfg(test)]
-fn code_cells_f64(
-    values: &[f64],
-    codes: &mut [u8],
-    t: f64,
-    nodata: Option<f64>,
-    (cands, bins): (&[f64], &mut [u8]),
-    non_finite: &mut u64,
-) -> bool {
-    let nd = nodata.unwrap_or(f64::NAN);
-    if bins.is_empty() {
-        return code_cells(values, codes, t, nd, non_finite);
-    }
-    code_and_bin(values, codes, (t, nd), cands, bins, non_finite)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Code float32 cells (and count the candidates they reach into `bins`, unless empty) as
+    /// the pass does: `t` and the candidates compared exactly as in float64, nodata at
+    /// float32 precision.
+    fn code_cells_f32(
+        values: &[f32],
+        codes: &mut [u8],
+        t: f64,
+        nodata: Option<f64>,
+        (cands, bins): (&[f64], &mut [u8]),
+        non_finite: &mut u64,
+    ) -> bool {
+        let nd = nodata.map(|v| v as f32).unwrap_or(f32::NAN);
+        let c32: Vec<f32> = cands.iter().map(|&c| f32_threshold(c)).collect();
+        let tt = (f32_threshold(t), nd);
+        if bins.is_empty() {
+            return code_cells(values, codes, tt.0, nd, non_finite);
+        }
+        code_and_bin(values, codes, tt, &c32, bins, non_finite)
+    }
+
+    /// Code float64 cells (and count the candidates they reach into `bins`, unless empty).
+    fn code_cells_f64(
+        values: &[f64],
+        codes: &mut [u8],
+        t: f64,
+        nodata: Option<f64>,
+        (cands, bins): (&[f64], &mut [u8]),
+        non_finite: &mut u64,
+    ) -> bool {
+        let nd = nodata.unwrap_or(f64::NAN);
+        if bins.is_empty() {
+            return code_cells(values, codes, t, nd, non_finite);
+        }
+        code_and_bin(values, codes, (t, nd), cands, bins, non_finite)
+    }
 
     #[test]
     fn f32_threshold_is_exact_for_every_neighbour() {

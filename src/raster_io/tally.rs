@@ -59,16 +59,14 @@ impl RowTally {
         exact: bool,
     ) {
         let len = values.len();
-        // M's pieces in this segment, relative to x0; None when it covers the segment.
+        // M's pieces in this segment, relative to x0; `whole` when one covers it.
         let mut pieces = [(0usize, 0usize); 8];
         let mut n_pieces = 0;
         let mut many: Vec<(usize, usize)> = Vec::new();
         let whole = match m {
             None => true,
             Some(iv) => {
-                let first = iv.partition_point(|&(_, b)| b <= x0);
-                for &(a, b) in iv[first..].iter().take_while(|&&(a, _)| a < x0 + len) {
-                    let p = (a.max(x0) - x0, b.min(x0 + len) - x0);
+                for p in pieces_in(iv, x0, len) {
                     if n_pieces < pieces.len() {
                         pieces[n_pieces] = p;
                         n_pieces += 1;
@@ -148,6 +146,33 @@ fn count_reached<T: Sample>(values: &[T], codes: &[u8], cands: &[T], out: &mut [
     for (o, &k) in out.iter_mut().zip(codes) {
         *o |= ((k == class::NODATA) as u8).wrapping_neg();
     }
+}
+
+/// The parts of the half-open intervals `iv` (sorted, disjoint) within columns
+/// `x0..x0 + len`, relative to `x0`.
+fn pieces_in(
+    iv: &[(usize, usize)],
+    x0: usize,
+    len: usize,
+) -> impl Iterator<Item = (usize, usize)> + '_ {
+    let first = iv.partition_point(|&(_, b)| b <= x0);
+    iv[first..]
+        .iter()
+        .take_while(move |&&(a, _)| a < x0 + len)
+        .map(move |&(a, b)| (a.max(x0) - x0, b.min(x0 + len) - x0))
+}
+
+/// Mark the suitable cells (1) of a row segment (columns `x0..`) outside M's intervals `iv`
+/// as suitable beyond M (2).
+pub(super) fn mark_beyond(codes: &mut [u8], x0: usize, iv: &[(usize, usize)]) {
+    // Branch-free, so the loops vectorise.
+    let beyond = |k: &mut [u8]| k.iter_mut().for_each(|k| *k += (*k == 1) as u8);
+    let mut from = 0;
+    for (a, b) in pieces_in(iv, x0, codes.len()) {
+        beyond(&mut codes[from..a]);
+        from = b;
+    }
+    beyond(&mut codes[from..]);
 }
 
 /// Cells with `v >= c` (and, unless `exact`, a data code).

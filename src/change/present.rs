@@ -149,6 +149,10 @@ impl RowSink for TeeSink<'_> {
         self.runs.take_rows(y0, &rows);
         self.inner.write_rows(y0, rows)
     }
+
+    fn row_ready(&mut self, row: usize, classes: &[u8]) {
+        self.inner.row_ready(row, classes);
+    }
 }
 
 #[cfg(test)]

@@ -2,7 +2,7 @@
 //! fed to the model builder.
 
 use super::place::PlacedRecord;
-use super::{PassInput, PassOutput};
+use super::{PassInput, PassOutput, RowSink};
 use crate::access::AccessMask;
 use crate::area::{CellAreas, RowAreas};
 use crate::model::{ModelBuilder, RowM, Totals};
@@ -60,6 +60,7 @@ impl Consumer {
         rows_records: &BTreeMap<usize, Vec<(usize, usize)>>,
         placed: &mut [PlacedRecord],
         raster: &SuitabilityRaster,
+        sink: &mut dyn RowSink,
     ) -> Result<Vec<u8>> {
         let w = self.width;
         let mut classes = codes;
@@ -105,6 +106,7 @@ impl Consumer {
             self.builder
                 .push_row(row, cls, &row_areas, &self.rec_counts, m)?;
             self.in_m = in_m;
+            sink.row_ready(row, cls); // while the row is in cache
         }
         Ok(classes)
     }

@@ -183,6 +183,7 @@ pub(crate) fn run_pass(
                     input.rows_records,
                     input.placed,
                     raster,
+                    sink,
                 )?;
                 let spent = sink.write_rows(y0, classes)?;
                 give(&pool, spent);

@@ -9,11 +9,21 @@ pub trait RowSink {
     /// Receive whole rows starting at `y0`. A later call for the same rows replaces them.
     /// Returns the buffer for reuse.
     fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>>;
+
+    /// Row `row` is final (rows come in order, each before the strip holding it is written;
+    /// a later row 0 starts a second classification): a sink may take from it now, while
+    /// it is in the cache. A sink told its rows this way does not look at them again in
+    /// [`RowSink::write_rows`].
+    fn row_ready(&mut self, _row: usize, _classes: &[u8]) {}
 }
 
 impl RowSink for crate::raster_io::ClassWriter {
     fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         crate::raster_io::ClassWriter::write_rows(self, y0, rows)
+    }
+
+    fn row_ready(&mut self, row: usize, classes: &[u8]) {
+        crate::raster_io::ClassWriter::fold_row(self, row, classes)
     }
 }
 

@@ -47,7 +47,10 @@ pub struct ClassWriter {
     width: usize,
     /// Internal overviews, folded from the rows as they are written.
     overviews: crate::class_overviews::OverviewFolder,
+    /// Rows folded into the overviews so far.
     next_row: usize,
+    /// The rows come through [`ClassWriter::fold_row`], not [`ClassWriter::write_rows`].
+    told: bool,
     ready: Vec<crate::class_overviews::Ready>,
 }
 
@@ -132,23 +135,37 @@ impl ClassWriter {
             // No overviews folded unless asked ([`ClassWriter::create`]).
             overviews: crate::class_overviews::OverviewFolder::new(grid.width, grid.height, &[]),
             next_row: 0,
+            told: false,
             ready: Vec::new(),
         })
+    }
+
+    /// Fold row `row` into the overviews now (see [`crate::RowSink::row_ready`]); the
+    /// rows are then not folded again when written.
+    pub fn fold_row(&mut self, row: usize, classes: &[u8]) {
+        self.told = true;
+        self.fold(row, classes);
+    }
+
+    fn fold(&mut self, row: usize, classes: &[u8]) {
+        if row < self.next_row {
+            self.overviews.reset(); // a second classification replaces the rows
+            self.ready.clear();
+            self.next_row = 0;
+        }
+        if row == self.next_row {
+            self.overviews.push_row(row, classes, &mut self.ready);
+            self.next_row = row + 1;
+        }
     }
 
     /// Write rows starting at `y0`; `rows` holds whole rows. Returns the buffer for reuse.
     pub fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> Result<Vec<u8>> {
         let n = rows.len() / self.width;
-        if y0 < self.next_row {
-            self.overviews.reset(); // a second classification replaces the rows
-            self.ready.clear();
-            self.next_row = 0;
-        }
-        if y0 == self.next_row {
+        if !self.told {
             for (i, r) in rows.chunks_exact(self.width).enumerate() {
-                self.overviews.push_row(y0 + i, r, &mut self.ready);
+                self.fold(y0 + i, r);
             }
-            self.next_row = y0 + n;
         }
         // Write the strip's tiles and flush: left to GDAL's block cache (shared with the decode
         // workers' reads and with every run of a process, e.g. a batch), the order in which

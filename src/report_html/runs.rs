@@ -228,6 +228,8 @@ pub struct NodataTee<'a> {
     /// The nodata runs kept.
     pub runs: ClassRuns,
     next_row: usize,
+    /// Rows come through `row_ready`.
+    told: bool,
 }
 
 impl<'a> NodataTee<'a> {
@@ -240,13 +242,14 @@ impl<'a> NodataTee<'a> {
                 ..ClassRuns::new(width)
             },
             next_row: 0,
+            told: false,
         }
     }
 }
 
-impl crate::RowSink for NodataTee<'_> {
-    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> crate::Result<Vec<u8>> {
-        if y0 < self.next_row {
+impl NodataTee<'_> {
+    fn keep(&mut self, row: usize, classes: &[u8]) {
+        if row < self.next_row {
             // A second classification (binary input) replaces the rows: start again.
             self.runs = ClassRuns {
                 nodata_only: true,
@@ -254,11 +257,27 @@ impl crate::RowSink for NodataTee<'_> {
             };
             self.next_row = 0;
         }
-        if y0 == self.next_row {
-            self.runs.push_rows(&rows);
-            self.next_row = y0 + rows.len() / self.runs.width.max(1);
+        if row == self.next_row {
+            self.runs.push_row(classes);
+            self.next_row = row + 1;
+        }
+    }
+}
+
+impl crate::RowSink for NodataTee<'_> {
+    fn write_rows(&mut self, y0: usize, rows: Vec<u8>) -> crate::Result<Vec<u8>> {
+        if !self.told {
+            for (i, r) in rows.chunks_exact(self.runs.width.max(1)).enumerate() {
+                self.keep(y0 + i, r);
+            }
         }
         self.inner.write_rows(y0, rows)
+    }
+
+    fn row_ready(&mut self, row: usize, classes: &[u8]) {
+        self.told = true;
+        self.keep(row, classes);
+        self.inner.row_ready(row, classes);
     }
 }
 

@@ -10,6 +10,7 @@
 //! `classes.tif` is written as a tiled, Zstandard-compressed uint8 GeoTIFF on the input
 //! grid with a colour table and category names.
 
+mod blocks;
 mod classes;
 mod strips;
 mod tally;

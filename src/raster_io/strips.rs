@@ -1,5 +1,6 @@
 //! Row strips read and thresholded in the decode workers, one GDAL handle per thread.
 
+use super::blocks::{read_window, window_width};
 use super::class;
 use super::open_readonly;
 use super::tally::{code_and_bin, mark_beyond, Tally};
@@ -58,6 +59,8 @@ pub struct StripReader {
 pub struct StripBuffers {
     f32s: Vec<f32>,
     f64s: Vec<f64>,
+    spare32: Vec<f32>,
+    spare64: Vec<f64>,
 }
 
 impl StripReader {
@@ -97,7 +100,6 @@ impl StripReader {
             .ds
             .rasterband(1)
             .map_err(Error::gdal(&self.path, "reading band 1"))?;
-        let what = || format!("reading rows {y0}..{}", y0 + rows);
         // Every cell of both is written below; a pooled buffer keeps its old bytes until then.
         codes.resize(n, 0);
         match tally {
@@ -119,7 +121,7 @@ impl StripReader {
         // global 30" grid is 44 MB of float32, read back from memory). A striped file is read
         // whole-width: its blocks are rows, and a narrower window would decode each block
         // again. Blocks decoded while sampling the records are taken, not decoded again.
-        let block = band.block_size();
+        let (block, p) = (band.block_size(), self.path.as_path());
         let cw = window_width(self.width, block.0);
         let whole_blocks = pass_reads_blocks(self.width, block) && cw == block.0;
         for x0 in (0..self.width).step_by(cw) {
@@ -129,20 +131,21 @@ impl StripReader {
             } else {
                 None
             };
-            let read = |e| Error::gdal(&self.path, what())(e);
             if self.as_f32 {
                 let values: &[f32] = match &kept {
                     Some(TileValues::F32(v)) => v,
                     _ => {
-                        bufs.f32s.resize(ww * rows, 0.0);
-                        band.read_into_slice::<f32>(
-                            (x0 as isize, y0 as isize),
+                        let (buf, spare) = (&mut bufs.f32s, &mut bufs.spare32);
+                        read_window(
+                            &band,
+                            p,
+                            (x0, y0),
                             (ww, rows),
-                            (ww, rows),
-                            &mut bufs.f32s,
-                            None,
-                        )
-                        .map_err(read)?;
+                            block,
+                            whole_blocks,
+                            buf,
+                            spare,
+                        )?;
                         &bufs.f32s
                     }
                 };
@@ -160,15 +163,17 @@ impl StripReader {
                 let values: &[f64] = match &kept {
                     Some(TileValues::F64(v)) => v,
                     _ => {
-                        bufs.f64s.resize(ww * rows, 0.0);
-                        band.read_into_slice::<f64>(
-                            (x0 as isize, y0 as isize),
+                        let (buf, spare) = (&mut bufs.f64s, &mut bufs.spare64);
+                        read_window(
+                            &band,
+                            p,
+                            (x0, y0),
                             (ww, rows),
-                            (ww, rows),
-                            &mut bufs.f64s,
-                            None,
-                        )
-                        .map_err(read)?;
+                            block,
+                            whole_blocks,
+                            buf,
+                            spare,
+                        )?;
                         &bufs.f64s
                     }
                 };
@@ -187,16 +192,6 @@ impl StripReader {
         self.non_finite.add_strip(y0, rows, non_finite);
         Ok(binary)
     }
-}
-
-/// Columns per read window: the raster's width when its blocks span it (a striped file),
-/// else whole blocks adding up to at least 256 columns (256 KB of float32 in a 256-row
-/// strip, which stays in the core's cache).
-fn window_width(width: usize, block_width: usize) -> usize {
-    if block_width == 0 || block_width >= width {
-        return width;
-    }
-    (block_width * 256usize.div_ceil(block_width)).min(width)
 }
 
 /// One row segment of values with the thresholds in their type.

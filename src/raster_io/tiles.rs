@@ -7,6 +7,7 @@
 //! decoded blocks are kept, up to [`CACHE_BYTES`], and the pass takes each one instead of
 //! decoding it again. The values are the ones GDAL decoded; nothing else changes.
 
+use super::blocks::read_window;
 use super::{open_readonly, SuitabilityRaster, STRIP_ROWS};
 use crate::{Error, Result};
 use gdal::{Dataset, GdalOpenFlags};
@@ -184,38 +185,44 @@ impl Job<'_> {
             .map_err(Error::gdal(self.path, "reading band 1"))?;
         let ((w, h), (bw, bh)) = (self.size, self.block);
         let mut out = Vec::new();
+        let (mut spare32, mut spare64) = (Vec::new(), Vec::new());
         for ((by, bx), idx) in blocks {
             let (x0, y0) = (bx * bw, by * bh);
             let (cw, ch) = (bw.min(w - x0), bh.min(h - y0));
-            let what = || format!("reading the block at row {y0}, col {x0}");
             let at = |i: usize| {
                 let (r, c) = self.cells[i];
                 (r - y0) * cw + (c - x0)
             };
             let tile = if self.as_f32 {
-                let mut buf = vec![0f32; cw * ch];
-                band.read_into_slice::<f32>(
-                    (x0 as isize, y0 as isize),
+                let mut buf = Vec::new();
+                let spare = &mut spare32;
+                read_window(
+                    &band,
+                    self.path,
+                    (x0, y0),
                     (cw, ch),
-                    (cw, ch),
+                    (bw, bh),
+                    true,
                     &mut buf,
-                    None,
-                )
-                .map_err(Error::gdal(self.path, what()))?;
+                    spare,
+                )?;
                 for &i in idx {
                     out.push((i, self.data(buf[at(i)] as f64)));
                 }
                 TileValues::F32(buf)
             } else {
-                let mut buf = vec![0f64; cw * ch];
-                band.read_into_slice::<f64>(
-                    (x0 as isize, y0 as isize),
+                let mut buf = Vec::new();
+                let spare = &mut spare64;
+                read_window(
+                    &band,
+                    self.path,
+                    (x0, y0),
                     (cw, ch),
-                    (cw, ch),
+                    (bw, bh),
+                    true,
                     &mut buf,
-                    None,
-                )
-                .map_err(Error::gdal(self.path, what()))?;
+                    spare,
+                )?;
                 for &i in idx {
                     out.push((i, self.data(buf[at(i)])));
                 }

@@ -126,13 +126,20 @@ fn extent_bitmap(aoo: &AooGrid, pts: &[(f64, f64)], q: f64) -> Result<Option<Qua
     if pts.is_empty() {
         return Ok(None);
     }
-    let ct = aoo.transform_from(&crate::crs::wgs84()?)?;
-    let (mut xs, mut ys): (Vec<f64>, Vec<f64>) = pts.iter().copied().unzip();
-    if crate::crs::transform_points(&ct, &mut xs, &mut ys, "range extent to the AOO grid CRS")
-        .is_err()
-    {
-        return Ok(None);
-    }
+    // The closed form where it applies (the margin, and the fallback to sorted keys for a
+    // centre outside, absorb its sub-millimetre difference from PROJ); else PROJ.
+    let (xs, ys) = match super::laea::project_points(aoo.spec().centre, pts) {
+        Some(v) => v,
+        None => {
+            let ct = aoo.transform_from(&crate::crs::wgs84()?)?;
+            let (mut xs, mut ys): (Vec<f64>, Vec<f64>) = pts.iter().copied().unzip();
+            let what = "range extent to the AOO grid CRS";
+            if crate::crs::transform_points(&ct, &mut xs, &mut ys, what).is_err() {
+                return Ok(None);
+            }
+            (xs, ys)
+        }
+    };
     let fold = |v: &[f64]| {
         v.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |m, &x| {
             (m.0.min(x), m.1.max(x))

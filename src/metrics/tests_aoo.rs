@@ -101,3 +101,29 @@ fn whole_disk_bitmap_counts_equal_sorted_counts() {
     assert_eq!(bitmap.per_origin(), sorted.per_origin());
     assert!(!bitmap.set(f64::NAN, 0.0), "a point that did not project");
 }
+
+#[test]
+fn point_laea_matches_proj() {
+    // Source: PROJ's `laea` (through GDAL) for the same points, as for the row form above.
+    for (lon0, lat0) in [(12.34, 45.67), (-170.0, -60.5), (100.0, 80.0)] {
+        let aoo = AooGrid::new(lon0, lat0, 2.0).unwrap();
+        let pts: Vec<(f64, f64)> = (0..50)
+            .map(|i| {
+                (
+                    lon0 - 40.0 + i as f64 * 1.7,
+                    (lat0 - 20.0 + i as f64 * 0.8).clamp(-89.0, 89.0),
+                )
+            })
+            .collect();
+        let (gx, gy) = super::laea::project_points(aoo.spec().centre, &pts).unwrap();
+        let ct = aoo.transform_from(&crate::crs::wgs84().unwrap()).unwrap();
+        let (mut xs, mut ys): (Vec<f64>, Vec<f64>) = pts.iter().copied().unzip();
+        ct.transform_coords(&mut xs, &mut ys, &mut []).unwrap();
+        for i in 0..pts.len() {
+            assert!(
+                (xs[i] - gx[i]).abs() < 1e-4 && (ys[i] - gy[i]).abs() < 1e-4,
+                "point {i}"
+            );
+        }
+    }
+}

@@ -135,13 +135,23 @@ fn corners_of_line(
     }
     let (a, b) = (RowCursor { runs: above }, RowCursor { runs: below });
     // Columns where the cell above or below may change: run ends of both rows.
+    // Each row's runs are in column order and apart, so its ends ascend: merge the two.
     let mut cuts: Vec<u32> = Vec::with_capacity(2 * (above.len() + below.len()) + 2);
-    for r in above.iter().chain(below) {
-        cuts.push(r.start);
-        cuts.push(r.end);
+    let mut x = above.iter().flat_map(|r| [r.start, r.end]).peekable();
+    let mut y = below.iter().flat_map(|r| [r.start, r.end]).peekable();
+    loop {
+        let next = match (x.peek(), y.peek()) {
+            (Some(&p), Some(&q)) if p <= q => x.next(),
+            (Some(_), Some(_)) => y.next(),
+            (Some(_), None) => x.next(),
+            (None, _) => y.next(),
+        };
+        let Some(c) = next else { break };
+        if cuts.last() != Some(&c) {
+            cuts.push(c);
+        }
     }
-    cuts.sort_unstable();
-    cuts.dedup();
+    debug_assert!(cuts.windows(2).all(|p| p[0] < p[1]));
     let last_col = if wrap { w - 1 } else { w };
     let west_of = |c: u32| -> Option<u32> {
         if c > 0 {

@@ -60,7 +60,8 @@ pub(crate) fn distinct_points(points: &[(f64, f64)]) -> Vec<(f64, f64)> {
             }
         })
         .collect();
-    v.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1)));
+    // Points equal in this order are equal bit for bit, so an unstable sort is exact.
+    v.sort_unstable_by(|a, b| a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1)));
     v.dedup();
     v
 }

@@ -92,26 +92,10 @@ pub(crate) struct Side {
     hi: i64,
 }
 
-/// Sort and merge overlapping or touching column intervals in place.
-fn merge_intervals(v: &mut Vec<(usize, usize)>) {
-    v.sort_unstable();
-    let mut n = 0;
-    for i in 0..v.len() {
-        let (a, b) = v[i];
-        if n > 0 && a <= v[n - 1].1 + 1 {
-            v[n - 1].1 = v[n - 1].1.max(b);
-        } else {
-            v[n] = (a, b);
-            n += 1;
-        }
-    }
-    v.truncate(n);
-}
-
-/// Whether columns a..=b all lie in the merged intervals `v`.
+/// Whether columns a..=b all lie in the merged half-open intervals `v`.
 fn covered(v: &[(usize, usize)], a: usize, b: usize) -> bool {
-    let k = v.partition_point(|&(_, hi)| hi < a);
-    k < v.len() && v[k].0 <= a && v[k].1 >= b
+    let k = v.partition_point(|&(_, end)| end <= a);
+    k < v.len() && v[k].0 <= a && v[k].1 > b
 }
 
 impl PointBuffer {
@@ -237,8 +221,9 @@ impl PointBuffer {
             .iter()
             .filter(|sd| sd.lo > sd.j_a)
             .map(|sd| span(sd, sd.j_a, sd.lo))
+            .map(|(a, b)| (a, b + 1))
             .collect();
-        merge_intervals(&mut inner);
+        super::merge_half_open(&mut inner);
         // Only the columns between the bounds need the exact distance, and not even those
         // when other points' inner discs already cover them (clustered records).
         for sd in &sides {

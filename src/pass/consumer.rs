@@ -72,7 +72,8 @@ impl Consumer {
             // Per-cell membership only where a per-cell sum needs it.
             let per_cell =
                 matches!(row_areas, RowAreas::PerCell(_)) || matches!(tally, Tally::Bins(_));
-            match m_rows.map(|m| m[r].as_slice()) {
+            let iv = m_rows.map(|m| m[r].as_slice());
+            match iv {
                 Some(iv) if per_cell => crate::access::fill_from_intervals(iv, &mut self.in_m),
                 Some(_) => {}
                 None if whole => {}
@@ -85,7 +86,7 @@ impl Consumer {
                 }
             }
             let in_m = std::mem::take(&mut self.in_m);
-            let m = match m_rows.map(|m| m[r].as_slice()) {
+            let m = match iv {
                 _ if whole => RowM::Whole,
                 Some(iv) if !per_cell => RowM::Intervals(iv),
                 _ => RowM::Cells(&in_m),
@@ -129,12 +130,7 @@ impl Consumer {
         let counts = [n0, n1, w as u64 - n0 - n1 - nd, nd];
         let m_cells = match m {
             RowM::Whole => w as u64 - nd,
-            RowM::Cells(in_m) => count_in(cls, in_m, |k| k != class::NODATA),
-            RowM::Intervals(iv) => iv
-                .iter()
-                .map(|&(a, b)| (b - a) as u64 - count_eq(&cls[a..b], class::NODATA))
-                .sum(),
-            RowM::Unknown => 0,
+            _ => count_in_m(cls, m, |k| k != class::NODATA),
         };
         for (total, n) in self.cells.iter_mut().zip(counts) {
             *total += n;
@@ -187,12 +183,7 @@ impl Consumer {
                     let all = count_eq(bins, b as u8);
                     let inside = match m {
                         RowM::Whole => all,
-                        RowM::Cells(in_m) => count_eq_in(bins, in_m, b as u8),
-                        RowM::Intervals(iv) => iv
-                            .iter()
-                            .map(|&(x, y)| count_eq(&bins[x..y], b as u8))
-                            .sum(),
-                        RowM::Unknown => 0,
+                        _ => count_in_m(bins, m, |x| x == b as u8),
                     };
                     self.bin_area[b].add(all as f64 * a);
                     self.bin_area_m[b].add(inside as f64 * a);
@@ -273,20 +264,31 @@ impl Consumer {
     }
 }
 
-/// Cells equal to `b`: byte counters over runs of 255 cells (a compare and a byte add per
-/// cell, which the compiler vectorises), widened once per run.
+/// Cells equal to `b`, counted as in [`count_if`].
 fn count_eq(bins: &[u8], b: u8) -> u64 {
-    bins.chunks(255)
-        .map(|c| c.iter().fold(0u8, |n, &x| n + (x == b) as u8) as u64)
+    count_if(bins, |x| x == b)
+}
+
+/// Cells satisfying `keep`: byte counters over runs of 255 cells (a compare and a byte add
+/// per cell, which the compiler vectorises), widened once per run.
+fn count_if(cells: &[u8], keep: impl Fn(u8) -> bool) -> u64 {
+    cells
+        .chunks(255)
+        .map(|c| c.iter().fold(0u8, |n, &x| n + keep(x) as u8) as u64)
         .sum()
 }
 
-/// Cells equal to `b` whose `in_m` is set, counted as in [`count_eq`].
-fn count_eq_in(bins: &[u8], in_m: &[bool], b: u8) -> u64 {
-    count_in(bins, in_m, |x| x == b)
+/// Cells satisfying `keep` inside M, whatever form the row's M takes (none when unknown).
+fn count_in_m(cells: &[u8], m: &RowM<'_>, keep: impl Fn(u8) -> bool + Copy) -> u64 {
+    match m {
+        RowM::Whole => count_if(cells, keep),
+        RowM::Cells(in_m) => count_in(cells, in_m, keep),
+        RowM::Intervals(iv) => iv.iter().map(|&(a, b)| count_if(&cells[a..b], keep)).sum(),
+        RowM::Unknown => 0,
+    }
 }
 
-/// Cells satisfying `keep` whose `in_m` is set, counted as in [`count_eq`].
+/// Cells satisfying `keep` whose `in_m` is set, counted as in [`count_if`].
 fn count_in(cells: &[u8], in_m: &[bool], keep: impl Fn(u8) -> bool) -> u64 {
     cells
         .chunks(255)
@@ -301,6 +303,8 @@ fn count_in(cells: &[u8], in_m: &[bool], keep: impl Fn(u8) -> bool) -> u64 {
 
 #[cfg(test)]
 mod tests {
+    use crate::model::RowM;
+
     // Against a plain per-cell count (no outside source: two ways of counting the same cells).
     #[test]
     fn bin_counts_equal_a_plain_count() {
@@ -312,6 +316,8 @@ mod tests {
             })
             .collect();
         let in_m: Vec<bool> = (0..bins.len()).map(|i| i % 3 != 0).collect();
+        let iv = [(0usize, 1usize), (17, 4000), (4001, 10_007)];
+        let in_iv = |i: usize| iv.iter().any(|&(a, b)| a <= i && i < b);
         for b in [0u8, 1, 2, 3, 4, 5, 6, 255] {
             let plain = bins.iter().filter(|&&k| k == b).count() as u64;
             let plain_in = bins
@@ -319,9 +325,16 @@ mod tests {
                 .zip(&in_m)
                 .filter(|&(&k, &m)| k == b && m)
                 .count() as u64;
+            let plain_iv = (0..bins.len())
+                .filter(|&i| bins[i] == b && in_iv(i))
+                .count() as u64;
             assert!(plain > 1000, "every value occurs");
             assert_eq!(super::count_eq(&bins, b), plain);
-            assert_eq!(super::count_eq_in(&bins, &in_m, b), plain_in);
+            let m = RowM::Cells(&in_m);
+            assert_eq!(super::count_in_m(&bins, &m, |x| x == b), plain_in);
+            let m = RowM::Intervals(&iv);
+            assert_eq!(super::count_in_m(&bins, &m, |x| x == b), plain_iv);
+            assert_eq!(super::count_in_m(&bins, &RowM::Whole, |x| x == b), plain);
         }
     }
 }

@@ -56,7 +56,7 @@ pub(crate) struct PassOutput {
 }
 
 /// A decoded strip: 0 below T, 1 suitable, 255 nodata (and, when the workers apply M,
-/// 2 suitable beyond M, see [`apply_m_in_worker`]).
+/// 2 suitable beyond M, marked while coding).
 struct StripClasses {
     index: usize,
     codes: Vec<u8>,

@@ -59,24 +59,11 @@ impl RowTally {
         exact: bool,
     ) {
         let len = values.len();
-        // M's pieces in this segment, relative to x0; `whole` when one covers it.
-        let mut pieces = [(0usize, 0usize); 8];
-        let mut n_pieces = 0;
-        let mut many: Vec<(usize, usize)> = Vec::new();
-        let whole = match m {
-            None => true,
-            Some(iv) => {
-                for p in pieces_in(iv, x0, len) {
-                    if n_pieces < pieces.len() {
-                        pieces[n_pieces] = p;
-                        n_pieces += 1;
-                    } else {
-                        many.push(p);
-                    }
-                }
-                n_pieces == 1 && pieces[0] == (0, len)
-            }
-        };
+        // M covers the whole segment: the counts inside M are the counts.
+        let whole = m.is_none_or(|iv| {
+            let mut p = pieces_in(iv, x0, len);
+            p.next() == Some((0, len)) && p.next().is_none()
+        });
         let (ge, ge_m) = (
             &mut self.ge[r * self.n..(r + 1) * self.n],
             &mut self.ge_m[r * self.n..(r + 1) * self.n],
@@ -87,14 +74,11 @@ impl RowTally {
                 break; // the candidates ascend: no cell reaches the next ones either
             }
             ge[k] += g;
-            ge_m[k] += if whole {
-                g
-            } else {
-                pieces[..n_pieces]
-                    .iter()
-                    .chain(&many)
-                    .map(|&(a, b)| count_ge(&values[a..b], &codes[a..b], c, exact))
-                    .sum()
+            ge_m[k] += match m {
+                Some(iv) if !whole => pieces_in(iv, x0, len)
+                    .map(|(a, b)| count_ge(&values[a..b], &codes[a..b], c, exact))
+                    .sum(),
+                _ => g,
             };
         }
     }
